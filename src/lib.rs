@@ -13,10 +13,9 @@
 //! ```
 //!
 //! ```no_run
-//! // build.rs: reads codecs.toml next to Cargo.toml, writes $OUT_DIR/codecs.rs.
-//! fn main() {
-//!     precast::build("codecs.toml");
-//! }
+//! // build.rs, inside `fn main`: reads codecs.toml next to Cargo.toml, writes
+//! // $OUT_DIR/codecs.rs.
+//! precast::build("codecs.toml");
 //! ```
 //!
 //! ```ignore
@@ -142,7 +141,8 @@ fn alphabet_bytes(codec: &spec::CodecSpec) -> Vec<u8> {
 fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
     let mut built = Vec::with_capacity(spec.codecs.len());
     let mut inputs = Vec::new();
-    let mut hash_parts: Vec<Vec<u8>> = vec![text.as_bytes().to_vec()];
+    // Line endings normalised, so a checkout with CRLF renders the same header.
+    let mut hash_parts: Vec<Vec<u8>> = vec![text.replace("\r\n", "\n").into_bytes()];
     let mut warnings = Vec::new();
     for codec in &spec.codecs {
         let b = build_codec(codec)?;

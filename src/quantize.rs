@@ -145,14 +145,16 @@ pub fn entropy(counts: &[u64]) -> f64 {
         return 0.0;
     }
     let t = total as f64;
-    counts
+    let h: f64 = counts
         .iter()
         .filter(|&&c| c > 0)
         .map(|&c| {
             let p = c as f64 / t;
             -p * log2(p)
         })
-        .sum()
+        .sum();
+    // A single symbol gives -0.0; report it as 0.
+    h.max(0.0)
 }
 
 /// Cross-entropy of the counts coded with `slots` out of `2^scale_bits`, bits per symbol.
