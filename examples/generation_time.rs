@@ -61,7 +61,11 @@ fn main() {
         render.push(t.elapsed().as_secs_f64());
         bytes = out.source.len();
     }
-    let profile = if cfg!(debug_assertions) { "unoptimised" } else { "optimised" };
+    let profile = if cfg!(debug_assertions) {
+        "unoptimised"
+    } else {
+        "optimised"
+    };
     println!(
         "16 codecs at scale_bits 12 ({profile}): render {:.3} s median of {runs}, spec parse alone {:.4} s, {} KiB of source",
         median(render),

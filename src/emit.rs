@@ -89,7 +89,9 @@ fn splice(text: &str, all_rows: &[Rows]) -> Result<String> {
     for (at, rows) in spots {
         out.push_str(&text[done..at]);
         let line_start = text[..at].rfind('\n').map_or(0, |i| i + 1);
-        let indent = &text[line_start..line_start + text[line_start..].len() - text[line_start..].trim_start_matches(' ').len()];
+        let indent = &text[line_start
+            ..line_start + text[line_start..].len()
+                - text[line_start..].trim_start_matches(' ').len()];
         out.push_str("[\n");
         for row in &rows.rows {
             let _ = writeln!(out, "{indent}    {row}");
@@ -160,7 +162,13 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
         .map(|(line, chunk)| {
             let mut row = String::new();
             for e in chunk {
-                let _ = write!(row, "Step({}, {}, {}), ", symbol_label(e.symbol), e.bits, e.base);
+                let _ = write!(
+                    row,
+                    "Step({}, {}, {}), ",
+                    symbol_label(e.symbol),
+                    e.bits,
+                    e.base
+                );
             }
             let _ = write!(row, "// {}", line * 8);
             row
@@ -177,135 +185,143 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
         })
         .collect();
 
-    let (symbol_items, rule_rows, rule_len, rule_index, absent_field, absent_check, unknown_variant, unknown_display) =
-        match spec.kind {
-            Kind::Bytes => {
-                let bytes: Vec<u8> = spec
-                    .symbols
-                    .iter()
-                    .map(|s| match s {
-                        SymbolName::Byte(b) => *b,
-                        SymbolName::Token(_) => 0,
-                    })
-                    .collect();
-                let byte_lits = bytes.iter().map(|b| Literal::u8_unsuffixed(*b));
-                let mut rows = Vec::with_capacity(256);
-                for b in 0..=255u8 {
-                    let (rule, absent) = match bytes.iter().position(|&x| x == b) {
-                        Some(s) => (tans.rules[s], 0),
-                        None => (tans.rules[0], 1),
-                    };
-                    let what = if absent == 1 {
-                        "not in the alphabet".to_string()
-                    } else {
-                        byte_literal(b)
-                    };
-                    rows.push(format!(
-                        "Rule({:#010x}, {}, {absent}), // {b}: {what}",
-                        rule.bias, rule.offset
-                    ));
-                }
-                (
-                    quote! {
-                        /// A symbol of this codec: one of the byte values in [`ALPHABET`].
-                        pub type Symbol = u8;
-                        /// The alphabet, in spec order.
-                        pub const ALPHABET: [Symbol; ALPHABET_LEN] = [#(#byte_lits),*];
-                    },
-                    rows,
-                    quote!(256),
-                    quote!(usize::from(symbol)),
-                    quote! {
-                        /// 1 for a byte outside the alphabet (its other fields are harmless).
-                        u8,
-                    },
-                    quote! {
-                        absent |= rule.2;
-                    },
-                    quote! {
-                        /// `input[position]` is not in the alphabet.
-                        UnknownSymbol {
-                            /// Index of the first such symbol in the input.
-                            position: usize,
-                        },
-                    },
-                    quote! {
-                        Error::UnknownSymbol { position } => {
-                            ::core::write!(f, "the symbol at position {} is not in the alphabet", position)
-                        }
-                    },
-                )
-            }
-            Kind::Tokens => {
-                let variants: Vec<Ident> = spec
-                    .symbols
-                    .iter()
-                    .map(|s| match s {
-                        SymbolName::Token(t) => Ident::new(&variant_name(t), Span::call_site()),
-                        SymbolName::Byte(b) => format_ident!("B{}", b),
-                    })
-                    .collect();
-                let names: Vec<String> = spec
-                    .symbols
-                    .iter()
-                    .map(|s| match s {
-                        SymbolName::Token(t) => t.clone(),
-                        SymbolName::Byte(b) => b.to_string(),
-                    })
-                    .collect();
-                let repr = if alphabet_count > 256 {
-                    quote!(u16)
-                } else {
-                    quote!(u8)
+    let (
+        symbol_items,
+        rule_rows,
+        rule_len,
+        rule_index,
+        absent_field,
+        absent_check,
+        unknown_variant,
+        unknown_display,
+    ) = match spec.kind {
+        Kind::Bytes => {
+            let bytes: Vec<u8> = spec
+                .symbols
+                .iter()
+                .map(|s| match s {
+                    SymbolName::Byte(b) => *b,
+                    SymbolName::Token(_) => 0,
+                })
+                .collect();
+            let byte_lits = bytes.iter().map(|b| Literal::u8_unsuffixed(*b));
+            let mut rows = Vec::with_capacity(256);
+            for b in 0..=255u8 {
+                let (rule, absent) = match bytes.iter().position(|&x| x == b) {
+                    Some(s) => (tans.rules[s], 0),
+                    None => (tans.rules[0], 1),
                 };
-                let variant_docs = names.iter().map(|n| format!(" Token `{n}`."));
-                let rows = tans
-                    .rules
-                    .iter()
-                    .zip(&names)
-                    .map(|(r, n)| format!("Rule({:#010x}, {}), // {n}", r.bias, r.offset))
-                    .collect();
-                (
-                    quote! {
-                        /// A symbol of this codec: one token of the alphabet.
-                        #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
-                        #[repr(#repr)]
-                        pub enum Symbol {
-                            #(#[doc = #variant_docs] #variants,)*
-                        }
-                        /// Every symbol, in spec order.
-                        pub const ALL: [Symbol; ALPHABET_LEN] = [#(Symbol::#variants),*];
-                        impl Symbol {
-                            /// The token's name as written in the spec.
-                            pub const fn name(self) -> &'static str {
-                                match self {
-                                    #(Symbol::#variants => #names,)*
-                                }
-                            }
-                            /// The token with this name, if any.
-                            pub fn from_name(name: &str) -> ::core::option::Option<Symbol> {
-                                match name {
-                                    #(#names => ::core::option::Option::Some(Symbol::#variants),)*
-                                    _ => ::core::option::Option::None,
-                                }
-                            }
-                        }
-                        impl ::core::fmt::Display for Symbol {
-                            fn fmt(&self, f: &mut ::core::fmt::Formatter<'_>) -> ::core::fmt::Result {
-                                f.write_str(self.name())
-                            }
-                        }
-                    },
-                    rows,
-                    quote!(ALPHABET_LEN),
-                    quote!(symbol as usize),
-                    quote!(),
-                    quote!(),
-                    quote!(),
-                    quote!(),
-                )
+                let what = if absent == 1 {
+                    "not in the alphabet".to_string()
+                } else {
+                    byte_literal(b)
+                };
+                rows.push(format!(
+                    "Rule({:#010x}, {}, {absent}), // {b}: {what}",
+                    rule.bias, rule.offset
+                ));
             }
-        };
+            (
+                quote! {
+                    /// A symbol of this codec: one of the byte values in [`ALPHABET`].
+                    pub type Symbol = u8;
+                    /// The alphabet, in spec order.
+                    pub const ALPHABET: [Symbol; ALPHABET_LEN] = [#(#byte_lits),*];
+                },
+                rows,
+                quote!(256),
+                quote!(usize::from(symbol)),
+                quote! {
+                    /// 1 for a byte outside the alphabet (its other fields are harmless).
+                    u8,
+                },
+                quote! {
+                    absent |= rule.2;
+                },
+                quote! {
+                    /// `input[position]` is not in the alphabet.
+                    UnknownSymbol {
+                        /// Index of the first such symbol in the input.
+                        position: usize,
+                    },
+                },
+                quote! {
+                    Error::UnknownSymbol { position } => {
+                        ::core::write!(f, "the symbol at position {} is not in the alphabet", position)
+                    }
+                },
+            )
+        }
+        Kind::Tokens => {
+            let variants: Vec<Ident> = spec
+                .symbols
+                .iter()
+                .map(|s| match s {
+                    SymbolName::Token(t) => Ident::new(&variant_name(t), Span::call_site()),
+                    SymbolName::Byte(b) => format_ident!("B{}", b),
+                })
+                .collect();
+            let names: Vec<String> = spec
+                .symbols
+                .iter()
+                .map(|s| match s {
+                    SymbolName::Token(t) => t.clone(),
+                    SymbolName::Byte(b) => b.to_string(),
+                })
+                .collect();
+            let repr = if alphabet_count > 256 {
+                quote!(u16)
+            } else {
+                quote!(u8)
+            };
+            let variant_docs = names.iter().map(|n| format!(" Token `{n}`."));
+            let rows = tans
+                .rules
+                .iter()
+                .zip(&names)
+                .map(|(r, n)| format!("Rule({:#010x}, {}), // {n}", r.bias, r.offset))
+                .collect();
+            (
+                quote! {
+                    /// A symbol of this codec: one token of the alphabet.
+                    #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
+                    #[repr(#repr)]
+                    pub enum Symbol {
+                        #(#[doc = #variant_docs] #variants,)*
+                    }
+                    /// Every symbol, in spec order.
+                    pub const ALL: [Symbol; ALPHABET_LEN] = [#(Symbol::#variants),*];
+                    impl Symbol {
+                        /// The token's name as written in the spec.
+                        pub const fn name(self) -> &'static str {
+                            match self {
+                                #(Symbol::#variants => #names,)*
+                            }
+                        }
+                        /// The token with this name, if any.
+                        pub fn from_name(name: &str) -> ::core::option::Option<Symbol> {
+                            match name {
+                                #(#names => ::core::option::Option::Some(Symbol::#variants),)*
+                                _ => ::core::option::Option::None,
+                            }
+                        }
+                    }
+                    impl ::core::fmt::Display for Symbol {
+                        fn fmt(&self, f: &mut ::core::fmt::Formatter<'_>) -> ::core::fmt::Result {
+                            f.write_str(self.name())
+                        }
+                    }
+                },
+                rows,
+                quote!(ALPHABET_LEN),
+                quote!(symbol as usize),
+                quote!(),
+                quote!(),
+                quote!(),
+                quote!(),
+            )
+        }
+    };
 
     let (absent_decl, absent_after) = if spec.kind == Kind::Bytes {
         (

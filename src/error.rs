@@ -35,8 +35,14 @@ impl Location {
         let offset = offset.min(bytes.len());
         let before = &bytes[..offset];
         let line = before.iter().filter(|&&b| b == b'\n').count() + 1;
-        let line_start = before.iter().rposition(|&b| b == b'\n').map_or(0, |i| i + 1);
-        let column = String::from_utf8_lossy(&before[line_start..]).chars().count() + 1;
+        let line_start = before
+            .iter()
+            .rposition(|&b| b == b'\n')
+            .map_or(0, |i| i + 1);
+        let column = String::from_utf8_lossy(&before[line_start..])
+            .chars()
+            .count()
+            + 1;
         Location {
             path: path.to_path_buf(),
             line,

@@ -295,12 +295,14 @@ impl Builder {
         }
         let dir = match &self.out_dir {
             Some(d) => d.clone(),
-            None => std::env::var_os("OUT_DIR").map(PathBuf::from).ok_or_else(|| {
-                Error::input(
-                    None,
-                    "OUT_DIR is not set: call this from a build script or set Builder::out_dir",
-                )
-            })?,
+            None => std::env::var_os("OUT_DIR")
+                .map(PathBuf::from)
+                .ok_or_else(|| {
+                    Error::input(
+                        None,
+                        "OUT_DIR is not set: call this from a build script or set Builder::out_dir",
+                    )
+                })?,
         };
         let name = match &self.file_name {
             Some(n) => n.clone(),

@@ -105,16 +105,24 @@ pub fn build(codec: &CodecSpec) -> Result<Model> {
 }
 
 enum TextSpot<'a> {
-    Inline { location: Location, offset: usize },
-    File { path: &'a Path, bytes: &'a [u8], offset: usize },
+    Inline {
+        location: Location,
+        offset: usize,
+    },
+    File {
+        path: &'a Path,
+        bytes: &'a [u8],
+        offset: usize,
+    },
 }
 
 impl TextSpot<'_> {
     fn location(&self) -> (Location, String) {
         match self {
-            TextSpot::Inline { location, offset } => {
-                (location.clone(), format!(" (at byte {offset} of the inline text)"))
-            }
+            TextSpot::Inline { location, offset } => (
+                location.clone(),
+                format!(" (at byte {offset} of the inline text)"),
+            ),
             TextSpot::File {
                 path,
                 bytes,
@@ -162,7 +170,9 @@ impl<'a> Lookup<'a> {
                 for (offset, &b) in data.iter().enumerate() {
                     match self.byte_index[usize::from(b)] {
                         Some(i) => out.push(i),
-                        None => return fail(offset, format!("{} is not in the alphabet", show_byte(b))),
+                        None => {
+                            return fail(offset, format!("{} is not in the alphabet", show_byte(b)))
+                        }
                     }
                 }
                 Ok(out)

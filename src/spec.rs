@@ -226,19 +226,23 @@ impl Ctx<'_> {
                 }
             },
         };
-        let method = match raw.method.as_ref().or(defaults.method.as_ref()) {
-            None => Method::Tans,
-            Some(m) => match m.get_ref().as_str() {
-                "tans" => Method::Tans,
-                "rans" => {
-                    return self.err(
+        let method =
+            match raw.method.as_ref().or(defaults.method.as_ref()) {
+                None => Method::Tans,
+                Some(m) => match m.get_ref().as_str() {
+                    "tans" => Method::Tans,
+                    "rans" => return self.err(
                         m.span(),
                         "method \"rans\" is not available in this version of precast; use \"tans\"",
-                    )
-                }
-                other => return self.err(m.span(), format!("unknown method \"{other}\": expected \"tans\"")),
-            },
-        };
+                    ),
+                    other => {
+                        return self.err(
+                            m.span(),
+                            format!("unknown method \"{other}\": expected \"tans\""),
+                        )
+                    }
+                },
+            };
         let scale_bits = match raw.scale_bits.as_ref().or(defaults.scale_bits.as_ref()) {
             None => DEFAULT_SCALE_BITS,
             Some(b) => {
@@ -258,10 +262,19 @@ impl Ctx<'_> {
         let symbols = match raw.symbols.as_ref().or(defaults.symbols.as_ref()) {
             Some(s) => self.symbols(kind, s)?,
             None if kind == Kind::Bytes => (0..=255u8).map(SymbolName::Byte).collect(),
-            None => return self.err(span, "missing key `symbols`: a tokens codec lists its token names"),
+            None => {
+                return self.err(
+                    span,
+                    "missing key `symbols`: a tokens codec lists its token names",
+                )
+            }
         };
         if symbols.len() > 1usize << scale_bits {
-            let s = raw.scale_bits.as_ref().or(defaults.scale_bits.as_ref()).map_or(span.clone(), |b| b.span());
+            let s = raw
+                .scale_bits
+                .as_ref()
+                .or(defaults.scale_bits.as_ref())
+                .map_or(span.clone(), |b| b.span());
             return self.err(
                 s,
                 format!(
@@ -284,7 +297,10 @@ impl Ctx<'_> {
         }
         if let Some(list) = raw.samples.as_ref().or(defaults.samples.as_ref()) {
             if list.get_ref().is_empty() {
-                return self.err(list.span(), "`samples` is empty: list at least one file or remove the key");
+                return self.err(
+                    list.span(),
+                    "`samples` is empty: list at least one file or remove the key",
+                );
             }
             let folder = self.path.parent().unwrap_or(Path::new(""));
             for item in list.get_ref() {
@@ -323,7 +339,11 @@ impl Ctx<'_> {
             if let Some(first) = out.iter().position(|s| *s == name) {
                 return self.err(
                     span,
-                    format!("symbol {} is listed twice (first as entry {})", show(&name), first + 1),
+                    format!(
+                        "symbol {} is listed twice (first as entry {})",
+                        show(&name),
+                        first + 1
+                    ),
                 );
             }
             out.push(name);
@@ -343,7 +363,12 @@ impl Ctx<'_> {
                     let name = match (kind, item.get_ref()) {
                         (Kind::Bytes, RawSymbol::Int(v)) => match u8::try_from(*v) {
                             Ok(b) => SymbolName::Byte(b),
-                            Err(_) => return self.err(item.span(), format!("byte value {v} is out of range 0..=255")),
+                            Err(_) => {
+                                return self.err(
+                                    item.span(),
+                                    format!("byte value {v} is out of range 0..=255"),
+                                )
+                            }
                         },
                         (Kind::Bytes, RawSymbol::Name(n)) => {
                             let bytes = n.as_bytes();
@@ -357,7 +382,10 @@ impl Ctx<'_> {
                             SymbolName::Token(n.clone())
                         }
                         (Kind::Tokens, RawSymbol::Int(v)) => {
-                            return self.err(item.span(), format!("token names are strings, found the number {v}"))
+                            return self.err(
+                                item.span(),
+                                format!("token names are strings, found the number {v}"),
+                            )
                         }
                     };
                     push(name, item.span(), &mut out)?;
@@ -365,7 +393,10 @@ impl Ctx<'_> {
             }
         }
         if out.is_empty() {
-            return self.err(raw.span(), "the alphabet is empty: declare at least one symbol");
+            return self.err(
+                raw.span(),
+                "the alphabet is empty: declare at least one symbol",
+            );
         }
         if kind == Kind::Tokens {
             let mut seen: BTreeMap<String, &str> = BTreeMap::new();
@@ -373,7 +404,10 @@ impl Ctx<'_> {
                 if let SymbolName::Token(t) = s {
                     let v = variant_name(t);
                     if let Some(other) = seen.insert(v.clone(), t) {
-                        return self.err(raw.span(), format!("tokens \"{other}\" and \"{t}\" both become the variant `{v}`"));
+                        return self.err(
+                            raw.span(),
+                            format!("tokens \"{other}\" and \"{t}\" both become the variant `{v}`"),
+                        );
                     }
                 }
             }
@@ -404,11 +438,17 @@ impl Ctx<'_> {
                 },
             };
             let Some(index) = symbols.iter().position(|s| *s == name) else {
-                return self.err(value.span(), format!("count for {} which is not in the alphabet", show(&name)));
+                return self.err(
+                    value.span(),
+                    format!("count for {} which is not in the alphabet", show(&name)),
+                );
             };
             let v = *value.get_ref();
             if v < 0 {
-                return self.err(value.span(), format!("count {v} for {} is negative", show(&name)));
+                return self.err(
+                    value.span(),
+                    format!("count {v} for {} is negative", show(&name)),
+                );
             }
             counts[index] = v as u64;
         }
@@ -433,11 +473,11 @@ pub fn show_byte(b: u8) -> String {
 }
 
 const KEYWORDS: &[&str] = &[
-    "as", "async", "await", "break", "const", "continue", "crate", "dyn", "else", "enum",
-    "extern", "false", "fn", "for", "gen", "if", "impl", "in", "let", "loop", "match", "mod",
-    "move", "mut", "pub", "ref", "return", "self", "static", "struct", "super", "trait", "true",
-    "type", "unsafe", "use", "where", "while", "abstract", "become", "box", "do", "final",
-    "macro", "override", "priv", "try", "typeof", "unsized", "virtual", "yield", "core", "std",
+    "as", "async", "await", "break", "const", "continue", "crate", "dyn", "else", "enum", "extern",
+    "false", "fn", "for", "gen", "if", "impl", "in", "let", "loop", "match", "mod", "move", "mut",
+    "pub", "ref", "return", "self", "static", "struct", "super", "trait", "true", "type", "unsafe",
+    "use", "where", "while", "abstract", "become", "box", "do", "final", "macro", "override",
+    "priv", "try", "typeof", "unsized", "virtual", "yield", "core", "std",
 ];
 
 fn check_identifier(name: &str) -> std::result::Result<(), String> {
@@ -451,7 +491,9 @@ fn check_identifier(name: &str) -> std::result::Result<(), String> {
         ));
     }
     if KEYWORDS.contains(&name) {
-        return Err(format!("codec name \"{name}\" is a Rust keyword or reserved name"));
+        return Err(format!(
+            "codec name \"{name}\" is a Rust keyword or reserved name"
+        ));
     }
     Ok(())
 }

@@ -107,7 +107,8 @@ pub fn build(slots: &[u32], probabilities: &[f64], scale_bits: u32) -> Result<(T
             best = Some((tans, chain, rate));
         }
     }
-    let (tans, mut chain, _) = best.ok_or_else(|| Error::internal("no spread rule produced a table"))?;
+    let (tans, mut chain, _) =
+        best.ok_or_else(|| Error::internal("no spread rule produced a table"))?;
     chain.refine();
     let rate = chain.rate();
     Ok((tans, rate))
@@ -585,7 +586,8 @@ impl Chain {
         let mut bits = 0.0;
         let mut y = 0;
         while y < l {
-            bits += self.weight[y] * (self.prefix[self.hi[y]] - self.prefix[self.lo[y]]) * self.bits[y];
+            bits +=
+                self.weight[y] * (self.prefix[self.hi[y]] - self.prefix[self.lo[y]]) * self.bits[y];
             y += 1;
         }
         bits

@@ -62,7 +62,16 @@ fn mit_text_bytes() -> Vec<u8> {
 fn random_mit(rng: &mut Rng, len: usize) -> Vec<u8> {
     let built = small_codec("mit_text");
     (0..len)
-        .map(|_| mit_text::ALPHABET[rng.weighted(&built.model.counts.iter().map(|&c| c + 1).collect::<Vec<_>>())])
+        .map(|_| {
+            mit_text::ALPHABET[rng.weighted(
+                &built
+                    .model
+                    .counts
+                    .iter()
+                    .map(|&c| c + 1)
+                    .collect::<Vec<_>>(),
+            )]
+        })
         .collect()
 }
 
@@ -86,7 +95,10 @@ fn the_training_sample_round_trips_and_matches_the_reference_bytes() {
     assert_eq!(back, text);
     // Within 1 % of the order-0 entropy bound (Shannon): N·H/8 bytes.
     let bound = text.len() as f64 * built.report.entropy / 8.0;
-    assert!((n as f64) < bound * 1.01 + 8.0, "{n} bytes against a bound of {bound:.1}");
+    assert!(
+        (n as f64) < bound * 1.01 + 8.0,
+        "{n} bytes against a bound of {bound:.1}"
+    );
 }
 
 #[test]
@@ -99,7 +111,11 @@ fn random_inputs_round_trip_and_match_the_reference() {
             let input = random_mit(&mut rng, len);
             let mut buf = vec![0u8; mit_text::max_encoded_len(len)];
             let n = mit_text::encode(&input, &mut buf).unwrap();
-            assert_eq!(buf[..n], reference.encode(&mit_indices(&input))[..], "len {len}");
+            assert_eq!(
+                buf[..n],
+                reference.encode(&mit_indices(&input))[..],
+                "len {len}"
+            );
             let mut back = vec![0u8; len];
             assert_eq!(mit_text::decode(&buf[..n], &mut back), Ok(len));
             assert_eq!(back, input);
@@ -116,7 +132,9 @@ fn token_codecs_round_trip_and_match_the_reference() {
     let built = small_codec("five");
     let reference = Reference::new(&built.tans, built.fingerprint);
     for len in [0usize, 1, 5, 64, 5000] {
-        let idx: Vec<u16> = (0..len).map(|_| rng.weighted(&built.model.counts) as u16).collect();
+        let idx: Vec<u16> = (0..len)
+            .map(|_| rng.weighted(&built.model.counts) as u16)
+            .collect();
         let input: Vec<five::Symbol> = idx.iter().map(|&i| five::ALL[usize::from(i)]).collect();
         let mut buf = vec![0u8; five::max_encoded_len(len)];
         let n = five::encode(&input, &mut buf).unwrap();
@@ -163,7 +181,9 @@ fn a_one_symbol_alphabet_costs_nothing_per_symbol() {
 fn max_encoded_len_holds_for_the_worst_input() {
     // The rarest symbol, repeated, costs the most bits.
     let built = small_codec("mit_text");
-    let rarest = (0..built.tans.slots.len()).min_by_key(|&s| built.tans.slots[s]).unwrap();
+    let rarest = (0..built.tans.slots.len())
+        .min_by_key(|&s| built.tans.slots[s])
+        .unwrap();
     for len in [0usize, 1, 2, 3, 10, 1000, 12_345] {
         let input = vec![mit_text::ALPHABET[rarest]; len];
         let max = mit_text::max_encoded_len(len);
@@ -178,7 +198,10 @@ fn max_encoded_len_holds_for_the_worst_input() {
         assert_eq!(mit_text::encode(&input, &mut exact), Ok(n));
         assert_eq!(exact, buf[..n]);
         let mut short = vec![0u8; n - 1];
-        assert_eq!(mit_text::encode(&input, &mut short), Err(mit_text::Error::OutputTooSmall));
+        assert_eq!(
+            mit_text::encode(&input, &mut short),
+            Err(mit_text::Error::OutputTooSmall)
+        );
     }
     let input = vec![skewed::Symbol::Unlikely; 777];
     let mut buf = vec![0u8; skewed::max_encoded_len(777)];
@@ -204,12 +227,18 @@ fn small_output_buffers_are_refused() {
     let input = mit_text_bytes();
     for size in [0usize, 1, 2, 3, 4, 5, 10, 100] {
         let mut buf = vec![0u8; size];
-        assert_eq!(mit_text::encode(&input, &mut buf), Err(mit_text::Error::OutputTooSmall));
+        assert_eq!(
+            mit_text::encode(&input, &mut buf),
+            Err(mit_text::Error::OutputTooSmall)
+        );
     }
     let mut buf = vec![0u8; mit_text::max_encoded_len(input.len())];
     let n = mit_text::encode(&input, &mut buf).unwrap();
     let mut back = vec![0u8; input.len() - 1];
-    assert_eq!(mit_text::decode(&buf[..n], &mut back), Err(mit_text::Error::OutputTooSmall));
+    assert_eq!(
+        mit_text::decode(&buf[..n], &mut back),
+        Err(mit_text::Error::OutputTooSmall)
+    );
 }
 
 #[test]
@@ -218,13 +247,22 @@ fn streams_of_other_codecs_are_refused() {
     let mut buf = vec![0u8; 64];
     let n = five::encode(&input, &mut buf).unwrap();
     let mut out = vec![skewed::Symbol::Likely; 64];
-    assert_eq!(skewed::decode(&buf[..n], &mut out), Err(skewed::Error::WrongCodec));
+    assert_eq!(
+        skewed::decode(&buf[..n], &mut out),
+        Err(skewed::Error::WrongCodec)
+    );
     let mut out = vec![0u8; 64];
-    assert_eq!(mit_text::decode(&buf[..n], &mut out), Err(mit_text::Error::WrongCodec));
+    assert_eq!(
+        mit_text::decode(&buf[..n], &mut out),
+        Err(mit_text::Error::WrongCodec)
+    );
     // A future format version is refused before anything else.
     buf[0] = (buf[0] & 7) | 0x20;
     let mut out = vec![five::Symbol::A; 64];
-    assert_eq!(five::decode(&buf[..n], &mut out), Err(five::Error::UnknownFormat));
+    assert_eq!(
+        five::decode(&buf[..n], &mut out),
+        Err(five::Error::UnknownFormat)
+    );
 }
 
 #[test]
@@ -243,7 +281,10 @@ fn concatenated_streams_split_with_decode_prefix() {
     let (count, used) = mit_text::decode_prefix(&joined[used..], &mut out).unwrap();
     assert_eq!((count, used), (b.len(), nb));
     assert_eq!(out[..count], b[..]);
-    assert_eq!(mit_text::decode(&joined, &mut out), Err(mit_text::Error::TrailingBytes));
+    assert_eq!(
+        mit_text::decode(&joined, &mut out),
+        Err(mit_text::Error::TrailingBytes)
+    );
 }
 
 #[test]
@@ -258,17 +299,29 @@ fn malformed_headers_give_errors() {
         (vec![tag, fp[0], fp[1]], mit_text::Error::Truncated),
         (vec![tag, fp[0], fp[1], 0x80], mit_text::Error::Truncated),
         // An overlong count (a zero continuation byte) and one past 64 bits.
-        (vec![tag, fp[0], fp[1], 0x81, 0x00, 0, 0], mit_text::Error::BadLength),
         (
-            vec![tag, fp[0], fp[1], 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0x7f],
+            vec![tag, fp[0], fp[1], 0x81, 0x00, 0, 0],
+            mit_text::Error::BadLength,
+        ),
+        (
+            vec![
+                tag, fp[0], fp[1], 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0xff, 0x7f,
+            ],
             mit_text::Error::BadLength,
         ),
         // A count larger than the output.
-        (vec![tag, fp[0], fp[1], 0xff, 0xff, 0x03, 0, 0], mit_text::Error::OutputTooSmall),
+        (
+            vec![tag, fp[0], fp[1], 0xff, 0xff, 0x03, 0, 0],
+            mit_text::Error::OutputTooSmall,
+        ),
         (vec![0xff, fp[0], fp[1], 0], mit_text::Error::UnknownFormat),
     ];
     for (stream, want) in cases {
-        assert_eq!(mit_text::decode(&stream, &mut out), Err(want), "{stream:02x?}");
+        assert_eq!(
+            mit_text::decode(&stream, &mut out),
+            Err(want),
+            "{stream:02x?}"
+        );
     }
 }
 
@@ -287,7 +340,10 @@ fn corrupted_truncated_and_random_streams_never_panic() {
         let stream = &buf[..n];
         // Every truncation is caught.
         for cut in 0..n {
-            assert!(mit_text::decode(&stream[..cut], &mut out).is_err(), "cut at {cut} of {n}");
+            assert!(
+                mit_text::decode(&stream[..cut], &mut out).is_err(),
+                "cut at {cut} of {n}"
+            );
         }
         // Single bit flips: the generated decoder agrees with the reference decoder.
         for _ in 0..10 {
@@ -318,5 +374,8 @@ fn corrupted_truncated_and_random_streams_never_panic() {
     // The end-of-stream state check and the exact length catch most single bit flips, not
     // all: tANS decoding often falls back into step after an error, so the end state can
     // still match (measured: about 80 % caught). Hence the README's caution.
-    assert!(caught * 100 > flips * 70, "caught {caught} of {flips} bit flips");
+    assert!(
+        caught * 100 > flips * 70,
+        "caught {caught} of {flips} bit flips"
+    );
 }

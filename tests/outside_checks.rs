@@ -31,12 +31,18 @@ fn the_deterministic_logarithm_matches_the_platform_one() {
     for i in 1..20_000u32 {
         let x = f64::from(i) * 0.37 + 1e-3;
         let ours = precast::quantize::ln(x);
-        assert!((ours - x.ln()).abs() <= 4.0 * f64::EPSILON * x.ln().abs().max(1.0), "ln {x}");
+        assert!(
+            (ours - x.ln()).abs() <= 4.0 * f64::EPSILON * x.ln().abs().max(1.0),
+            "ln {x}"
+        );
     }
     for k in 1..50_000u64 {
         let ours = precast::quantize::ln_ratio(k);
         let std = (1.0 / k as f64).ln_1p();
-        assert!((ours - std).abs() <= 4.0 * f64::EPSILON * std, "ln_ratio {k}");
+        assert!(
+            (ours - std).abs() <= 4.0 * f64::EPSILON * std,
+            "ln_ratio {k}"
+        );
     }
 }
 
@@ -116,7 +122,11 @@ fn huffman_cannot_beat_one_bit_but_tans_does() {
 fn the_loss_from_rounding_is_the_kl_divergence() {
     // The quantisation part of the loss is exactly KL(empirical‖quantised) (Szewczyk,
     // arXiv:2605.00579, 2026): cross-entropy minus entropy, never negative, zero when exact.
-    for counts in [&[25u64, 25, 20, 15, 15][..], &[4, 16, 16, 64], &[1, 2, 3, 4, 5, 6, 7]] {
+    for counts in [
+        &[25u64, 25, 20, 15, 15][..],
+        &[4, 16, 16, 64],
+        &[1, 2, 3, 4, 5, 6, 7],
+    ] {
         for bits in 4..=12 {
             if counts.len() > 1 << bits {
                 continue;
@@ -143,5 +153,8 @@ fn redundancy_shrinks_as_the_table_grows() {
     };
     let (small, large) = (excess(6), excess(12));
     assert!(small > 0.0 && large >= 0.0);
-    assert!(large < small / 8.0, "excess {small} at 2^6, {large} at 2^12");
+    assert!(
+        large < small / 8.0,
+        "excess {small} at 2^6, {large} at 2^12"
+    );
 }

@@ -53,13 +53,18 @@ fn quantize_matches_brute_force_on_small_cases() {
         assert!(slots.iter().all(|&q| q >= 1));
         let ours = cross_entropy(&counts, &slots, bits);
         let best = brute_force(&counts, bits);
-        assert!(ours <= best + 1e-12, "case {case}: {counts:?} at {bits} bits: {slots:?} gives {ours}, best {best}");
+        assert!(
+            ours <= best + 1e-12,
+            "case {case}: {counts:?} at {bits} bits: {slots:?} gives {ours}, best {best}"
+        );
     }
 }
 
 #[test]
 fn quantize_is_deterministic_and_keeps_every_symbol() {
-    let counts: Vec<u64> = (0..256u64).map(|i| if i % 3 == 0 { 0 } else { i * i }).collect();
+    let counts: Vec<u64> = (0..256u64)
+        .map(|i| if i % 3 == 0 { 0 } else { i * i })
+        .collect();
     for bits in 8..=15 {
         let a = quantize(&counts, bits).unwrap();
         assert_eq!(a, quantize(&counts, bits).unwrap());

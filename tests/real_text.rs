@@ -16,7 +16,10 @@ fn a_word_list_codes_within_one_percent_of_its_entropy_bound() {
     for &b in &data {
         present[usize::from(b)] = true;
     }
-    let symbols: Vec<String> = (0..256).filter(|&b| present[b]).map(|b| b.to_string()).collect();
+    let symbols: Vec<String> = (0..256)
+        .filter(|&b| present[b])
+        .map(|b| b.to_string())
+        .collect();
     let dir = std::env::temp_dir().join(format!("precast-real-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let spec = format!(
@@ -29,7 +32,11 @@ fn a_word_list_codes_within_one_percent_of_its_entropy_bound() {
     let report = &rendered.reports[0];
     if data.len() == 985_084 {
         // The file CHECKS.md describes: its entropy as published there.
-        assert!((report.entropy - 4.443836).abs() < 5e-7, "entropy {}", report.entropy);
+        assert!(
+            (report.entropy - 4.443836).abs() < 5e-7,
+            "entropy {}",
+            report.entropy
+        );
     }
     // The whole stream, header included, against N·H/8 bytes (Shannon's bound).
     let bound = data.len() as f64 * report.entropy / 8.0;
@@ -41,6 +48,9 @@ fn a_word_list_codes_within_one_percent_of_its_entropy_bound() {
         report.exact_rate
     );
     assert!(size >= bound);
-    assert!(size < bound * 1.01, "{size} bytes against a bound of {bound:.0}");
+    assert!(
+        size < bound * 1.01,
+        "{size} bytes against a bound of {bound:.0}"
+    );
     assert!(Path::new(WORDS).exists());
 }

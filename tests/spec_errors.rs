@@ -13,7 +13,8 @@ fn err(text: &str) -> String {
 }
 
 fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("precast-spec-errors-{}-{name}", std::process::id()));
+    let dir =
+        std::env::temp_dir().join(format!("precast-spec-errors-{}-{name}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     dir
 }
@@ -32,7 +33,9 @@ fn a_good_spec_renders() {
 
 #[test]
 fn unknown_keys_name_line_and_column() {
-    let msg = err("[codec.a]\nkind = \"tokens\"\nsymbols = [\"x\"]\ncounts = { x = 1 }\nsclae_bits = 9\n");
+    let msg = err(
+        "[codec.a]\nkind = \"tokens\"\nsymbols = [\"x\"]\ncounts = { x = 1 }\nsclae_bits = 9\n",
+    );
     assert!(msg.starts_with("codecs.toml:5:1:"), "{msg}");
     assert!(msg.contains("sclae_bits"), "{msg}");
     let msg = err("[defaults]\nmethodd = \"tans\"\n");
@@ -65,7 +68,10 @@ fn semantic_errors_name_the_codec_and_the_value() {
     ];
     for (spec, prefix, needle) in cases {
         let msg = err(spec);
-        assert!(msg.starts_with(prefix), "want {prefix:?} at the start of {msg:?}");
+        assert!(
+            msg.starts_with(prefix),
+            "want {prefix:?} at the start of {msg:?}"
+        );
         assert!(msg.contains(needle), "want {needle:?} in {msg:?}");
     }
 }
@@ -89,16 +95,28 @@ fn a_sample_symbol_outside_the_alphabet_names_file_line_and_offset() {
         "[codec.notes]\nkind = \"bytes\"\nsymbols = \"ab\\n\"\nsamples = [\"notes.bin\"]\n",
     )
     .unwrap();
-    let msg = precast::render(dir.join("codecs.toml")).unwrap_err().to_string();
-    assert!(msg.contains("notes.bin:2:3: codec `notes`: byte 255 (\\xff) is not in the alphabet (byte offset 5)"), "{msg}");
+    let msg = precast::render(dir.join("codecs.toml"))
+        .unwrap_err()
+        .to_string();
+    assert!(
+        msg.contains(
+            "notes.bin:2:3: codec `notes`: byte 255 (\\xff) is not in the alphabet (byte offset 5)"
+        ),
+        "{msg}"
+    );
 
     std::fs::write(
         dir.join("codecs.toml"),
         "[codec.notes]\nkind = \"bytes\"\nsamples = [\"missing.txt\"]\n",
     )
     .unwrap();
-    let msg = precast::render(dir.join("codecs.toml")).unwrap_err().to_string();
-    assert!(msg.contains("codecs.toml:3:12: codec `notes`: cannot read sample \"missing.txt\""), "{msg}");
+    let msg = precast::render(dir.join("codecs.toml"))
+        .unwrap_err()
+        .to_string();
+    assert!(
+        msg.contains("codecs.toml:3:12: codec `notes`: cannot read sample \"missing.txt\""),
+        "{msg}"
+    );
 }
 
 #[test]
@@ -117,7 +135,10 @@ fn defaults_apply_and_codec_keys_override_them() {
 #[test]
 fn garbage_specs_never_panic() {
     // Every prefix of a good spec, and a few byte-level mutations of it, fail cleanly or pass.
-    let demo = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/specs/small.toml")).unwrap();
+    let demo = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/specs/small.toml"),
+    )
+    .unwrap();
     for cut in (0..demo.len()).filter(|&c| demo.is_char_boundary(c)) {
         let _ = precast::spec::parse(&demo[..cut], Path::new("x.toml"));
     }

@@ -7,7 +7,11 @@ use std::path::PathBuf;
 use std::process::ExitCode;
 
 #[derive(Parser)]
-#[command(name = "precast", version, about = "Build-time generator of ANS entropy codecs")]
+#[command(
+    name = "precast",
+    version,
+    about = "Build-time generator of ANS entropy codecs"
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,

@@ -46,6 +46,10 @@ pub fn small_spec() -> (precast::spec::Spec, String) {
 /// The tables the generator builds for codec `name` of the small spec.
 pub fn small_codec(name: &str) -> precast::Built {
     let (spec, _) = small_spec();
-    let codec = spec.codecs.iter().find(|c| c.name == name).expect("codec exists");
+    let codec = spec
+        .codecs
+        .iter()
+        .find(|c| c.name == name)
+        .expect("codec exists");
     precast::build_codec(codec).expect("codec builds")
 }
