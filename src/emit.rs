@@ -116,6 +116,25 @@ fn docs(lines: &[String]) -> TokenStream {
     quote!(#(#lines)*)
 }
 
+/// Decimal digits of `v`, without the formatting machinery (this runs per table entry in
+/// unoptimised build scripts).
+fn push_number(out: &mut String, mut v: u64) {
+    let mut digits = [0u8; 20];
+    let mut n = 0;
+    loop {
+        digits[n] = b'0' + (v % 10) as u8;
+        n += 1;
+        v /= 10;
+        if v == 0 {
+            break;
+        }
+    }
+    while n > 0 {
+        n -= 1;
+        out.push(char::from(digits[n]));
+    }
+}
+
 fn byte_literal(b: u8) -> String {
     match b {
         b'\'' => "b'\\''".to_string(),
@@ -147,12 +166,15 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
     let rules_ph = format_ident!("__precast_rows_{}_rules", index);
     let next_ph = format_ident!("__precast_rows_{}_next", index);
 
-    let symbol_label = |s: u16| -> String {
-        match &spec.symbols[usize::from(s)] {
+    // Row labels, computed once per symbol rather than once per table entry.
+    let labels: Vec<String> = spec
+        .symbols
+        .iter()
+        .map(|s| match s {
             SymbolName::Byte(b) => byte_literal(*b),
             SymbolName::Token(t) => format!("Symbol::{}", variant_name(t)),
-        }
-    };
+        })
+        .collect();
 
     // Decode rows: eight steps a line, the first position of the line in a comment.
     let decode_rows: Vec<String> = tans
@@ -160,17 +182,18 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
         .chunks(8)
         .enumerate()
         .map(|(line, chunk)| {
-            let mut row = String::new();
+            let mut row = String::with_capacity(chunk.len() * 32);
             for e in chunk {
-                let _ = write!(
-                    row,
-                    "Step({}, {}, {}), ",
-                    symbol_label(e.symbol),
-                    e.bits,
-                    e.base
-                );
+                row.push_str("Step(");
+                row.push_str(&labels[usize::from(e.symbol)]);
+                row.push_str(", ");
+                push_number(&mut row, u64::from(e.bits));
+                row.push_str(", ");
+                push_number(&mut row, u64::from(e.base));
+                row.push_str("), ");
             }
-            let _ = write!(row, "// {}", line * 8);
+            row.push_str("// ");
+            push_number(&mut row, (line * 8) as u64);
             row
         })
         .collect();
@@ -179,8 +202,13 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
         .chunks(16)
         .enumerate()
         .map(|(line, chunk)| {
-            let mut row: String = chunk.iter().map(|v| format!("{v}, ")).collect();
-            let _ = write!(row, "// {}", line * 16);
+            let mut row = String::with_capacity(chunk.len() * 7 + 8);
+            for &v in chunk {
+                push_number(&mut row, u64::from(v));
+                row.push_str(", ");
+            }
+            row.push_str("// ");
+            push_number(&mut row, (line * 16) as u64);
             row
         })
         .collect();
