@@ -525,5 +525,9 @@ pub fn variant_name(token: &str) -> String {
     if out.is_empty() || out.as_bytes()[0].is_ascii_digit() {
         out.insert(0, 'T');
     }
+    // `Self` is the one keyword an UpperCamelCase name can hit.
+    if out == "Self" {
+        out.push('_');
+    }
     out
 }

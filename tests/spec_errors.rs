@@ -133,6 +133,15 @@ fn defaults_apply_and_codec_keys_override_them() {
 }
 
 #[test]
+fn awkward_token_names_still_make_valid_variants() {
+    let spec = "[codec.a]\nkind = \"tokens\"\nsymbols = [\"self\", \"_9lives\", \"x__y\", \"Ok\", \"none\"]\ncounts = { self = 5 }\n";
+    let r = precast::render_str(spec, Path::new("codecs.toml")).unwrap();
+    for v in ["Self_,", "T9lives,", "XY,", "Ok,", "None,"] {
+        assert!(r.source.contains(v), "{v} missing");
+    }
+}
+
+#[test]
 fn garbage_specs_never_panic() {
     // Every prefix of a good spec, and a few byte-level mutations of it, fail cleanly or pass.
     let demo = std::fs::read_to_string(
