@@ -5,7 +5,7 @@
 
 use crate::error::{Error, Result};
 use crate::report::Report;
-use crate::spec::{variant_name, CodecSpec, Kind, SymbolName};
+use crate::spec::{variant_name, CodecSpec, Framing, Kind, SymbolName};
 use crate::tables::Tans;
 use crate::verify::FORMAT_VERSION;
 use proc_macro2::{Ident, Literal, Span, TokenStream};
@@ -368,6 +368,67 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
         (quote!(), quote!())
     };
 
+    let tagged = spec.framing == Framing::Tagged;
+    let read_header_fn: TokenStream = if tagged {
+        READ_HEADER.parse().unwrap_or_default()
+    } else {
+        TokenStream::new()
+    };
+    let leb_fn: TokenStream = if tagged {
+        LEB_FN.parse().unwrap_or_default()
+    } else {
+        TokenStream::new()
+    };
+    let header_max = if tagged {
+        quote!(3 + leb128_len(symbols))
+    } else {
+        quote!(0usize)
+    };
+    let header_len = if tagged {
+        quote!(3 + leb128_len(input.len()))
+    } else {
+        quote!(0usize)
+    };
+    let finish: TokenStream = if tagged {
+        WRITE_HEADER.parse().unwrap_or_default()
+    } else {
+        quote! {
+            // Bare: move the padding from the front to the end of the payload.
+            if pad != 0 {
+                let mut i = 0;
+                while i < len {
+                    let next = if i + 1 < len { out.get(i + 1).copied().unwrap_or(0) } else { 0 };
+                    if let ::core::option::Option::Some(b) = out.get_mut(i) {
+                        *b = (*b << pad) | (next >> (8 - pad));
+                    }
+                    i += 1;
+                }
+            }
+        }
+    };
+    let start = if tagged {
+        quote! {
+            let (count, header, pad) = read_header(stream)?;
+            let ::core::option::Option::Some(out) = out.get_mut(..count) else {
+                return ::core::result::Result::Err(Error::OutputTooSmall);
+            };
+        }
+    } else {
+        quote! {
+            // Bare: the output length is the symbol count.
+            let (count, header, pad) = (out.len(), 0usize, 0usize);
+        }
+    };
+    let tail_check = if tagged {
+        quote!()
+    } else {
+        quote! {
+            let tail = (8 - at % 8) % 8;
+            if tail != 0 && peek(payload, at) >> (16 - tail) != 0 {
+                return ::core::result::Result::Err(Error::Corrupt);
+            }
+        }
+    };
     let tokens = quote! {
         #module_doc
         pub mod #name {
@@ -386,7 +447,6 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
 
             const TABLE_LEN: usize = 1 << SCALE_BITS;
             const MASK: usize = TABLE_LEN - 1;
-            const TAG: u8 = FORMAT_VERSION << 4;
 
             /// Why encoding or decoding failed.
             #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -425,21 +485,14 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
 
             impl ::core::error::Error for Error {}
 
-            const fn leb128_len(mut n: usize) -> usize {
-                let mut len = 1;
-                while n >= 0x80 {
-                    n >>= 7;
-                    len += 1;
-                }
-                len
-            }
+            #leb_fn
 
             /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
             pub const fn max_encoded_len(symbols: usize) -> usize {
                 let bits = symbols
                     .saturating_mul(MAX_SYMBOL_BITS as usize)
                     .saturating_add(SCALE_BITS as usize);
-                (3 + leb128_len(symbols)).saturating_add(bits.div_ceil(8))
+                (#header_max).saturating_add(bits.div_ceil(8))
             }
 
             /// Encodes `input` into `out` as one self-delimiting stream; returns its length.
@@ -447,7 +500,7 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
             /// The stream is written back to front at the end of `out`, then moved to the
             /// front; `out` beyond the returned length is left unspecified.
             pub fn encode(input: &[Symbol], out: &mut [u8]) -> ::core::result::Result<usize, Error> {
-                let header = 3 + leb128_len(input.len());
+                let header = #header_len;
                 let end = out.len();
                 let mut pos = end;
                 let mut x = TABLE_LEN as u32;
@@ -493,15 +546,7 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
                 }
                 out.copy_within(pos..end, header);
                 let len = header + (end - pos);
-                if let ::core::option::Option::Some(dst) = out.get_mut(..3) {
-                    let [lo, hi] = FINGERPRINT.to_le_bytes();
-                    dst.copy_from_slice(&[TAG | pad as u8, lo, hi]);
-                }
-                let mut n = input.len();
-                for dst in out.iter_mut().take(header).skip(3) {
-                    *dst = (n & 0x7f) as u8 | if n >= 0x80 { 0x80 } else { 0 };
-                    n >>= 7;
-                }
+                #finish
                 ::core::result::Result::Ok(len)
             }
 
@@ -517,10 +562,7 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
             /// Decodes the stream at the front of `stream` (more may follow it); returns the
             /// number of symbols and the number of bytes the stream took.
             pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> ::core::result::Result<(usize, usize), Error> {
-                let (count, header, pad) = read_header(stream)?;
-                let ::core::option::Option::Some(out) = out.get_mut(..count) else {
-                    return ::core::result::Result::Err(Error::OutputTooSmall);
-                };
+                #start
                 let payload = stream.get(header..).unwrap_or(&[]);
                 if peek(payload, 0) >> (16 - pad) != 0 {
                     return ::core::result::Result::Err(Error::Corrupt);
@@ -541,48 +583,11 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
                 if state != 0 {
                     return ::core::result::Result::Err(Error::Corrupt);
                 }
+                #tail_check
                 ::core::result::Result::Ok((count, header + at.div_ceil(8)))
             }
 
-            /// Header: (symbol count, header length, padding bits).
-            fn read_header(stream: &[u8]) -> ::core::result::Result<(usize, usize, usize), Error> {
-                let ::core::option::Option::Some(&tag) = stream.first() else {
-                    return ::core::result::Result::Err(Error::Truncated);
-                };
-                if tag & 0xf8 != TAG {
-                    return ::core::result::Result::Err(Error::UnknownFormat);
-                }
-                let (::core::option::Option::Some(&lo), ::core::option::Option::Some(&hi)) = (stream.get(1), stream.get(2)) else {
-                    return ::core::result::Result::Err(Error::Truncated);
-                };
-                if u16::from_le_bytes([lo, hi]) != FINGERPRINT {
-                    return ::core::result::Result::Err(Error::WrongCodec);
-                }
-                let mut count: u64 = 0;
-                let mut shift = 0u32;
-                let mut pos = 3;
-                loop {
-                    let ::core::option::Option::Some(&b) = stream.get(pos) else {
-                        return ::core::result::Result::Err(Error::Truncated);
-                    };
-                    pos += 1;
-                    if shift > 63 || (shift == 63 && b > 1) {
-                        return ::core::result::Result::Err(Error::BadLength);
-                    }
-                    count |= u64::from(b & 0x7f) << shift;
-                    if b & 0x80 == 0 {
-                        if b == 0 && shift > 0 {
-                            return ::core::result::Result::Err(Error::BadLength);
-                        }
-                        break;
-                    }
-                    shift += 7;
-                }
-                match usize::try_from(count) {
-                    ::core::result::Result::Ok(count) => ::core::result::Result::Ok((count, pos, usize::from(tag & 7))),
-                    ::core::result::Result::Err(_) => ::core::result::Result::Err(Error::BadLength),
-                }
-            }
+            #read_header_fn
 
             /// The 16 bits of `data` from bit `at` on (most significant first), zeros past the end.
             #[inline(always)]
@@ -637,3 +642,70 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
     ];
     (tokens, rows)
 }
+
+const READ_HEADER: &str = r#"
+            /// Header: (symbol count, header length, padding bits).
+            fn read_header(stream: &[u8]) -> ::core::result::Result<(usize, usize, usize), Error> {
+                let ::core::option::Option::Some(&tag) = stream.first() else {
+                    return ::core::result::Result::Err(Error::Truncated);
+                };
+                if tag & 0xf8 != FORMAT_VERSION << 4 {
+                    return ::core::result::Result::Err(Error::UnknownFormat);
+                }
+                let (::core::option::Option::Some(&lo), ::core::option::Option::Some(&hi)) = (stream.get(1), stream.get(2)) else {
+                    return ::core::result::Result::Err(Error::Truncated);
+                };
+                if u16::from_le_bytes([lo, hi]) != FINGERPRINT {
+                    return ::core::result::Result::Err(Error::WrongCodec);
+                }
+                let mut count: u64 = 0;
+                let mut shift = 0u32;
+                let mut pos = 3;
+                loop {
+                    let ::core::option::Option::Some(&b) = stream.get(pos) else {
+                        return ::core::result::Result::Err(Error::Truncated);
+                    };
+                    pos += 1;
+                    if shift > 63 || (shift == 63 && b > 1) {
+                        return ::core::result::Result::Err(Error::BadLength);
+                    }
+                    count |= u64::from(b & 0x7f) << shift;
+                    if b & 0x80 == 0 {
+                        if b == 0 && shift > 0 {
+                            return ::core::result::Result::Err(Error::BadLength);
+                        }
+                        break;
+                    }
+                    shift += 7;
+                }
+                match usize::try_from(count) {
+                    ::core::result::Result::Ok(count) => ::core::result::Result::Ok((count, pos, usize::from(tag & 7))),
+                    ::core::result::Result::Err(_) => ::core::result::Result::Err(Error::BadLength),
+                }
+            }
+
+"#;
+
+const LEB_FN: &str = r#"
+            const fn leb128_len(mut n: usize) -> usize {
+                let mut len = 1;
+                while n >= 0x80 {
+                    n >>= 7;
+                    len += 1;
+                }
+                len
+            }
+
+"#;
+
+const WRITE_HEADER: &str = r#"
+                if let ::core::option::Option::Some(dst) = out.get_mut(..3) {
+                    let [lo, hi] = FINGERPRINT.to_le_bytes();
+                    dst.copy_from_slice(&[(FORMAT_VERSION << 4) | pad as u8, lo, hi]);
+                }
+                let mut n = input.len();
+                for dst in out.iter_mut().take(header).skip(3) {
+                    *dst = (n & 0x7f) as u8 | if n >= 0x80 { 0x80 } else { 0 };
+                    n >>= 7;
+                }
+"#;

@@ -105,8 +105,9 @@ pub fn build_codec(codec: &spec::CodecSpec) -> Result<Built> {
     let (tans, rate) = tables::build(&slots, &probabilities, codec.scale_bits)
         .map_err(|e| e.in_codec(&codec.name))?;
     let fingerprint = verify::fingerprint(kind_tag(codec), &alphabet_bytes(codec), &tans);
-    let verified =
-        verify::verify(&tans, fingerprint, &model).map_err(|e| e.in_codec(&codec.name))?;
+    // Bare streams carry no fingerprint; the measured sizes below still match the framing.
+    let verified = verify::verify(&tans, fingerprint, codec.framing, &model)
+        .map_err(|e| e.in_codec(&codec.name))?;
     let table_bytes = emit::table_bytes(codec, &tans);
     let report = report::build(codec, &model.counts, &tans, rate, verified, table_bytes);
     Ok(Built {

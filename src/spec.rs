@@ -33,6 +33,17 @@ pub enum Method {
     Tans,
 }
 
+/// How streams are delimited (FORMAT.md).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Framing {
+    /// Header with format version, fingerprint and symbol count: self-delimiting, and a
+    /// decoder refuses streams of other tables.
+    Tagged,
+    /// Payload only, for fixed-size frames: the caller knows the symbol count (the output
+    /// length), and nothing identifies the tables.
+    Bare,
+}
+
 /// One symbol of an alphabet, as declared.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum SymbolName {
@@ -62,6 +73,7 @@ pub struct CodecSpec {
     pub kind: Kind,
     pub method: Method,
     pub scale_bits: u32,
+    pub framing: Framing,
     pub symbols: Vec<SymbolName>,
     pub sources: Vec<Source>,
     /// Where the codec's table starts in the spec, for errors found by later stages.
@@ -89,6 +101,7 @@ struct RawCodec {
     kind: Option<Spanned<String>>,
     method: Option<Spanned<String>>,
     scale_bits: Option<Spanned<i64>>,
+    framing: Option<Spanned<String>>,
     symbols: Option<Spanned<RawSymbols>>,
     counts: Option<Spanned<BTreeMap<String, Spanned<i64>>>>,
     text: Option<Spanned<String>>,
@@ -259,6 +272,19 @@ impl Ctx<'_> {
             }
         };
 
+        let framing = match raw.framing.as_ref().or(defaults.framing.as_ref()) {
+            None => Framing::Tagged,
+            Some(f) => match f.get_ref().as_str() {
+                "tagged" => Framing::Tagged,
+                "bare" => Framing::Bare,
+                other => {
+                    return self.err(
+                        f.span(),
+                        format!("unknown framing \"{other}\": expected \"tagged\" or \"bare\""),
+                    )
+                }
+            },
+        };
         let symbols = match raw.symbols.as_ref().or(defaults.symbols.as_ref()) {
             Some(s) => self.symbols(kind, s)?,
             None if kind == Kind::Bytes => (0..=255u8).map(SymbolName::Byte).collect(),
@@ -327,6 +353,7 @@ impl Ctx<'_> {
             kind,
             method,
             scale_bits,
+            framing,
             symbols,
             sources,
             location: self.loc(span),

@@ -7,6 +7,7 @@
 
 use crate::error::{Error, Result};
 use crate::model::Model;
+use crate::spec::Framing;
 use crate::tables::Tans;
 
 /// Stream format version, in the high nibble of the first header byte.
@@ -71,6 +72,7 @@ pub fn leb128(mut v: u64) -> Vec<u8> {
 pub struct Reference<'a> {
     tans: &'a Tans,
     fingerprint: u16,
+    bare: bool,
     /// For each symbol, the table positions of its copies, left to right.
     positions: Vec<Vec<u32>>,
     /// For each table position, the number of its copy (`q_s ..= 2q_s - 1`).
@@ -78,6 +80,14 @@ pub struct Reference<'a> {
 }
 
 impl<'a> Reference<'a> {
+    /// The coder for `framing`.
+    pub fn framed(tans: &'a Tans, fingerprint: u16, framing: Framing) -> Self {
+        let mut r = Reference::new(tans, fingerprint);
+        r.bare = framing == Framing::Bare;
+        r
+    }
+
+    /// The coder for tagged streams.
     pub fn new(tans: &'a Tans, fingerprint: u16) -> Self {
         let mut positions = vec![Vec::new(); tans.slots.len()];
         let mut number = Vec::with_capacity(tans.spread.len());
@@ -89,6 +99,7 @@ impl<'a> Reference<'a> {
         Reference {
             tans,
             fingerprint,
+            bare: false,
             positions,
             number,
         }
@@ -118,6 +129,14 @@ impl<'a> Reference<'a> {
             }
         }
         let pad = (8 - bits.len() % 8) % 8;
+        if self.bare {
+            // Payload only; the padding goes at the end, where the decoder stops anyway.
+            bits.extend(std::iter::repeat_n(false, pad));
+            return bits
+                .chunks(8)
+                .map(|byte| byte.iter().fold(0u8, |acc, &b| (acc << 1) | u8::from(b)))
+                .collect();
+        }
         let mut out = vec![TAG | pad as u8];
         out.extend_from_slice(&self.fingerprint.to_le_bytes());
         out.extend(leb128(symbols.len() as u64));
@@ -129,13 +148,15 @@ impl<'a> Reference<'a> {
     }
 
     /// Decodes one stream from the front of `stream`: the symbols and the bytes used.
-    /// `limit` caps the symbol count a header may claim.
+    /// `limit` caps the symbol count a header may claim; a bare stream holds exactly `limit`.
     pub fn decode(
         &self,
         stream: &[u8],
         limit: usize,
     ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
-        let r = self.tans.scale_bits;
+        if self.bare {
+            return self.payload(stream, 0, 0, limit);
+        }
         let (&tag, rest) = stream.split_first().ok_or(StreamError::Truncated)?;
         if tag & 0xf8 != TAG {
             return Err(StreamError::UnknownFormat);
@@ -169,6 +190,18 @@ impl<'a> Reference<'a> {
         if count > limit {
             return Err(StreamError::TooLong);
         }
+        self.payload(stream, pos, pad, count)
+    }
+
+    /// Decodes `count` symbols from the payload at `stream[pos..]`, after `pad` zero bits.
+    fn payload(
+        &self,
+        stream: &[u8],
+        pos: usize,
+        pad: usize,
+        count: usize,
+    ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
+        let r = self.tans.scale_bits;
         let payload = &stream[pos..];
         let bit = |i: usize| -> bool {
             payload
@@ -204,6 +237,10 @@ impl<'a> Reference<'a> {
         if state != 0 {
             return Err(StreamError::Corrupt);
         }
+        // Bare streams end in zero padding up to the byte boundary.
+        if self.bare && (at..at.div_ceil(8) * 8).any(bit) {
+            return Err(StreamError::Corrupt);
+        }
         Ok((out, pos + at.div_ceil(8)))
     }
 }
@@ -216,13 +253,14 @@ pub struct Verified {
     pub symbols: u64,
     /// Whole streams, headers included.
     pub stream_bytes: u64,
-    /// Payload bits alone (state and symbol bits, no header, no padding).
+    /// Payload bits (state and symbol bits; no header; padding excluded for tagged streams,
+    /// included for bare ones).
     pub payload_bits: u64,
 }
 
 /// Round-trips every training sequence through the reference coder.
-pub fn verify(tans: &Tans, fingerprint: u16, model: &Model) -> Result<Verified> {
-    let coder = Reference::new(tans, fingerprint);
+pub fn verify(tans: &Tans, fingerprint: u16, framing: Framing, model: &Model) -> Result<Verified> {
+    let coder = Reference::framed(tans, fingerprint, framing);
     let mut v = Verified::default();
     for seq in &model.sequences {
         let stream = coder.encode(&seq.symbols);
@@ -238,8 +276,13 @@ pub fn verify(tans: &Tans, fingerprint: u16, model: &Model) -> Result<Verified> 
                 )))
             }
         }
-        let header = 3 + leb128(seq.symbols.len() as u64).len();
-        let pad = u64::from(stream[0] & 7);
+        let (header, pad) = match framing {
+            Framing::Tagged => (
+                3 + leb128(seq.symbols.len() as u64).len(),
+                u64::from(stream[0] & 7),
+            ),
+            Framing::Bare => (0, 0),
+        };
         v.sequences += 1;
         v.symbols += seq.symbols.len() as u64;
         v.stream_bytes += stream.len() as u64;

@@ -379,3 +379,48 @@ fn corrupted_truncated_and_random_streams_never_panic() {
         "caught {caught} of {flips} bit flips"
     );
 }
+
+#[test]
+fn bare_frames_round_trip_without_a_header() {
+    use golden::five_bare;
+    let built = small_codec("five_bare");
+    let reference = precast::verify::Reference::framed(
+        &built.tans,
+        built.fingerprint,
+        precast::spec::Framing::Bare,
+    );
+    let mut rng = Rng(5);
+    for len in [0usize, 1, 2, 5, 8, 64, 1000] {
+        let idx: Vec<u16> = (0..len)
+            .map(|_| rng.weighted(&built.model.counts) as u16)
+            .collect();
+        let input: Vec<five_bare::Symbol> = idx
+            .iter()
+            .map(|&i| five_bare::ALL[usize::from(i)])
+            .collect();
+        let mut buf = vec![0u8; five_bare::max_encoded_len(len)];
+        let n = five_bare::encode(&input, &mut buf).unwrap();
+        assert_eq!(buf[..n], reference.encode(&idx)[..], "len {len}");
+        // The same symbols in tagged framing cost exactly the header more.
+        let tagged: Vec<five::Symbol> = idx.iter().map(|&i| five::ALL[usize::from(i)]).collect();
+        let mut tbuf = vec![0u8; five::max_encoded_len(len)];
+        let tn = five::encode(&tagged, &mut tbuf).unwrap();
+        assert_eq!(tn, n + 3 + precast::verify::leb128(len as u64).len());
+        let mut back = vec![five_bare::Symbol::A; len];
+        assert_eq!(five_bare::decode(&buf[..n], &mut back), Ok(len));
+        assert_eq!(back, input);
+        // Damage never panics; truncation is always caught.
+        for cut in 0..n {
+            assert!(five_bare::decode(&buf[..cut], &mut back).is_err());
+        }
+        for bit in 0..n * 8 {
+            let mut bad = buf[..n].to_vec();
+            bad[bit / 8] ^= 1 << (bit % 8);
+            let got = five_bare::decode(&bad, &mut back).is_ok();
+            let want = reference
+                .decode(&bad, len)
+                .is_ok_and(|(_, used)| used == bad.len());
+            assert_eq!(got, want, "len {len}, bit {bit}");
+        }
+    }
+}
