@@ -420,7 +420,13 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
         }
     };
     let tail_check = if tagged {
-        quote!()
+        quote! {
+            // The padding count must make the stream end on a byte boundary: one stream,
+            // one encoding.
+            if at % 8 != 0 {
+                return ::core::result::Result::Err(Error::Corrupt);
+            }
+        }
     } else {
         quote! {
             let tail = (8 - at % 8) % 8;

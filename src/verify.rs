@@ -237,8 +237,8 @@ impl<'a> Reference<'a> {
         if state != 0 {
             return Err(StreamError::Corrupt);
         }
-        // Bare streams end in zero padding up to the byte boundary.
-        if self.bare && (at..at.div_ceil(8) * 8).any(bit) {
+        // Bare streams end in zero padding up to the byte boundary; tagged ones exactly on it.
+        if self.bare && (at..at.div_ceil(8) * 8).any(bit) || !self.bare && at % 8 != 0 {
             return Err(StreamError::Corrupt);
         }
         Ok((out, pos + at.div_ceil(8)))

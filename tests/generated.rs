@@ -424,3 +424,28 @@ fn bare_frames_round_trip_without_a_header() {
         }
     }
 }
+
+#[test]
+fn each_symbol_sequence_has_exactly_one_accepted_stream() {
+    // Found by the decode_stream fuzz target: a wrong padding count used to be accepted.
+    let stream = [
+        0x11, 0x9d, 0x51, 0x66, 0x45, 0xec, 0xff, 0xff, 0x01, 0x00, 0x00, 0x00,
+    ];
+    let mut out = vec![skewed::Symbol::Likely; 4096];
+    if let Ok(n) = skewed::decode(&stream, &mut out) {
+        let mut again = vec![0u8; skewed::max_encoded_len(n)];
+        let len = skewed::encode(&out[..n], &mut again).unwrap();
+        assert_eq!(again[..len], stream[..]);
+    }
+    // Every padding count but the right one is refused.
+    let input = [five::Symbol::A, five::Symbol::D, five::Symbol::E];
+    let mut buf = [0u8; 16];
+    let n = five::encode(&input, &mut buf).unwrap();
+    let mut out = [five::Symbol::A; 3];
+    for pad in 0..8u8 {
+        let mut s = buf[..n].to_vec();
+        s[0] = (s[0] & 0xf8) | pad;
+        let ok = five::decode(&s, &mut out).is_ok();
+        assert_eq!(ok, pad == buf[0] & 7, "pad {pad}");
+    }
+}

@@ -268,6 +268,9 @@ pub mod mit_text {
         if state != 0 {
             return ::core::result::Result::Err(Error::Corrupt);
         }
+        if at % 8 != 0 {
+            return ::core::result::Result::Err(Error::Corrupt);
+        }
         ::core::result::Result::Ok((count, header + at.div_ceil(8)))
     }
     /// Header: (symbol count, header length, padding bits).
@@ -951,6 +954,9 @@ pub mod five {
         if state != 0 {
             return ::core::result::Result::Err(Error::Corrupt);
         }
+        if at % 8 != 0 {
+            return ::core::result::Result::Err(Error::Corrupt);
+        }
         ::core::result::Result::Ok((count, header + at.div_ceil(8)))
     }
     /// Header: (symbol count, header length, padding bits).
@@ -1271,6 +1277,9 @@ pub mod skewed {
             return ::core::result::Result::Err(Error::Truncated);
         }
         if state != 0 {
+            return ::core::result::Result::Err(Error::Corrupt);
+        }
+        if at % 8 != 0 {
             return ::core::result::Result::Err(Error::Corrupt);
         }
         ::core::result::Result::Ok((count, header + at.div_ceil(8)))
@@ -1597,6 +1606,9 @@ pub mod single {
             return ::core::result::Result::Err(Error::Truncated);
         }
         if state != 0 {
+            return ::core::result::Result::Err(Error::Corrupt);
+        }
+        if at % 8 != 0 {
             return ::core::result::Result::Err(Error::Corrupt);
         }
         ::core::result::Result::Ok((count, header + at.div_ceil(8)))
