@@ -370,12 +370,12 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
 
     let tagged = spec.framing == Framing::Tagged;
     let read_header_fn: TokenStream = if tagged {
-        READ_HEADER.parse().unwrap_or_default()
+        read_header_tokens()
     } else {
         TokenStream::new()
     };
     let leb_fn: TokenStream = if tagged {
-        LEB_FN.parse().unwrap_or_default()
+        leb128_len_tokens()
     } else {
         TokenStream::new()
     };
@@ -390,7 +390,7 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
         quote!(0usize)
     };
     let finish: TokenStream = if tagged {
-        WRITE_HEADER.parse().unwrap_or_default()
+        write_header_tokens()
     } else {
         quote! {
             // Bare: move the padding from the front to the end of the payload.
@@ -649,69 +649,75 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
     (tokens, rows)
 }
 
-const READ_HEADER: &str = r#"
-            /// Header: (symbol count, header length, padding bits).
-            fn read_header(stream: &[u8]) -> ::core::result::Result<(usize, usize, usize), Error> {
-                let ::core::option::Option::Some(&tag) = stream.first() else {
-                    return ::core::result::Result::Err(Error::Truncated);
-                };
-                if tag & 0xf8 != FORMAT_VERSION << 4 {
-                    return ::core::result::Result::Err(Error::UnknownFormat);
-                }
-                let (::core::option::Option::Some(&lo), ::core::option::Option::Some(&hi)) = (stream.get(1), stream.get(2)) else {
-                    return ::core::result::Result::Err(Error::Truncated);
-                };
-                if u16::from_le_bytes([lo, hi]) != FINGERPRINT {
-                    return ::core::result::Result::Err(Error::WrongCodec);
-                }
-                let mut count: u64 = 0;
-                let mut shift = 0u32;
-                let mut pos = 3;
-                loop {
-                    let ::core::option::Option::Some(&b) = stream.get(pos) else {
+fn read_header_tokens() -> TokenStream {
+    quote! {
+                /// Header: (symbol count, header length, padding bits).
+                fn read_header(stream: &[u8]) -> ::core::result::Result<(usize, usize, usize), Error> {
+                    let ::core::option::Option::Some(&tag) = stream.first() else {
                         return ::core::result::Result::Err(Error::Truncated);
                     };
-                    pos += 1;
-                    if shift > 63 || (shift == 63 && b > 1) {
-                        return ::core::result::Result::Err(Error::BadLength);
+                    if tag & 0xf8 != FORMAT_VERSION << 4 {
+                        return ::core::result::Result::Err(Error::UnknownFormat);
                     }
-                    count |= u64::from(b & 0x7f) << shift;
-                    if b & 0x80 == 0 {
-                        if b == 0 && shift > 0 {
+                    let (::core::option::Option::Some(&lo), ::core::option::Option::Some(&hi)) = (stream.get(1), stream.get(2)) else {
+                        return ::core::result::Result::Err(Error::Truncated);
+                    };
+                    if u16::from_le_bytes([lo, hi]) != FINGERPRINT {
+                        return ::core::result::Result::Err(Error::WrongCodec);
+                    }
+                    let mut count: u64 = 0;
+                    let mut shift = 0u32;
+                    let mut pos = 3;
+                    loop {
+                        let ::core::option::Option::Some(&b) = stream.get(pos) else {
+                            return ::core::result::Result::Err(Error::Truncated);
+                        };
+                        pos += 1;
+                        if shift > 63 || (shift == 63 && b > 1) {
                             return ::core::result::Result::Err(Error::BadLength);
                         }
-                        break;
+                        count |= u64::from(b & 0x7f) << shift;
+                        if b & 0x80 == 0 {
+                            if b == 0 && shift > 0 {
+                                return ::core::result::Result::Err(Error::BadLength);
+                            }
+                            break;
+                        }
+                        shift += 7;
                     }
-                    shift += 7;
+                    match usize::try_from(count) {
+                        ::core::result::Result::Ok(count) => ::core::result::Result::Ok((count, pos, usize::from(tag & 7))),
+                        ::core::result::Result::Err(_) => ::core::result::Result::Err(Error::BadLength),
+                    }
                 }
-                match usize::try_from(count) {
-                    ::core::result::Result::Ok(count) => ::core::result::Result::Ok((count, pos, usize::from(tag & 7))),
-                    ::core::result::Result::Err(_) => ::core::result::Result::Err(Error::BadLength),
-                }
-            }
 
-"#;
+    }
+}
 
-const LEB_FN: &str = r#"
-            const fn leb128_len(mut n: usize) -> usize {
-                let mut len = 1;
-                while n >= 0x80 {
-                    n >>= 7;
-                    len += 1;
+fn leb128_len_tokens() -> TokenStream {
+    quote! {
+                const fn leb128_len(mut n: usize) -> usize {
+                    let mut len = 1;
+                    while n >= 0x80 {
+                        n >>= 7;
+                        len += 1;
+                    }
+                    len
                 }
-                len
-            }
 
-"#;
+    }
+}
 
-const WRITE_HEADER: &str = r#"
-                if let ::core::option::Option::Some(dst) = out.get_mut(..3) {
-                    let [lo, hi] = FINGERPRINT.to_le_bytes();
-                    dst.copy_from_slice(&[(FORMAT_VERSION << 4) | pad as u8, lo, hi]);
-                }
-                let mut n = input.len();
-                for dst in out.iter_mut().take(header).skip(3) {
-                    *dst = (n & 0x7f) as u8 | if n >= 0x80 { 0x80 } else { 0 };
-                    n >>= 7;
-                }
-"#;
+fn write_header_tokens() -> TokenStream {
+    quote! {
+                    if let ::core::option::Option::Some(dst) = out.get_mut(..3) {
+                        let [lo, hi] = FINGERPRINT.to_le_bytes();
+                        dst.copy_from_slice(&[(FORMAT_VERSION << 4) | pad as u8, lo, hi]);
+                    }
+                    let mut n = input.len();
+                    for dst in out.iter_mut().take(header).skip(3) {
+                        *dst = (n & 0x7f) as u8 | if n >= 0x80 { 0x80 } else { 0 };
+                        n >>= 7;
+                    }
+    }
+}
