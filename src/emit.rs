@@ -155,7 +155,6 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
     let alphabet_len = Literal::usize_unsuffixed(spec.symbols.len());
     let alphabet_count = spec.symbols.len();
     let fingerprint = Literal::u16_unsuffixed(codec.fingerprint);
-    let _ = alphabet_count;
     let max_bits = Literal::u32_unsuffixed(u32::from(
         tans.decode.iter().map(|e| e.bits).max().unwrap_or(0),
     ));

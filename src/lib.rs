@@ -142,8 +142,6 @@ fn alphabet_bytes(codec: &spec::CodecSpec) -> Vec<u8> {
 fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
     let mut built = Vec::with_capacity(spec.codecs.len());
     let mut inputs = Vec::new();
-    // Line endings normalised, so a checkout with CRLF renders the same header.
-    let mut hash_parts: Vec<Vec<u8>> = vec![text.replace("\r\n", "\n").into_bytes()];
     let mut warnings = Vec::new();
     for codec in &spec.codecs {
         let b = build_codec(codec)?;
@@ -152,7 +150,6 @@ fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
                 inputs.push(path.clone());
             }
         }
-        hash_parts.extend(b.model.sample_bytes.iter().cloned());
         warnings.extend(advice(codec, &b));
         built.push(b);
     }
@@ -167,7 +164,13 @@ fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
             report: &b.report,
         })
         .collect();
-    let refs: Vec<&[u8]> = hash_parts.iter().map(Vec::as_slice).collect();
+    // The spec (line endings normalised, so a CRLF checkout renders the same header) and
+    // every sample, hashed in place rather than copied.
+    let spec_text = text.replace("\r\n", "\n");
+    let mut refs: Vec<&[u8]> = vec![spec_text.as_bytes()];
+    for b in &built {
+        refs.extend(b.model.sample_bytes.iter().map(Vec::as_slice));
+    }
     let source = emit::file(&parts, verify::fnv1a(&refs))?;
     Ok(Rendered {
         source,

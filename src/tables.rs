@@ -159,6 +159,7 @@ pub fn spread(rule: SpreadRule, slots: &[u32], p: &[f64], scale_bits: u32) -> Ve
             copies.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
             copies.into_iter().map(|c| c.1).collect()
         }
+        // A given spread comes from the caller (`from_spread`); there is nothing to lay out.
         SpreadRule::Given => Vec::new(),
     }
 }
