@@ -5,8 +5,8 @@
 
 use crate::error::{Error, Result};
 use crate::report::Report;
-use crate::spec::{variant_name, CodecSpec, Framing, Kind, SymbolName};
-use crate::tables::Tans;
+use crate::spec::{variant_name, CodecSpec, Framing, Kind, Lookup, SymbolName};
+use crate::tables::{Rans, Tables, Tans};
 use crate::verify::FORMAT_VERSION;
 use proc_macro2::{Ident, Literal, Span, TokenStream};
 use quote::{format_ident, quote};
@@ -15,7 +15,7 @@ use std::fmt::Write as _;
 /// Everything the emitter needs for one codec.
 pub struct CodecParts<'a> {
     pub spec: &'a CodecSpec,
-    pub tans: &'a Tans,
+    pub tables: &'a Tables,
     pub fingerprint: u16,
     pub report: &'a Report,
 }
@@ -27,18 +27,26 @@ struct Rows {
 }
 
 /// Bytes the static tables of a codec occupy.
-pub fn table_bytes(spec: &CodecSpec, tans: &Tans) -> usize {
-    let l = tans.table_len();
-    let step = if spec.kind == Kind::Tokens && spec.symbols.len() > 256 {
-        6
-    } else {
-        4
+pub fn table_bytes(spec: &CodecSpec, tables: &Tables) -> usize {
+    let wide = spec.kind == Kind::Tokens && spec.symbols.len() > 256;
+    let rows = match spec.kind {
+        Kind::Bytes => 256,
+        Kind::Tokens => spec.symbols.len(),
     };
-    let rules = match spec.kind {
-        Kind::Bytes => 256 * 8,
-        Kind::Tokens => spec.symbols.len() * 8,
-    };
-    l * step + l * 2 + rules
+    match tables {
+        Tables::Tans(tans) => {
+            let l = tans.table_len();
+            let step = if wide { 6 } else { 4 };
+            l * step + l * 2 + rows * 8
+        }
+        Tables::Rans(rans) => {
+            let lookup = match spec.lookup {
+                Lookup::Table => (1usize << rans.scale_bits) * 6,
+                Lookup::Search => (spec.symbols.len() + 1) * 2,
+            };
+            lookup + rows * 16
+        }
+    }
 }
 
 /// The whole generated file.
@@ -147,23 +155,44 @@ fn byte_literal(b: u8) -> String {
     }
 }
 
+/// Per-codec facts the templates share.
+struct Shape {
+    lanes: usize,
+    tagged: bool,
+    bytes: bool,
+}
+
+fn rows_of<T>(items: &[T], per_line: usize, mut cell: impl FnMut(&mut String, &T)) -> Vec<String> {
+    items
+        .chunks(per_line)
+        .enumerate()
+        .map(|(line, chunk)| {
+            let mut row = String::with_capacity(chunk.len() * 24 + 8);
+            for item in chunk {
+                cell(&mut row, item);
+            }
+            row.push_str("// ");
+            push_number(&mut row, (line * per_line) as u64);
+            row
+        })
+        .collect()
+}
+
 fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
     let spec = codec.spec;
-    let tans = codec.tans;
     let name = Ident::new(&spec.name, Span::call_site());
-    let scale_bits = Literal::u32_unsuffixed(tans.scale_bits);
+    let scale_bits = Literal::u32_unsuffixed(codec.tables.scale_bits());
     let alphabet_len = Literal::usize_unsuffixed(spec.symbols.len());
     let alphabet_count = spec.symbols.len();
     let fingerprint = Literal::u16_unsuffixed(codec.fingerprint);
-    let max_bits = Literal::u32_unsuffixed(u32::from(
-        tans.decode.iter().map(|e| e.bits).max().unwrap_or(0),
-    ));
     let format_version = Literal::u8_unsuffixed(FORMAT_VERSION);
+    let lanes = Literal::usize_unsuffixed(spec.lanes as usize);
     let module_doc = docs(&codec.report.doc_lines());
-    let ph = |table: &str| format!("__precast_rows_{index}_{table}");
-    let decode_ph = format_ident!("__precast_rows_{}_decode", index);
-    let rules_ph = format_ident!("__precast_rows_{}_rules", index);
-    let next_ph = format_ident!("__precast_rows_{}_next", index);
+    let shape = Shape {
+        lanes: spec.lanes as usize,
+        tagged: spec.framing == Framing::Tagged,
+        bytes: spec.kind == Kind::Bytes,
+    };
 
     // Row labels, computed once per symbol rather than once per table entry.
     let labels: Vec<String> = spec
@@ -174,96 +203,27 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
             SymbolName::Token(t) => format!("Symbol::{}", variant_name(t)),
         })
         .collect();
-
-    // Decode rows: eight steps a line, the first position of the line in a comment.
-    let decode_rows: Vec<String> = tans
-        .decode
-        .chunks(8)
-        .enumerate()
-        .map(|(line, chunk)| {
-            let mut row = String::with_capacity(chunk.len() * 32);
-            for e in chunk {
-                row.push_str("Step(");
-                row.push_str(&labels[usize::from(e.symbol)]);
-                row.push_str(", ");
-                push_number(&mut row, u64::from(e.bits));
-                row.push_str(", ");
-                push_number(&mut row, u64::from(e.base));
-                row.push_str("), ");
-            }
-            row.push_str("// ");
-            push_number(&mut row, (line * 8) as u64);
-            row
-        })
-        .collect();
-    let next_rows: Vec<String> = tans
-        .next_state
-        .chunks(16)
-        .enumerate()
-        .map(|(line, chunk)| {
-            let mut row = String::with_capacity(chunk.len() * 7 + 8);
-            for &v in chunk {
-                push_number(&mut row, u64::from(v));
-                row.push_str(", ");
-            }
-            row.push_str("// ");
-            push_number(&mut row, (line * 16) as u64);
-            row
+    let names: Vec<String> = spec
+        .symbols
+        .iter()
+        .map(|s| match s {
+            SymbolName::Token(t) => t.clone(),
+            SymbolName::Byte(b) => b.to_string(),
         })
         .collect();
 
-    let (
-        symbol_items,
-        rule_rows,
-        rule_len,
-        rule_index,
-        absent_field,
-        absent_check,
-        unknown_variant,
-        unknown_display,
-    ) = match spec.kind {
+    let (symbol_items, unknown_variant, unknown_display) = match spec.kind {
         Kind::Bytes => {
-            let bytes: Vec<u8> = spec
-                .symbols
-                .iter()
-                .map(|s| match s {
-                    SymbolName::Byte(b) => *b,
-                    SymbolName::Token(_) => 0,
-                })
-                .collect();
-            let byte_lits = bytes.iter().map(|b| Literal::u8_unsuffixed(*b));
-            let mut rows = Vec::with_capacity(256);
-            for b in 0..=255u8 {
-                let (rule, absent) = match bytes.iter().position(|&x| x == b) {
-                    Some(s) => (tans.rules[s], 0),
-                    None => (tans.rules[0], 1),
-                };
-                let what = if absent == 1 {
-                    "not in the alphabet".to_string()
-                } else {
-                    byte_literal(b)
-                };
-                rows.push(format!(
-                    "Rule({:#010x}, {}, {absent}), // {b}: {what}",
-                    rule.bias, rule.offset
-                ));
-            }
+            let byte_lits = spec.symbols.iter().map(|s| match s {
+                SymbolName::Byte(b) => Literal::u8_unsuffixed(*b),
+                SymbolName::Token(_) => Literal::u8_unsuffixed(0),
+            });
             (
                 quote! {
                     /// A symbol of this codec: one of the byte values in [`ALPHABET`].
                     pub type Symbol = u8;
                     /// The alphabet, in spec order.
                     pub const ALPHABET: [Symbol; ALPHABET_LEN] = [#(#byte_lits),*];
-                },
-                rows,
-                quote!(256),
-                quote!(usize::from(symbol)),
-                quote! {
-                    /// 1 for a byte outside the alphabet (its other fields are harmless).
-                    u8,
-                },
-                quote! {
-                    absent |= rule.2;
                 },
                 quote! {
                     /// `input[position]` is not in the alphabet.
@@ -288,26 +248,12 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
                     SymbolName::Byte(b) => format_ident!("B{}", b),
                 })
                 .collect();
-            let names: Vec<String> = spec
-                .symbols
-                .iter()
-                .map(|s| match s {
-                    SymbolName::Token(t) => t.clone(),
-                    SymbolName::Byte(b) => b.to_string(),
-                })
-                .collect();
             let repr = if alphabet_count > 256 {
                 quote!(u16)
             } else {
                 quote!(u8)
             };
             let variant_docs = names.iter().map(|n| format!(" Token `{n}`."));
-            let rows = tans
-                .rules
-                .iter()
-                .zip(&names)
-                .map(|(r, n)| format!("Rule({:#010x}, {}), // {n}", r.bias, r.offset))
-                .collect();
             (
                 quote! {
                     /// A symbol of this codec: one token of the alphabet.
@@ -326,10 +272,10 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
                             }
                         }
                         /// The token with this name, if any.
-                        pub fn from_name(name: &str) -> ::core::option::Option<Symbol> {
+                        pub fn from_name(name: &str) -> Option<Symbol> {
                             match name {
-                                #(#names => ::core::option::Option::Some(Symbol::#variants),)*
-                                _ => ::core::option::Option::None,
+                                #(#names => Some(Symbol::#variants),)*
+                                _ => None,
                             }
                         }
                     }
@@ -339,114 +285,43 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
                         }
                     }
                 },
-                rows,
-                quote!(ALPHABET_LEN),
-                quote!(symbol as usize),
-                quote!(),
-                quote!(),
                 quote!(),
                 quote!(),
             )
         }
     };
 
-    let (absent_decl, absent_after) = if spec.kind == Kind::Bytes {
-        (
-            quote!(let mut absent: u8 = 0;),
-            quote! {
-                if absent != 0 {
-                    let position = input
-                        .iter()
-                        .position(|&symbol| RULES[usize::from(symbol)].2 != 0)
-                        .unwrap_or(0);
-                    return ::core::result::Result::Err(Error::UnknownSymbol { position });
-                }
-            },
-        )
-    } else {
-        (quote!(), quote!())
+    let (body, rows) = match codec.tables {
+        Tables::Tans(tans) => tans_body(codec, tans, &shape, &labels, &names, index),
+        Tables::Rans(rans) => rans_body(codec, rans, &shape, &labels, &names, index),
     };
-
-    let tagged = spec.framing == Framing::Tagged;
-    let read_header_fn: TokenStream = if tagged {
+    let read_header_fn = if shape.tagged {
         read_header_tokens()
     } else {
         TokenStream::new()
     };
-    let leb_fn: TokenStream = if tagged {
+    let leb_fn = if shape.tagged {
         leb128_len_tokens()
     } else {
         TokenStream::new()
     };
-    let header_max = if tagged {
-        quote!(3 + leb128_len(symbols))
-    } else {
-        quote!(0usize)
-    };
-    let header_len = if tagged {
-        quote!(3 + leb128_len(input.len()))
-    } else {
-        quote!(0usize)
-    };
-    let finish: TokenStream = if tagged {
-        write_header_tokens()
-    } else {
-        quote! {
-            // Bare: move the padding from the front to the end of the payload.
-            if pad != 0 {
-                let mut i = 0;
-                while i < len {
-                    let next = if i + 1 < len { out.get(i + 1).copied().unwrap_or(0) } else { 0 };
-                    if let ::core::option::Option::Some(b) = out.get_mut(i) {
-                        *b = (*b << pad) | (next >> (8 - pad));
-                    }
-                    i += 1;
-                }
-            }
-        }
-    };
-    let start = if tagged {
-        quote! {
-            let (count, header, pad) = read_header(stream)?;
-            let ::core::option::Option::Some(out) = out.get_mut(..count) else {
-                return ::core::result::Result::Err(Error::OutputTooSmall);
-            };
-        }
-    } else {
-        quote! {
-            // Bare: the output length is the symbol count.
-            let (count, header, pad) = (out.len(), 0usize, 0usize);
-        }
-    };
-    let tail_check = if tagged {
-        quote! {
-            // The padding count must make the stream end on a byte boundary: one stream,
-            // one encoding.
-            if at % 8 != 0 {
-                return ::core::result::Result::Err(Error::Corrupt);
-            }
-        }
-    } else {
-        quote! {
-            let tail = (8 - at % 8) % 8;
-            if tail != 0 && peek(payload, at) >> (16 - tail) != 0 {
-                return ::core::result::Result::Err(Error::Corrupt);
-            }
-        }
-    };
+
     let tokens = quote! {
         #module_doc
         pub mod #name {
+            use ::core::option::Option::{None, Some};
+            use ::core::result::Result::{self, Err, Ok};
+
             /// log2 of the table size: the tables have `2^SCALE_BITS` slots.
             pub const SCALE_BITS: u32 = #scale_bits;
             /// Number of symbols in the alphabet.
             pub const ALPHABET_LEN: usize = #alphabet_len;
+            /// Interleaved coder states: symbol `i` of a stream belongs to lane `i % LANES`.
+            pub const LANES: usize = #lanes;
             /// Identifies these tables in every stream; a stream with another one is refused.
             pub const FINGERPRINT: u16 = #fingerprint;
             /// Version of the stream format these functions read and write (FORMAT.md).
             pub const FORMAT_VERSION: u8 = #format_version;
-            /// Most bits any one symbol costs.
-            pub const MAX_SYMBOL_BITS: u32 = #max_bits;
 
             #symbol_items
 
@@ -492,145 +367,460 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
 
             #leb_fn
 
-            /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
-            pub const fn max_encoded_len(symbols: usize) -> usize {
-                let bits = symbols
-                    .saturating_mul(MAX_SYMBOL_BITS as usize)
-                    .saturating_add(SCALE_BITS as usize);
-                (#header_max).saturating_add(bits.div_ceil(8))
-            }
-
-            /// Encodes `input` into `out` as one self-delimiting stream; returns its length.
-            ///
-            /// The stream is written back to front at the end of `out`, then moved to the
-            /// front; `out` beyond the returned length is left unspecified.
-            pub fn encode(input: &[Symbol], out: &mut [u8]) -> ::core::result::Result<usize, Error> {
-                let header = #header_len;
-                let end = out.len();
-                let mut pos = end;
-                let mut x = TABLE_LEN as u32;
-                // Bits not yet stored, the latest at the low end; fewer than 8 between symbols.
-                let mut acc: u32 = 0;
-                let mut pending: u32 = 0;
-                #absent_decl
-                for &symbol in input.iter().rev() {
-                    let rule = &RULES[#rule_index];
-                    #absent_check
-                    let bits = x.wrapping_add(rule.0) >> (SCALE_BITS + 1);
-                    acc |= (x & !u32::MAX.wrapping_shl(bits)) << pending;
-                    pending += bits;
-                    x = u32::from(NEXT_STATE[((x >> bits) as usize + usize::from(rule.1)) & MASK]);
-                    // Store two bytes unconditionally, keep the whole ones.
-                    let ::core::option::Option::Some(dst) = out.get_mut(pos.wrapping_sub(2)..pos) else {
-                        return ::core::result::Result::Err(Error::OutputTooSmall);
-                    };
-                    dst.copy_from_slice(&(acc as u16).to_be_bytes());
-                    let whole = pending >> 3;
-                    pos -= whole as usize;
-                    acc >>= whole * 8;
-                    pending &= 7;
-                }
-                #absent_after
-                acc |= (x - TABLE_LEN as u32) << pending;
-                pending += SCALE_BITS;
-                // Zero bits that fill the first payload byte (the last one stored).
-                let pad = (8 - pending % 8) % 8;
-                while pending > 0 {
-                    pos = match pos.checked_sub(1) {
-                        ::core::option::Option::Some(p) => p,
-                        ::core::option::Option::None => return ::core::result::Result::Err(Error::OutputTooSmall),
-                    };
-                    if let ::core::option::Option::Some(dst) = out.get_mut(pos) {
-                        *dst = acc as u8;
-                    }
-                    acc >>= 8;
-                    pending = pending.saturating_sub(8);
-                }
-                if pos < header {
-                    return ::core::result::Result::Err(Error::OutputTooSmall);
-                }
-                out.copy_within(pos..end, header);
-                let len = header + (end - pos);
-                #finish
-                ::core::result::Result::Ok(len)
-            }
-
             /// Decodes one whole stream into `out`; returns the number of symbols.
-            pub fn decode(stream: &[u8], out: &mut [Symbol]) -> ::core::result::Result<usize, Error> {
+            pub fn decode(stream: &[u8], out: &mut [Symbol]) -> Result<usize, Error> {
                 let (count, used) = decode_prefix(stream, out)?;
                 if used != stream.len() {
-                    return ::core::result::Result::Err(Error::TrailingBytes);
+                    return Err(Error::TrailingBytes);
                 }
-                ::core::result::Result::Ok(count)
+                Ok(count)
             }
 
-            /// Decodes the stream at the front of `stream` (more may follow it); returns the
-            /// number of symbols and the number of bytes the stream took.
-            pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> ::core::result::Result<(usize, usize), Error> {
-                #start
-                let payload = stream.get(header..).unwrap_or(&[]);
-                if peek(payload, 0) >> (16 - pad) != 0 {
-                    return ::core::result::Result::Err(Error::Corrupt);
-                }
-                let mut at = pad;
-                let mut state = (peek(payload, at) >> (16 - SCALE_BITS)) as usize;
-                at += SCALE_BITS as usize;
-                for slot in out.iter_mut() {
-                    let step = &DECODE[state & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    state = usize::from(step.2) + (peek(payload, at) >> (16 - bits)) as usize;
-                    at += bits as usize;
-                }
-                if at.div_ceil(8) > payload.len() {
-                    return ::core::result::Result::Err(Error::Truncated);
-                }
-                if state != 0 {
-                    return ::core::result::Result::Err(Error::Corrupt);
-                }
-                #tail_check
-                ::core::result::Result::Ok((count, header + at.div_ceil(8)))
-            }
+            #body
 
             #read_header_fn
-
-            /// The 16 bits of `data` from bit `at` on (most significant first), zeros past the end.
-            #[inline(always)]
-            fn peek(data: &[u8], at: usize) -> u32 {
-                let i = at >> 3;
-                let word = match data.get(i..i + 4) {
-                    ::core::option::Option::Some(&[a, b, c, d]) => u32::from_be_bytes([a, b, c, d]),
-                    _ => {
-                        let mut w = [0u8; 4];
-                        for (k, dst) in w.iter_mut().enumerate() {
-                            *dst = data.get(i + k).copied().unwrap_or(0);
-                        }
-                        u32::from_be_bytes(w)
-                    }
-                };
-                (word << (at & 7)) >> 16
-            }
-
-            /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-            /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-            struct Step(Symbol, u8, u16);
-
-            /// Encoding rule per symbol, `Rule(bias, offset, ..)`: from state `x` the encoder
-            /// writes `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
-            /// `NEXT_STATE[((x >> k) + offset) % TABLE_LEN]`.
-            struct Rule(u32, u16, #absent_field);
-
-            /// Decode steps by table position (the spread of symbols over the table).
-            static DECODE: [Step; TABLE_LEN] = #decode_ph;
-
-            /// Encoding rules, indexed by symbol.
-            static RULES: [Rule; #rule_len] = #rules_ph;
-
-            /// For each symbol in alphabet order, the states of its copies in the table, left
-            /// to right (a state is `TABLE_LEN` + position).
-            static NEXT_STATE: [u16; TABLE_LEN] = #next_ph;
         }
     };
+    (tokens, rows)
+}
+
+/// The pieces both methods share: header sizes, the start of the decoder, the bytes-kind
+/// check for symbols outside the alphabet.
+struct Common {
+    header_max: TokenStream,
+    header_len: TokenStream,
+    start: TokenStream,
+    finish_header: TokenStream,
+    rule_index: TokenStream,
+    absent_decl: TokenStream,
+    absent_check: TokenStream,
+    absent_after: TokenStream,
+}
+
+fn common(shape: &Shape) -> Common {
+    let (header_max, header_len, start, finish_header) = if shape.tagged {
+        (
+            quote!(3 + leb128_len(symbols)),
+            quote!(3 + leb128_len(input.len())),
+            quote! {
+                let (count, header, pad) = read_header(stream)?;
+                let Some(out) = out.get_mut(..count) else {
+                    return Err(Error::OutputTooSmall);
+                };
+            },
+            write_header_tokens(),
+        )
+    } else {
+        (
+            quote!(0usize),
+            quote!(0usize),
+            quote! {
+                // Bare: the output length is the symbol count.
+                let (count, header, pad) = (out.len(), 0usize, 0usize);
+            },
+            quote!(),
+        )
+    };
+    let (rule_index, absent_decl, absent_check, absent_after) = if shape.bytes {
+        (
+            quote!(usize::from(symbol)),
+            quote!(let mut absent: u8 = 0;),
+            quote!(absent |= rule.absent;),
+            quote! {
+                if absent != 0 {
+                    let position = input
+                        .iter()
+                        .position(|&symbol| RULES[usize::from(symbol)].absent != 0)
+                        .unwrap_or(0);
+                    return Err(Error::UnknownSymbol { position });
+                }
+            },
+        )
+    } else {
+        (quote!(symbol as usize), quote!(), quote!(), quote!())
+    };
+    Common {
+        header_max,
+        header_len,
+        start,
+        finish_header,
+        rule_index,
+        absent_decl,
+        absent_check,
+        absent_after,
+    }
+}
+
+/// Encoding rows: 256 for bytes (absent bytes get a harmless copy flagged `absent`), one per
+/// token otherwise.
+fn rule_rows(
+    spec: &CodecSpec,
+    names: &[String],
+    row: impl Fn(usize) -> String,
+) -> (Vec<String>, usize) {
+    if spec.kind == Kind::Bytes {
+        let bytes: Vec<u8> = spec
+            .symbols
+            .iter()
+            .map(|s| match s {
+                SymbolName::Byte(b) => *b,
+                SymbolName::Token(_) => 0,
+            })
+            .collect();
+        let rows = (0..=255u8)
+            .map(|b| match bytes.iter().position(|&x| x == b) {
+                Some(s) => format!("{}, absent: 0 }}, // {b}: {}", row(s), byte_literal(b)),
+                None => format!("{}, absent: 1 }}, // {b}: not in the alphabet", row(0)),
+            })
+            .collect();
+        (rows, 256)
+    } else {
+        let rows = names
+            .iter()
+            .enumerate()
+            .map(|(s, n)| format!("{} }}, // {n}", row(s)))
+            .collect();
+        (rows, names.len())
+    }
+}
+
+/// Reads of the payload that fall past its end, for the decoders' last symbols.
+fn tail_word_tokens() -> TokenStream {
+    quote! {
+        /// Eight bytes of `data` from `at` on, little-endian, zeros past the end.
+        #[inline(always)]
+        fn word(data: &[u8], at: usize) -> u64 {
+            match data.get(at..).and_then(<[u8]>::first_chunk::<8>) {
+                Some(w) => u64::from_le_bytes(*w),
+                None => {
+                    let mut w = [0u8; 8];
+                    for (k, dst) in w.iter_mut().enumerate() {
+                        *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+                    }
+                    u64::from_le_bytes(w)
+                }
+            }
+        }
+    }
+}
+
+fn tans_body(
+    codec: &CodecParts<'_>,
+    tans: &Tans,
+    shape: &Shape,
+    labels: &[String],
+    names: &[String],
+    index: usize,
+) -> (TokenStream, Vec<Rows>) {
+    let c = common(shape);
+    let max_bits_value = u32::from(tans.decode.iter().map(|e| e.bits).max().unwrap_or(0)).max(1);
+    let max_bits = Literal::u32_unsuffixed(max_bits_value);
+    let lanes = shape.lanes;
+    // One 64-bit load holds at least 57 unread bits; flushing keeps fewer than 64 pending.
+    let per_load = (57 / max_bits_value as usize).clamp(1, lanes);
+    let per_flush = (56 / max_bits_value as usize).clamp(1, lanes);
+    let last_load = (lanes - 1) / per_load * per_load;
+    let decode_window = 8 + (7 + last_load * max_bits_value as usize) / 8;
+    let encode_window = 8 + (7 + lanes * max_bits_value as usize) / 8;
+    let per_load = Literal::usize_unsuffixed(per_load);
+    let per_flush = Literal::usize_unsuffixed(per_flush);
+    let decode_window = Literal::usize_unsuffixed(decode_window);
+    let encode_window = Literal::usize_unsuffixed(encode_window);
+    let Common {
+        header_max,
+        header_len,
+        start,
+        finish_header,
+        rule_index,
+        absent_decl,
+        absent_check,
+        absent_after,
+    } = c;
+
+    let decode_rows = rows_of(&tans.decode, 8, |row, e| {
+        row.push_str("Step(");
+        row.push_str(&labels[usize::from(e.symbol)]);
+        row.push_str(", ");
+        push_number(row, u64::from(e.bits));
+        row.push_str(", ");
+        push_number(row, u64::from(e.base));
+        row.push_str("), ");
+    });
+    let next_rows = rows_of(&tans.next_state, 16, |row, &v| {
+        push_number(row, u64::from(v));
+        row.push_str(", ");
+    });
+    let (rule_rows, rule_len) = rule_rows(codec.spec, names, |s| {
+        let r = tans.rules[s];
+        format!("Rule {{ bias: {:#010x}, offset: {}", r.bias, r.offset)
+    });
+    let rule_len = Literal::usize_unsuffixed(rule_len);
+    let absent_field = if shape.bytes {
+        quote! {
+            /// 1 for a byte outside the alphabet (its other fields are harmless).
+            absent: u8,
+        }
+    } else {
+        quote!()
+    };
+    let finish = if shape.tagged {
+        finish_header
+    } else {
+        quote! {
+            // Bare: move the padding from the front to the end of the payload.
+            if pad != 0 {
+                let mut i = 0;
+                while i < len {
+                    let next = if i + 1 < len { out.get(i + 1).copied().unwrap_or(0) } else { 0 };
+                    if let Some(b) = out.get_mut(i) {
+                        *b = (*b >> pad) | (next << (8 - pad));
+                    }
+                    i += 1;
+                }
+            }
+        }
+    };
+    let tail_check = if shape.tagged {
+        quote! {
+            // The padding count must make the stream end on a byte boundary: one stream,
+            // one encoding.
+            if at % 8 != 0 {
+                return Err(Error::Corrupt);
+            }
+        }
+    } else {
+        quote! {
+            if bits_at(payload, at) & !(u64::MAX << ((8 - at % 8) % 8)) != 0 {
+                return Err(Error::Corrupt);
+            }
+        }
+    };
+    let word_fn = tail_word_tokens();
+    let decode_ph = format_ident!("__precast_rows_{}_decode", index);
+    let rules_ph = format_ident!("__precast_rows_{}_rules", index);
+    let next_ph = format_ident!("__precast_rows_{}_next", index);
+
+    let body = quote! {
+        /// Most bits any one symbol costs.
+        pub const MAX_SYMBOL_BITS: u32 = #max_bits;
+        /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
+        const PER_LOAD: usize = #per_load;
+        /// Symbols encoded between two stores (fewer than 64 bits stay pending).
+        const PER_FLUSH: usize = #per_flush;
+        /// Stream bytes one decoder round of `LANES` symbols may touch.
+        const DECODE_WINDOW: usize = #decode_window;
+        /// Output bytes one encoder round of `LANES` symbols may touch.
+        const ENCODE_WINDOW: usize = #encode_window;
+
+        /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
+        pub const fn max_encoded_len(symbols: usize) -> usize {
+            let bits = symbols
+                .saturating_mul(MAX_SYMBOL_BITS as usize)
+                .saturating_add(LANES * SCALE_BITS as usize + 7);
+            (#header_max).saturating_add(bits / 8)
+        }
+
+        /// One encoder step: puts the low `k` bits of `x` just below the `pending` bits at the
+        /// top of `acc` (the stream is built back to front) and returns the next state and `k`.
+        #[inline(always)]
+        fn put(x: u32, rule: &Rule, acc: &mut u64, pending: u32) -> (u32, u32) {
+            let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
+            let value = u64::from(x & !(u32::MAX << bits));
+            // The shift is 64 only when `value` is empty, and then the wrapped shift adds 0.
+            *acc |= value.wrapping_shl(64u32.wrapping_sub(pending + bits));
+            let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
+            (u32::from(next), bits)
+        }
+
+        /// Stores the whole bytes of the pending bits in front of `pos`.
+        #[inline(always)]
+        fn store(out: &mut [u8], pos: &mut usize, acc: &mut u64, pending: &mut u32) -> Result<(), Error> {
+            let whole = (*pending >> 3) as usize;
+            let bytes = acc.to_le_bytes();
+            let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..)) else {
+                return Err(Error::OutputTooSmall);
+            };
+            let Some(dst) = out.get_mut(start..*pos) else {
+                return Err(Error::OutputTooSmall);
+            };
+            dst.copy_from_slice(top);
+            *pos = start;
+            *acc = acc.wrapping_shl(whole as u32 * 8);
+            *pending &= 7;
+            Ok(())
+        }
+
+        /// Encodes `input` into `out` as one stream; returns its length.
+        ///
+        /// The stream is written back to front at the end of `out`, then moved to the
+        /// front; `out` beyond the returned length is left unspecified.
+        pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
+            let header = #header_len;
+            let end = out.len();
+            let mut pos = end;
+            let mut state = [TABLE_LEN as u32; LANES];
+            // Bits not yet stored, at the top of `acc`; fewer than 8 between stores.
+            let mut acc: u64 = 0;
+            let mut pending: u32 = 0;
+            #absent_decl
+            // Symbols go in backwards, so the last, partial round comes first.
+            let (rounds, rest) = input.as_chunks::<LANES>();
+            for (lane, &symbol) in rest.iter().enumerate().rev() {
+                let rule = &RULES[#rule_index];
+                #absent_check
+                let (next, bits) = put(state[lane % LANES], rule, &mut acc, pending);
+                state[lane % LANES] = next;
+                pending += bits;
+                store(out, &mut pos, &mut acc, &mut pending)?;
+            }
+            for round in rounds.iter().rev() {
+                let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
+                if let Some(window) = window {
+                    // Fast path: every store lands in `window`, no other check needed.
+                    let top = pos;
+                    for lane in (0..LANES).rev() {
+                        let symbol = round[lane];
+                        let rule = &RULES[#rule_index];
+                        #absent_check
+                        let (next, bits) = put(state[lane], rule, &mut acc, pending);
+                        state[lane] = next;
+                        pending += bits;
+                        if lane % PER_FLUSH == 0 {
+                            let at = (ENCODE_WINDOW - 8).saturating_sub(top.wrapping_sub(pos));
+                            window[at..at + 8].copy_from_slice(&acc.to_le_bytes());
+                            let whole = pending >> 3;
+                            pos -= whole as usize;
+                            acc <<= whole * 8;
+                            pending &= 7;
+                        }
+                    }
+                } else {
+                    for lane in (0..LANES).rev() {
+                        let symbol = round[lane];
+                        let rule = &RULES[#rule_index];
+                        #absent_check
+                        let (next, bits) = put(state[lane], rule, &mut acc, pending);
+                        state[lane] = next;
+                        pending += bits;
+                        store(out, &mut pos, &mut acc, &mut pending)?;
+                    }
+                }
+            }
+            #absent_after
+            // The final states, lane 0 in front, then zero padding to a whole byte.
+            for &x in state.iter().rev() {
+                acc |= (u64::from(x) - TABLE_LEN as u64) << (64 - pending - SCALE_BITS);
+                pending += SCALE_BITS;
+                store(out, &mut pos, &mut acc, &mut pending)?;
+            }
+            let pad = (8 - pending % 8) % 8;
+            pending += pad;
+            store(out, &mut pos, &mut acc, &mut pending)?;
+            if pos < header {
+                return Err(Error::OutputTooSmall);
+            }
+            out.copy_within(pos..end, header);
+            let len = header + (end - pos);
+            #finish
+            Ok(len)
+        }
+
+        /// Decodes the stream at the front of `stream` (more may follow it); returns the
+        /// number of symbols and the number of bytes the stream took.
+        pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
+            #start
+            let payload = stream.get(header..).unwrap_or(&[]);
+            if bits_at(payload, 0) & !(u64::MAX << pad) != 0 {
+                return Err(Error::Corrupt);
+            }
+            let mut at = pad;
+            let mut state = [0usize; LANES];
+            for x in state.iter_mut() {
+                *x = bits_at(payload, at) as usize & MASK;
+                at += SCALE_BITS as usize;
+            }
+            let (rounds, _) = out.as_chunks_mut::<LANES>();
+            let mut done = 0;
+            for round in rounds.iter_mut() {
+                let Some(window) = payload.get(at >> 3..).and_then(<[u8]>::first_chunk::<DECODE_WINDOW>) else {
+                    break;
+                };
+                // Fast path: every read lands in `window`, no other check needed.
+                let first = at >> 3;
+                let mut buf = 0u64;
+                for lane in 0..LANES {
+                    if lane % PER_LOAD == 0 {
+                        buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
+                    }
+                    let step = &DECODE[state[lane] & MASK];
+                    round[lane] = step.0;
+                    let bits = u32::from(step.1);
+                    state[lane] = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                    buf >>= bits;
+                    at += bits as usize;
+                }
+                done += LANES;
+            }
+            for (i, slot) in out.iter_mut().enumerate().skip(done) {
+                let x = &mut state[i % LANES];
+                let step = &DECODE[*x & MASK];
+                *slot = step.0;
+                let bits = u32::from(step.1);
+                *x = usize::from(step.2) + (bits_at(payload, at) & !(u64::MAX << bits)) as usize;
+                at += bits as usize;
+            }
+            if at.div_ceil(8) > payload.len() {
+                return Err(Error::Truncated);
+            }
+            if state.iter().any(|&x| x != 0) {
+                return Err(Error::Corrupt);
+            }
+            #tail_check
+            Ok((count, header + at.div_ceil(8)))
+        }
+
+        /// Eight bytes of `window` from `at` on, little-endian. The rounds never read past
+        /// `N - 8`; the `min` only lets the compiler see it and drop the bounds check.
+        #[inline(always)]
+        fn window_word<const N: usize>(window: &[u8; N], at: usize) -> u64 {
+            let at = if at < N - 8 { at } else { N - 8 };
+            let mut w = [0u8; 8];
+            w.copy_from_slice(&window[at..at + 8]);
+            u64::from_le_bytes(w)
+        }
+
+        #word_fn
+
+        /// The stream bits from bit `at` on, least significant first (57 or more valid).
+        #[inline(always)]
+        fn bits_at(data: &[u8], at: usize) -> u64 {
+            word(data, at >> 3) >> (at & 7)
+        }
+
+        /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
+        /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
+        struct Step(Symbol, u8, u16);
+
+        /// Encoding rule per symbol: from state `x` the encoder writes
+        /// `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
+        /// `NEXT_STATE[((x >> k) + offset) % TABLE_LEN]`.
+        struct Rule {
+            bias: u32,
+            offset: u16,
+            #absent_field
+        }
+
+        /// Decode steps by table position (the spread of symbols over the table).
+        static DECODE: [Step; TABLE_LEN] = #decode_ph;
+
+        /// Encoding rules, indexed by symbol.
+        static RULES: [Rule; #rule_len] = #rules_ph;
+
+        /// For each symbol in alphabet order, the states of its copies in the table, left
+        /// to right (a state is `TABLE_LEN` + position).
+        static NEXT_STATE: [u16; TABLE_LEN] = #next_ph;
+    };
+    let ph = |table: &str| format!("__precast_rows_{index}_{table}");
     let rows = vec![
         Rows {
             placeholder: ph("decode"),
@@ -645,7 +835,340 @@ fn module(codec: &CodecParts<'_>, index: usize) -> (TokenStream, Vec<Rows>) {
             rows: next_rows,
         },
     ];
-    (tokens, rows)
+    (body, rows)
+}
+
+fn rans_body(
+    codec: &CodecParts<'_>,
+    rans: &Rans,
+    shape: &Shape,
+    labels: &[String],
+    names: &[String],
+    index: usize,
+) -> (TokenStream, Vec<Rows>) {
+    let c = common(shape);
+    let Common {
+        header_max,
+        header_len,
+        start,
+        finish_header,
+        rule_index,
+        absent_decl,
+        absent_check,
+        absent_after,
+    } = c;
+    let lanes = shape.lanes;
+    let state_bytes = Literal::usize_unsuffixed(4 * lanes);
+    let window = Literal::usize_unsuffixed(2 * lanes);
+    let ph = |table: &str| format!("__precast_rows_{index}_{table}");
+    let rules_ph = format_ident!("__precast_rows_{}_rules", index);
+    let (rule_rows, rule_len) = rule_rows(codec.spec, names, |s| {
+        let r = rans.rule(s);
+        format!(
+            "Rule {{ multiplier: {:#010x}, limit: {:#010x}, cum: {}, complement: {}, shift: {}",
+            r.multiplier, r.limit, r.cum, r.complement, r.shift
+        )
+    });
+    let rule_len = Literal::usize_unsuffixed(rule_len);
+    let absent_field = if shape.bytes {
+        quote! {
+            /// 1 for a byte outside the alphabet (its other fields are harmless).
+            absent: u8,
+        }
+    } else {
+        quote!()
+    };
+    let symbols_name = if shape.bytes {
+        quote!(ALPHABET)
+    } else {
+        quote!(ALL)
+    };
+    let mut rows = vec![Rows {
+        placeholder: ph("rules"),
+        rows: rule_rows,
+    }];
+    let lookup = match codec.spec.lookup {
+        Lookup::Table => {
+            let decode_ph = format_ident!("__precast_rows_{}_decode", index);
+            let l = 1u32 << rans.scale_bits;
+            let slots: Vec<u32> = (0..l).collect();
+            rows.push(Rows {
+                placeholder: ph("decode"),
+                rows: rows_of(&slots, 8, |row, &slot| {
+                    let s = rans.symbol_at(slot);
+                    row.push_str("Step(");
+                    row.push_str(&labels[s]);
+                    row.push_str(", ");
+                    push_number(row, u64::from(rans.slots[s]));
+                    row.push_str(", ");
+                    push_number(row, u64::from(slot - rans.cum[s]));
+                    row.push_str("), ");
+                }),
+            });
+            quote! {
+                /// What slot `i` decodes to, `Step(symbol, f, i - c)`: the symbol owning the
+                /// slot, its slot count `f` and the slot's place in the symbol's range.
+                struct Step(Symbol, u16, u16);
+
+                /// Decode steps by slot.
+                static DECODE: [Step; TABLE_LEN] = #decode_ph;
+
+                /// The symbol owning `slot`, its slots and the slot's offset in its range.
+                #[inline(always)]
+                fn lookup(slot: usize) -> (Symbol, u32, u32) {
+                    let step = &DECODE[slot & MASK];
+                    (step.0, u32::from(step.1), u32::from(step.2))
+                }
+            }
+        }
+        Lookup::Search => {
+            let cum_ph = format_ident!("__precast_rows_{}_cum", index);
+            rows.push(Rows {
+                placeholder: ph("cum"),
+                rows: rows_of(&rans.cum, 16, |row, &c| {
+                    push_number(row, u64::from(c));
+                    row.push_str(", ");
+                }),
+            });
+            quote! {
+                /// Cumulative slots: symbol `s` owns slots `CUM[s] .. CUM[s + 1]`.
+                static CUM: [u16; ALPHABET_LEN + 1] = #cum_ph;
+
+                /// The symbol owning `slot`, its slots and the slot's offset in its range,
+                /// by a binary search of fixed length over `CUM` (small tables, slower).
+                #[inline(always)]
+                fn lookup(slot: usize) -> (Symbol, u32, u32) {
+                    let slot = (slot & MASK) as u32;
+                    let mut low = 0usize;
+                    let mut len = ALPHABET_LEN;
+                    while len > 1 {
+                        let half = len / 2;
+                        let c = CUM.get(low + half).copied().unwrap_or(u16::MAX);
+                        low += if u32::from(c) <= slot { half } else { 0 };
+                        len -= half;
+                    }
+                    match (#symbols_name.get(low), CUM.get(low), CUM.get(low + 1)) {
+                        (Some(&symbol), Some(&c), Some(&next)) => {
+                            (symbol, u32::from(next - c), slot - u32::from(c))
+                        }
+                        // Unreachable: `low < ALPHABET_LEN`.
+                        _ => (#symbols_name[0], 1, 0),
+                    }
+                }
+            }
+        }
+    };
+    let finish = if shape.tagged {
+        finish_header
+    } else {
+        quote!()
+    };
+    let pad_check = if shape.tagged {
+        quote! {
+            if pad != 0 {
+                return Err(Error::Corrupt);
+            }
+        }
+    } else {
+        quote! {
+            let _ = pad;
+        }
+    };
+    let pad_decl = if shape.tagged {
+        quote!(let pad = 0u32;)
+    } else {
+        quote!()
+    };
+    let word_fn = tail_word_tokens();
+
+    let body = quote! {
+        /// Lower end of the state interval `[LOW, 2^32)`; states move in 16-bit words.
+        const LOW: u32 = 1 << 16;
+
+        /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
+        pub const fn max_encoded_len(symbols: usize) -> usize {
+            (#header_max)
+                .saturating_add(4 * LANES)
+                .saturating_add(symbols.saturating_mul(2))
+        }
+
+        /// One encoder step after renormalisation: `C(s, x) = M floor(x / f) + c + x mod f`,
+        /// with the division done by the rule's reciprocal.
+        #[inline(always)]
+        fn put(x: u32, rule: &Rule) -> u32 {
+            let wide = u64::from(x);
+            let q = (wide + ((wide * u64::from(rule.multiplier)) >> 32)) >> rule.shift;
+            x.wrapping_add(u32::from(rule.cum))
+                .wrapping_add((q as u32).wrapping_mul(u32::from(rule.complement)))
+        }
+
+        /// Renormalises `x` for `rule` the careful way, storing a word in front of `pos`.
+        #[inline(always)]
+        fn shed(x: u32, rule: &Rule, out: &mut [u8], pos: &mut usize) -> Result<u32, Error> {
+            if x <= rule.limit {
+                return Ok(x);
+            }
+            let Some(start) = pos.checked_sub(2) else {
+                return Err(Error::OutputTooSmall);
+            };
+            let Some(dst) = out.get_mut(start..*pos) else {
+                return Err(Error::OutputTooSmall);
+            };
+            dst.copy_from_slice(&(x as u16).to_le_bytes());
+            *pos = start;
+            Ok(x >> 16)
+        }
+
+        /// Encodes `input` into `out` as one stream; returns its length.
+        ///
+        /// The stream is written back to front at the end of `out`, then moved to the
+        /// front; `out` beyond the returned length is left unspecified.
+        pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
+            let header = #header_len;
+            let end = out.len();
+            let mut pos = end;
+            let mut state = [LOW; LANES];
+            #absent_decl
+            // Symbols go in backwards, so the last, partial round comes first.
+            let (rounds, rest) = input.as_chunks::<LANES>();
+            for (lane, &symbol) in rest.iter().enumerate().rev() {
+                let rule = &RULES[#rule_index];
+                #absent_check
+                let x = shed(state[lane % LANES], rule, out, &mut pos)?;
+                state[lane % LANES] = put(x, rule);
+            }
+            for round in rounds.iter().rev() {
+                let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<#window>);
+                if let Some(window) = window {
+                    // Fast path: every store lands in `window`; the word is always stored
+                    // and kept only when the state sheds it.
+                    let top = pos;
+                    for lane in (0..LANES).rev() {
+                        let symbol = round[lane];
+                        let rule = &RULES[#rule_index];
+                        #absent_check
+                        let x = state[lane];
+                        let shed = x > rule.limit;
+                        let at = (2 * LANES - 2).saturating_sub(top.wrapping_sub(pos));
+                        window[at..at + 2].copy_from_slice(&(x as u16).to_le_bytes());
+                        pos -= 2 * usize::from(shed);
+                        state[lane] = put(if shed { x >> 16 } else { x }, rule);
+                    }
+                } else {
+                    for lane in (0..LANES).rev() {
+                        let symbol = round[lane];
+                        let rule = &RULES[#rule_index];
+                        #absent_check
+                        let x = shed(state[lane], rule, out, &mut pos)?;
+                        state[lane] = put(x, rule);
+                    }
+                }
+            }
+            #absent_after
+            // The final states, lane 0 in front.
+            for &x in state.iter().rev() {
+                let Some(start) = pos.checked_sub(4) else {
+                    return Err(Error::OutputTooSmall);
+                };
+                let Some(dst) = out.get_mut(start..pos) else {
+                    return Err(Error::OutputTooSmall);
+                };
+                dst.copy_from_slice(&x.to_le_bytes());
+                pos = start;
+            }
+            if pos < header {
+                return Err(Error::OutputTooSmall);
+            }
+            out.copy_within(pos..end, header);
+            let len = header + (end - pos);
+            #pad_decl
+            #finish
+            Ok(len)
+        }
+
+        /// Decodes the stream at the front of `stream` (more may follow it); returns the
+        /// number of symbols and the number of bytes the stream took.
+        pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
+            #start
+            #pad_check
+            let payload = stream.get(header..).unwrap_or(&[]);
+            let Some(first) = payload.first_chunk::<#state_bytes>() else {
+                return Err(Error::Truncated);
+            };
+            let mut state = [0u32; LANES];
+            for (x, bytes) in state.iter_mut().zip(first.chunks_exact(4)) {
+                let mut w = [0u8; 4];
+                w.copy_from_slice(bytes);
+                *x = u32::from_le_bytes(w);
+            }
+            if state.iter().any(|&x| x < LOW) {
+                return Err(Error::Corrupt);
+            }
+            let mut at = 4 * LANES;
+            let (rounds, _) = out.as_chunks_mut::<LANES>();
+            let mut done = 0;
+            for round in rounds.iter_mut() {
+                let Some(window) = payload.get(at..).and_then(<[u8]>::first_chunk::<#window>) else {
+                    break;
+                };
+                // Fast path: every read lands in `window`; the word is always read and
+                // taken only when the state needs it.
+                let first = at;
+                for lane in 0..LANES {
+                    let x = state[lane];
+                    let (symbol, f, offset) = lookup(x as usize);
+                    round[lane] = symbol;
+                    let x = f.wrapping_mul(x >> SCALE_BITS).wrapping_add(offset);
+                    let i = at.wrapping_sub(first);
+                    let i = if i < 2 * LANES - 2 { i } else { 2 * LANES - 2 };
+                    let w = u32::from(u16::from_le_bytes([window[i], window[i + 1]]));
+                    let refill = x < LOW;
+                    state[lane] = if refill { (x << 16) | w } else { x };
+                    at += 2 * usize::from(refill);
+                }
+                done += LANES;
+            }
+            for (i, slot) in out.iter_mut().enumerate().skip(done) {
+                let x = &mut state[i % LANES];
+                let (symbol, f, offset) = lookup(*x as usize);
+                *slot = symbol;
+                let y = f.wrapping_mul(*x >> SCALE_BITS).wrapping_add(offset);
+                *x = if y < LOW {
+                    at += 2;
+                    (y << 16) | (word(payload, at - 2) as u32 & 0xffff)
+                } else {
+                    y
+                };
+            }
+            if at > payload.len() {
+                return Err(Error::Truncated);
+            }
+            if state.iter().any(|&x| x != LOW) {
+                return Err(Error::Corrupt);
+            }
+            Ok((count, header + at))
+        }
+
+        #word_fn
+
+        #lookup
+
+        /// Encoding rule per symbol: write a word first when `x > limit`, then
+        /// `x + cum + floor(x / f) * complement`, where `complement = M - f` and
+        /// `floor(x / f) = (x + (x * multiplier >> 32)) >> shift`.
+        struct Rule {
+            multiplier: u32,
+            limit: u32,
+            cum: u16,
+            complement: u16,
+            shift: u8,
+            #absent_field
+        }
+
+        /// Encoding rules, indexed by symbol.
+        static RULES: [Rule; #rule_len] = #rules_ph;
+    };
+    (body, rows)
 }
 
 fn read_header_tokens() -> TokenStream {

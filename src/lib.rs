@@ -91,7 +91,7 @@ pub fn render(path: impl AsRef<Path>) -> Result<Rendered> {
 /// A codec carried through every stage.
 pub struct Built {
     pub model: model::Model,
-    pub tans: tables::Tans,
+    pub tables: tables::Tables,
     pub fingerprint: u16,
     pub report: Report,
 }
@@ -102,17 +102,35 @@ pub fn build_codec(codec: &spec::CodecSpec) -> Result<Built> {
     let slots =
         quantize::quantize(&model.counts, codec.scale_bits).map_err(|e| e.in_codec(&codec.name))?;
     let probabilities = model.probabilities();
-    let (tans, rate) = tables::build(&slots, &probabilities, codec.scale_bits)
-        .map_err(|e| e.in_codec(&codec.name))?;
-    let fingerprint = verify::fingerprint(kind_tag(codec), &alphabet_bytes(codec), &tans);
+    let (tables, rate) = match codec.method {
+        spec::Method::Tans => {
+            let (tans, rate) = tables::build(&slots, &probabilities, codec.scale_bits)
+                .map_err(|e| e.in_codec(&codec.name))?;
+            (tables::Tables::Tans(tans), rate)
+        }
+        spec::Method::Rans => {
+            let rans =
+                tables::Rans::new(&slots, codec.scale_bits).map_err(|e| e.in_codec(&codec.name))?;
+            // A 32-bit state over at most 2^15 slots codes within a few parts in 10^5 of the
+            // slots' own cost (measured in tests/outside_checks.rs), so that cost is the rate.
+            let rate = quantize::cross_entropy(&model.counts, &slots, codec.scale_bits);
+            (tables::Tables::Rans(rans), rate)
+        }
+    };
+    let fingerprint = verify::fingerprint(
+        kind_tag(codec),
+        &alphabet_bytes(codec),
+        &tables,
+        codec.lanes,
+    );
     // Bare streams carry no fingerprint; the measured sizes below still match the framing.
-    let verified = verify::verify(&tans, fingerprint, codec.framing, &model)
+    let verified = verify::verify(&tables, fingerprint, codec.framing, codec.lanes, &model)
         .map_err(|e| e.in_codec(&codec.name))?;
-    let table_bytes = emit::table_bytes(codec, &tans);
-    let report = report::build(codec, &model.counts, &tans, rate, verified, table_bytes);
+    let table_bytes = emit::table_bytes(codec, &tables);
+    let report = report::build(codec, &model.counts, &tables, rate, verified, table_bytes);
     Ok(Built {
         model,
-        tans,
+        tables,
         fingerprint,
         report,
     })
@@ -159,7 +177,7 @@ fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
         .zip(&built)
         .map(|(codec, b)| emit::CodecParts {
             spec: codec,
-            tans: &b.tans,
+            tables: &b.tables,
             fingerprint: b.fingerprint,
             report: &b.report,
         })

@@ -2,8 +2,8 @@
 //! build log: entropy, exact rate, excess, table bytes, and a line per symbol.
 
 use crate::quantize::{cross_entropy, entropy, log2};
-use crate::spec::{show, CodecSpec, Kind};
-use crate::tables::Tans;
+use crate::spec::{show, CodecSpec, Kind, Method};
+use crate::tables::Tables;
 use crate::verify::Verified;
 
 /// Excess above which the build script suggests a larger table.
@@ -26,6 +26,8 @@ pub struct Report {
     pub measured_rate: Option<f64>,
     pub table_bytes: usize,
     pub spread: &'static str,
+    pub method: &'static str,
+    pub lanes: u32,
     pub verified: Verified,
     /// Per symbol: name, count, slots.
     pub lines: Vec<(String, u64, u32)>,
@@ -46,9 +48,11 @@ impl Report {
     pub fn doc_lines(&self) -> Vec<String> {
         let mut d = vec![
             format!(
-                "Codec `{}`: {} symbols, tANS, table of 2^{} = {} slots.",
+                "Codec `{}`: {} symbols, {}, {} lane(s), table of 2^{} = {} slots.",
                 self.name,
                 self.symbols,
+                self.method,
+                self.lanes,
                 self.scale_bits,
                 1u32 << self.scale_bits
             ),
@@ -118,7 +122,7 @@ impl Report {
 pub fn build(
     codec: &CodecSpec,
     counts: &[u64],
-    tans: &Tans,
+    tables: &Tables,
     exact_rate: f64,
     verified: Verified,
     table_bytes: usize,
@@ -127,7 +131,7 @@ pub fn build(
         .symbols
         .iter()
         .zip(counts)
-        .zip(&tans.slots)
+        .zip(tables.slots())
         .map(|((s, &c), &q)| {
             let name = match (codec.kind, s) {
                 (Kind::Tokens, _) => show(s).trim_matches('"').to_string(),
@@ -139,15 +143,23 @@ pub fn build(
     Report {
         name: codec.name.clone(),
         symbols: codec.symbols.len(),
-        scale_bits: tans.scale_bits,
+        scale_bits: tables.scale_bits(),
         training_symbols: counts.iter().sum(),
         entropy: entropy(counts),
-        quantised: cross_entropy(counts, &tans.slots, tans.scale_bits),
+        quantised: cross_entropy(counts, tables.slots(), tables.scale_bits()),
         exact_rate,
         measured_rate: (verified.symbols > 0)
             .then(|| verified.payload_bits as f64 / verified.symbols as f64),
         table_bytes,
-        spread: tans.spread_rule.describe(),
+        spread: match tables {
+            Tables::Tans(t) => t.spread_rule.describe(),
+            Tables::Rans(_) => "none (rANS: symbols own contiguous slot ranges)",
+        },
+        method: match codec.method {
+            Method::Tans => "tANS",
+            Method::Rans => "rANS",
+        },
+        lanes: codec.lanes,
         verified,
         lines,
     }

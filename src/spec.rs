@@ -29,9 +29,23 @@ pub enum Kind {
 /// Which entropy coder the tables drive.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Method {
-    /// Table-driven ANS.
+    /// Table-driven ANS: one table lookup per symbol, bits read one symbol at a time.
     Tans,
+    /// Range ANS: a 32-bit state renormalised in 16-bit words, division-free encoding.
+    Rans,
 }
+
+/// How a rANS decoder finds the symbol of a slot.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Lookup {
+    /// One table entry per slot: fastest, `2^scale_bits` entries of flash.
+    Table,
+    /// A search over the cumulative slot counts: one entry per symbol, slower.
+    Search,
+}
+
+/// Interleaved states a codec may use (FORMAT.md).
+pub const LANES: [u32; 4] = [1, 2, 4, 8];
 
 /// How streams are delimited (FORMAT.md).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -73,6 +87,9 @@ pub struct CodecSpec {
     pub kind: Kind,
     pub method: Method,
     pub scale_bits: u32,
+    /// Interleaved states, one of [`LANES`].
+    pub lanes: u32,
+    pub lookup: Lookup,
     pub framing: Framing,
     pub symbols: Vec<SymbolName>,
     pub sources: Vec<Source>,
@@ -101,6 +118,8 @@ struct RawCodec {
     kind: Option<Spanned<String>>,
     method: Option<Spanned<String>>,
     scale_bits: Option<Spanned<i64>>,
+    lanes: Option<Spanned<i64>>,
+    symbol_lookup: Option<Spanned<String>>,
     framing: Option<Spanned<String>>,
     symbols: Option<Spanned<RawSymbols>>,
     counts: Option<Spanned<BTreeMap<String, Spanned<i64>>>>,
@@ -239,23 +258,53 @@ impl Ctx<'_> {
                 }
             },
         };
-        let method =
-            match raw.method.as_ref().or(defaults.method.as_ref()) {
-                None => Method::Tans,
-                Some(m) => match m.get_ref().as_str() {
-                    "tans" => Method::Tans,
-                    "rans" => return self.err(
+        let method = match raw.method.as_ref().or(defaults.method.as_ref()) {
+            None => Method::Tans,
+            Some(m) => match m.get_ref().as_str() {
+                "tans" => Method::Tans,
+                "rans" => Method::Rans,
+                other => {
+                    return self.err(
                         m.span(),
-                        "method \"rans\" is not available in this version of precast; use \"tans\"",
-                    ),
-                    other => {
+                        format!("unknown method \"{other}\": expected \"tans\" or \"rans\""),
+                    )
+                }
+            },
+        };
+        let lanes = match raw.lanes.as_ref().or(defaults.lanes.as_ref()) {
+            None => 1,
+            Some(l) => {
+                let v = *l.get_ref();
+                match LANES.iter().find(|&&n| i64::from(n) == v) {
+                    Some(&n) => n,
+                    None => {
                         return self.err(
-                            m.span(),
-                            format!("unknown method \"{other}\": expected \"tans\""),
+                            l.span(),
+                            format!("lanes = {v} is not available: expected 1, 2, 4 or 8"),
                         )
                     }
-                },
-            };
+                }
+            }
+        };
+        let lookup = match raw.symbol_lookup.as_ref().or(defaults.symbol_lookup.as_ref()) {
+            None => Lookup::Table,
+            Some(k) => match (k.get_ref().as_str(), method) {
+                ("table", _) => Lookup::Table,
+                ("search", Method::Rans) => Lookup::Search,
+                ("search", Method::Tans) => {
+                    return self.err(
+                        k.span(),
+                        "symbol_lookup = \"search\" applies to method = \"rans\"; a tANS decoder always reads its state table",
+                    )
+                }
+                (other, _) => {
+                    return self.err(
+                        k.span(),
+                        format!("unknown symbol_lookup \"{other}\": expected \"table\" or \"search\""),
+                    )
+                }
+            },
+        };
         let scale_bits = match raw.scale_bits.as_ref().or(defaults.scale_bits.as_ref()) {
             None => DEFAULT_SCALE_BITS,
             Some(b) => {
@@ -353,6 +402,8 @@ impl Ctx<'_> {
             kind,
             method,
             scale_bits,
+            lanes,
+            lookup,
             framing,
             symbols,
             sources,

@@ -91,6 +91,115 @@ impl Tans {
     }
 }
 
+/// rANS with a 32-bit state `x` in `[L, 2^16 L)`, `L = 2^16`, renormalised in 16-bit words
+/// (Duda, arXiv:1311.2540; streaming form as in Giesen, "rANS notes", 2014). Slots are the
+/// frequencies `f_s`, `M = 2^scale_bits` their sum, `c_s` the cumulative counts.
+#[derive(Debug, Clone)]
+pub struct Rans {
+    pub scale_bits: u32,
+    pub slots: Vec<u32>,
+    /// `c_s`: slots of the symbols before `s`, in alphabet order; `ALPHABET_LEN + 1` entries.
+    pub cum: Vec<u32>,
+}
+
+/// Lower end of the rANS state interval.
+pub const RANS_LOW: u32 = 1 << 16;
+
+/// Per-symbol rANS encoding constants: no division at run time.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct RansRule {
+    /// `m` of the reciprocal: `floor(x / f) = (x + (x * m >> 32)) >> shift` for every u32 `x`.
+    pub multiplier: u32,
+    pub shift: u32,
+    /// Largest state from which `s` is encoded without first writing a word:
+    /// `f_s << (32 - scale_bits)`, minus one.
+    pub limit: u32,
+    pub cum: u32,
+    /// `M - f_s`: the encode step is `x + c_s + floor(x / f_s) * (M - f_s)`.
+    pub complement: u32,
+}
+
+/// Round-up reciprocal of `f` for 32-bit dividends (Alverson, "Integer Division Using
+/// Reciprocals", IEEE ARITH 1991; Granlund & Montgomery, PLDI 1994, from memory):
+/// `r = ceil(2^(32+s) / f)` with `s = ceil(log2 f)`, stored as `m = r - 2^32`, so that
+/// `floor(x / f) = (x * r) >> (32 + s) = (x + (x * m >> 32)) >> s` in 64-bit arithmetic.
+/// Exact for all `x < 2^32` because `r * f - 2^(32+s) < f <= 2^s`.
+pub fn reciprocal(f: u32) -> (u32, u32) {
+    assert!(f >= 1 && f <= 1 << 16, "frequency out of range");
+    let s = 32 - (f - 1).leading_zeros();
+    let r = ((1u128 << (32 + s)) + u128::from(f) - 1) / u128::from(f);
+    ((r - (1u128 << 32)) as u32, s)
+}
+
+/// `floor(x / f)` by the reciprocal of [`reciprocal`], as the generated encoder computes it.
+pub fn divide(x: u32, multiplier: u32, shift: u32) -> u32 {
+    let x = u64::from(x);
+    ((x + ((x * u64::from(multiplier)) >> 32)) >> shift) as u32
+}
+
+impl Rans {
+    pub fn new(slots: &[u32], scale_bits: u32) -> Result<Rans> {
+        let mut cum = Vec::with_capacity(slots.len() + 1);
+        let mut total = 0u32;
+        cum.push(0);
+        for &f in slots {
+            if f == 0 {
+                return Err(Error::internal("a symbol has no slots"));
+            }
+            total += f;
+            cum.push(total);
+        }
+        if total != 1 << scale_bits {
+            return Err(Error::internal("slots do not fill the table"));
+        }
+        Ok(Rans {
+            scale_bits,
+            slots: slots.to_vec(),
+            cum,
+        })
+    }
+
+    pub fn rule(&self, s: usize) -> RansRule {
+        let f = self.slots[s];
+        let (multiplier, shift) = reciprocal(f);
+        RansRule {
+            multiplier,
+            shift,
+            limit: ((u64::from(f) << (32 - self.scale_bits)) - 1) as u32,
+            cum: self.cum[s],
+            complement: (1 << self.scale_bits) - f,
+        }
+    }
+
+    /// Symbol owning `slot`.
+    pub fn symbol_at(&self, slot: u32) -> usize {
+        self.cum.partition_point(|&c| c <= slot) - 1
+    }
+}
+
+/// The tables of either method.
+#[derive(Debug, Clone)]
+pub enum Tables {
+    Tans(Tans),
+    Rans(Rans),
+}
+
+impl Tables {
+    pub fn slots(&self) -> &[u32] {
+        match self {
+            Tables::Tans(t) => &t.slots,
+            Tables::Rans(r) => &r.slots,
+        }
+    }
+
+    pub fn scale_bits(&self) -> u32 {
+        match self {
+            Tables::Tans(t) => t.scale_bits,
+            Tables::Rans(r) => r.scale_bits,
+        }
+    }
+}
+
 /// Builds the tables for `slots` (summing to `2^scale_bits`) and the training probabilities,
 /// trying every spread rule and keeping the one with the lowest rate (ranked after a few
 /// rounds of the chain; the winner's rate is then solved exactly).

@@ -8,10 +8,10 @@
 use crate::error::{Error, Result};
 use crate::model::Model;
 use crate::spec::Framing;
-use crate::tables::Tans;
+use crate::tables::{Rans, Tables, Tans, RANS_LOW};
 
 /// Stream format version, in the high nibble of the first header byte.
-pub const FORMAT_VERSION: u8 = 1;
+pub const FORMAT_VERSION: u8 = 2;
 /// First header byte with the padding count (low three bits) cleared.
 pub const TAG: u8 = FORMAT_VERSION << 4;
 
@@ -43,13 +43,23 @@ pub fn fnv1a(parts: &[&[u8]]) -> u64 {
 }
 
 /// The 16-bit fingerprint of a codec's tables, as carried in its streams: FNV-1a over the
-/// format version, the kind, the alphabet, the scale and the spread, folded to 16 bits.
-pub fn fingerprint(kind_tag: u8, alphabet: &[u8], tans: &Tans) -> u16 {
-    let spread: Vec<u8> = tans.spread.iter().flat_map(|s| s.to_le_bytes()).collect();
+/// format version, the kind, the method, the lanes, the scale, the alphabet and the layout
+/// (the spread for tANS, the slots for rANS), folded to 16 bits.
+pub fn fingerprint(kind_tag: u8, alphabet: &[u8], tables: &Tables, lanes: u32) -> u16 {
+    let (method, layout): (u8, Vec<u8>) = match tables {
+        Tables::Tans(t) => (1, t.spread.iter().flat_map(|s| s.to_le_bytes()).collect()),
+        Tables::Rans(r) => (2, r.slots.iter().flat_map(|s| s.to_le_bytes()).collect()),
+    };
     let h = fnv1a(&[
-        &[FORMAT_VERSION, kind_tag, tans.scale_bits as u8],
+        &[
+            FORMAT_VERSION,
+            kind_tag,
+            tables.scale_bits() as u8,
+            method,
+            lanes as u8,
+        ],
         alphabet,
-        &spread,
+        &layout,
     ]);
     (h ^ (h >> 16) ^ (h >> 32) ^ (h >> 48)) as u16
 }
@@ -70,61 +80,94 @@ pub fn leb128(mut v: u64) -> Vec<u8> {
 
 /// The reference coder over one table set.
 pub struct Reference<'a> {
-    tans: &'a Tans,
+    tables: &'a Tables,
     fingerprint: u16,
     bare: bool,
-    /// For each symbol, the table positions of its copies, left to right.
+    lanes: usize,
+    /// tANS: for each symbol, the table positions of its copies, left to right.
     positions: Vec<Vec<u32>>,
-    /// For each table position, the number of its copy (`q_s ..= 2q_s - 1`).
+    /// tANS: for each table position, the number of its copy (`q_s ..= 2q_s - 1`).
     number: Vec<u32>,
 }
 
-impl<'a> Reference<'a> {
-    /// The coder for `framing`.
-    pub fn framed(tans: &'a Tans, fingerprint: u16, framing: Framing) -> Self {
-        let mut r = Reference::new(tans, fingerprint);
-        r.bare = framing == Framing::Bare;
-        r
-    }
+/// Bits, least significant first, packed into bytes least significant bit first.
+fn pack(bits: &[bool]) -> Vec<u8> {
+    bits.chunks(8)
+        .map(|byte| {
+            byte.iter()
+                .enumerate()
+                .fold(0u8, |acc, (i, &b)| acc | (u8::from(b) << i))
+        })
+        .collect()
+}
 
-    /// The coder for tagged streams.
-    pub fn new(tans: &'a Tans, fingerprint: u16) -> Self {
-        let mut positions = vec![Vec::new(); tans.slots.len()];
-        let mut number = Vec::with_capacity(tans.spread.len());
-        for (i, &s) in tans.spread.iter().enumerate() {
-            let list: &mut Vec<u32> = &mut positions[usize::from(s)];
-            number.push(tans.slots[usize::from(s)] + list.len() as u32);
-            list.push(i as u32);
+impl<'a> Reference<'a> {
+    /// The coder for `framing` with `lanes` interleaved states.
+    pub fn framed(tables: &'a Tables, fingerprint: u16, framing: Framing, lanes: u32) -> Self {
+        let mut positions = Vec::new();
+        let mut number = Vec::new();
+        if let Tables::Tans(tans) = tables {
+            positions = vec![Vec::new(); tans.slots.len()];
+            for (i, &s) in tans.spread.iter().enumerate() {
+                let list: &mut Vec<u32> = &mut positions[usize::from(s)];
+                number.push(tans.slots[usize::from(s)] + list.len() as u32);
+                list.push(i as u32);
+            }
         }
         Reference {
-            tans,
+            tables,
             fingerprint,
-            bare: false,
+            bare: framing == Framing::Bare,
+            lanes: lanes as usize,
             positions,
             number,
         }
     }
 
+    /// The coder for tagged single-lane streams.
+    pub fn new(tables: &'a Tables, fingerprint: u16) -> Self {
+        Reference::framed(tables, fingerprint, Framing::Tagged, 1)
+    }
+
     /// Encodes symbol indices into a whole stream (header and payload).
     pub fn encode(&self, symbols: &[u16]) -> Vec<u8> {
-        let r = self.tans.scale_bits;
+        let (payload, pad) = match self.tables {
+            Tables::Tans(t) => self.encode_tans(t, symbols),
+            Tables::Rans(r) => (self.encode_rans(r, symbols), 0),
+        };
+        if self.bare {
+            return payload;
+        }
+        let mut out = vec![TAG | pad];
+        out.extend_from_slice(&self.fingerprint.to_le_bytes());
+        out.extend(leb128(symbols.len() as u64));
+        out.extend(payload);
+        out
+    }
+
+    /// tANS payload and its padding count. Symbol `i` belongs to lane `i % lanes`.
+    fn encode_tans(&self, tans: &Tans, symbols: &[u16]) -> (Vec<u8>, u8) {
+        let r = tans.scale_bits;
         let l = 1u32 << r;
         // Chunks in the order the encoder produces them; the decoder reads them backwards.
-        let mut chunks: Vec<(u32, u32)> = Vec::with_capacity(symbols.len() + 1);
-        let mut x = l;
-        for &s in symbols.iter().rev() {
-            let q = self.tans.slots[usize::from(s)];
+        let mut chunks: Vec<(u32, u32)> = Vec::with_capacity(symbols.len() + self.lanes);
+        let mut x = vec![l; self.lanes];
+        for (i, &s) in symbols.iter().enumerate().rev() {
+            let x = &mut x[i % self.lanes];
+            let q = tans.slots[usize::from(s)];
             let mut k = 0;
-            while (x >> k) >= 2 * q {
+            while (*x >> k) >= 2 * q {
                 k += 1;
             }
-            chunks.push((x & ((1u32 << k) - 1), k));
-            x = l + self.positions[usize::from(s)][((x >> k) - q) as usize];
+            chunks.push((*x & ((1u32 << k) - 1), k));
+            *x = l + self.positions[usize::from(s)][((*x >> k) - q) as usize];
         }
-        chunks.push((x - l, r));
+        for &x in x.iter().rev() {
+            chunks.push((x - l, r));
+        }
         let mut bits: Vec<bool> = Vec::new();
         for &(value, k) in chunks.iter().rev() {
-            for b in (0..k).rev() {
+            for b in 0..k {
                 bits.push((value >> b) & 1 == 1);
             }
         }
@@ -132,17 +175,34 @@ impl<'a> Reference<'a> {
         if self.bare {
             // Payload only; the padding goes at the end, where the decoder stops anyway.
             bits.extend(std::iter::repeat_n(false, pad));
-            return bits
-                .chunks(8)
-                .map(|byte| byte.iter().fold(0u8, |acc, &b| (acc << 1) | u8::from(b)))
-                .collect();
+            return (pack(&bits), 0);
         }
-        let mut out = vec![TAG | pad as u8];
-        out.extend_from_slice(&self.fingerprint.to_le_bytes());
-        out.extend(leb128(symbols.len() as u64));
         let padded: Vec<bool> = std::iter::repeat_n(false, pad).chain(bits).collect();
-        for byte in padded.chunks(8) {
-            out.push(byte.iter().fold(0u8, |acc, &b| (acc << 1) | u8::from(b)));
+        (pack(&padded), pad as u8)
+    }
+
+    /// rANS payload: the lanes' final states, then the renormalisation words in read order.
+    fn encode_rans(&self, rans: &Rans, symbols: &[u16]) -> Vec<u8> {
+        let n = rans.scale_bits;
+        let mut x = vec![u64::from(RANS_LOW); self.lanes];
+        let mut words: Vec<u16> = Vec::new();
+        for (i, &s) in symbols.iter().enumerate().rev() {
+            let x = &mut x[i % self.lanes];
+            let f = u64::from(rans.slots[usize::from(s)]);
+            let c = u64::from(rans.cum[usize::from(s)]);
+            if *x >= f << (32 - n) {
+                words.push(*x as u16);
+                *x >>= 16;
+            }
+            // C(s, x) = M floor(x / f) + c + x mod f (Duda, arXiv:1311.2540).
+            *x = ((*x / f) << n) + c + *x % f;
+        }
+        let mut out = Vec::new();
+        for &x in &x {
+            out.extend_from_slice(&(x as u32).to_le_bytes());
+        }
+        for &w in words.iter().rev() {
+            out.extend_from_slice(&w.to_le_bytes());
         }
         out
     }
@@ -193,7 +253,6 @@ impl<'a> Reference<'a> {
         self.payload(stream, pos, pad, count)
     }
 
-    /// Decodes `count` symbols from the payload at `stream[pos..]`, after `pad` zero bits.
     fn payload(
         &self,
         stream: &[u8],
@@ -201,12 +260,32 @@ impl<'a> Reference<'a> {
         pad: usize,
         count: usize,
     ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
-        let r = self.tans.scale_bits;
+        match self.tables {
+            Tables::Tans(t) => self.payload_tans(t, stream, pos, pad, count),
+            Tables::Rans(r) => {
+                if pad != 0 {
+                    return Err(StreamError::Corrupt);
+                }
+                self.payload_rans(r, stream, pos, count)
+            }
+        }
+    }
+
+    /// Decodes `count` symbols from the tANS payload at `stream[pos..]`, after `pad` zero bits.
+    fn payload_tans(
+        &self,
+        tans: &Tans,
+        stream: &[u8],
+        pos: usize,
+        pad: usize,
+        count: usize,
+    ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
+        let r = tans.scale_bits;
         let payload = &stream[pos..];
         let bit = |i: usize| -> bool {
             payload
                 .get(i / 8)
-                .is_some_and(|&byte| (byte >> (7 - i % 8)) & 1 == 1)
+                .is_some_and(|&byte| (byte >> (i % 8)) & 1 == 1)
         };
         for i in 0..pad {
             if bit(i) {
@@ -216,25 +295,26 @@ impl<'a> Reference<'a> {
         let mut at = pad;
         let mut read = |k: u32| -> u32 {
             let mut v = 0;
-            for _ in 0..k {
-                v = (v << 1) | u32::from(bit(at));
+            for b in 0..k {
+                v |= u32::from(bit(at)) << b;
                 at += 1;
             }
             v
         };
-        let mut state = read(r) as usize;
+        let mut state: Vec<usize> = (0..self.lanes).map(|_| read(r) as usize).collect();
         let mut out = Vec::with_capacity(count.min(1 << 20));
-        for _ in 0..count {
-            let s = self.tans.spread[state];
-            let o = self.number[state];
+        for i in 0..count {
+            let state = &mut state[i % self.lanes];
+            let s = tans.spread[*state];
+            let o = self.number[*state];
             let k = r - (31 - o.leading_zeros());
             out.push(s);
-            state = (((o << k) | read(k)) - (1u32 << r)) as usize;
+            *state = (((o << k) | read(k)) - (1u32 << r)) as usize;
         }
         if at > payload.len() * 8 {
             return Err(StreamError::Truncated);
         }
-        if state != 0 {
+        if state.iter().any(|&s| s != 0) {
             return Err(StreamError::Corrupt);
         }
         // Bare streams end in zero padding up to the byte boundary; tagged ones exactly on it.
@@ -242,6 +322,53 @@ impl<'a> Reference<'a> {
             return Err(StreamError::Corrupt);
         }
         Ok((out, pos + at.div_ceil(8)))
+    }
+
+    /// Decodes `count` symbols from the rANS payload at `stream[pos..]`.
+    fn payload_rans(
+        &self,
+        rans: &Rans,
+        stream: &[u8],
+        pos: usize,
+        count: usize,
+    ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
+        let n = rans.scale_bits;
+        let payload = &stream[pos..];
+        let first = 4 * self.lanes;
+        if payload.len() < first {
+            return Err(StreamError::Truncated);
+        }
+        let mut x: Vec<u64> = payload[..first]
+            .chunks(4)
+            .map(|w| u64::from(u32::from_le_bytes([w[0], w[1], w[2], w[3]])))
+            .collect();
+        if x.iter().any(|&x| x < u64::from(RANS_LOW)) {
+            return Err(StreamError::Corrupt);
+        }
+        let mut at = first;
+        let mut out = Vec::with_capacity(count.min(1 << 20));
+        for i in 0..count {
+            let x = &mut x[i % self.lanes];
+            let slot = (*x % (1 << n)) as u32;
+            let s = rans.symbol_at(slot);
+            let f = u64::from(rans.slots[s]);
+            // D(x) = (s, f floor(x / M) + x mod M - c) (Duda, arXiv:1311.2540).
+            *x = f * (*x >> n) + u64::from(slot - rans.cum[s]);
+            if *x < u64::from(RANS_LOW) {
+                let lo = payload.get(at).copied().unwrap_or(0);
+                let hi = payload.get(at + 1).copied().unwrap_or(0);
+                *x = (*x << 16) | u64::from(u16::from_le_bytes([lo, hi]));
+                at += 2;
+            }
+            out.push(s as u16);
+        }
+        if at > payload.len() {
+            return Err(StreamError::Truncated);
+        }
+        if x.iter().any(|&x| x != u64::from(RANS_LOW)) {
+            return Err(StreamError::Corrupt);
+        }
+        Ok((out, pos + at))
     }
 }
 
@@ -259,8 +386,14 @@ pub struct Verified {
 }
 
 /// Round-trips every training sequence through the reference coder.
-pub fn verify(tans: &Tans, fingerprint: u16, framing: Framing, model: &Model) -> Result<Verified> {
-    let coder = Reference::framed(tans, fingerprint, framing);
+pub fn verify(
+    tables: &Tables,
+    fingerprint: u16,
+    framing: Framing,
+    lanes: u32,
+    model: &Model,
+) -> Result<Verified> {
+    let coder = Reference::framed(tables, fingerprint, framing, lanes);
     let mut v = Verified::default();
     for seq in &model.sequences {
         let stream = coder.encode(&seq.symbols);
