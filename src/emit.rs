@@ -517,13 +517,20 @@ fn tans_body(
     let max_bits = Literal::u32_unsuffixed(max_bits_value);
     let lanes = shape.lanes;
     // One 64-bit load holds at least 57 unread bits; flushing keeps fewer than 64 pending.
-    let per_load = (57 / max_bits_value as usize).clamp(1, lanes);
-    let per_flush = (56 / max_bits_value as usize).clamp(1, lanes);
-    let last_load = (lanes - 1) / per_load * per_load;
-    let decode_window = 8 + (7 + last_load * max_bits_value as usize) / 8;
-    let encode_window = 8 + (7 + lanes * max_bits_value as usize) / 8;
+    // A round is a whole number of symbols per lane: as many as one load (one store) covers,
+    // or one per lane when that is more.
+    let max = max_bits_value as usize;
+    let per_load = (57 / max).max(1);
+    let per_flush = (56 / max).max(1);
+    let decode_round = (per_load / lanes).max(1) * lanes;
+    let encode_round = (per_flush / lanes).max(1) * lanes;
+    let last_load = (decode_round - 1) / per_load * per_load;
+    let decode_window = 8 + (7 + last_load * max) / 8;
+    let encode_window = 8 + (7 + encode_round * max) / 8;
     let per_load = Literal::usize_unsuffixed(per_load);
     let per_flush = Literal::usize_unsuffixed(per_flush);
+    let decode_round = Literal::usize_unsuffixed(decode_round);
+    let encode_round = Literal::usize_unsuffixed(encode_round);
     let decode_window = Literal::usize_unsuffixed(decode_window);
     let encode_window = Literal::usize_unsuffixed(encode_window);
     let Common {
@@ -544,6 +551,8 @@ fn tans_body(
         push_number(row, u64::from(e.bits));
         row.push_str(", ");
         push_number(row, u64::from(e.base));
+        row.push_str(", ");
+        push_number(row, (1u64 << e.bits) - 1);
         row.push_str("), ");
     });
     let next_rows = rows_of(&tans.next_state, 16, |row, &v| {
@@ -607,9 +616,13 @@ fn tans_body(
         const PER_LOAD: usize = #per_load;
         /// Symbols encoded between two stores (fewer than 64 bits stay pending).
         const PER_FLUSH: usize = #per_flush;
-        /// Stream bytes one decoder round of `LANES` symbols may touch.
+        /// Symbols in one decoder round (a multiple of `LANES`).
+        const DECODE_ROUND: usize = #decode_round;
+        /// Symbols in one encoder round (a multiple of `LANES`).
+        const ENCODE_ROUND: usize = #encode_round;
+        /// Stream bytes one decoder round may touch.
         const DECODE_WINDOW: usize = #decode_window;
-        /// Output bytes one encoder round of `LANES` symbols may touch.
+        /// Output bytes one encoder round may touch.
         const ENCODE_WINDOW: usize = #encode_window;
 
         /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
@@ -625,9 +638,10 @@ fn tans_body(
         #[inline(always)]
         fn put(x: u32, rule: &Rule, acc: &mut u64, pending: u32) -> (u32, u32) {
             let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-            let value = u64::from(x & !(u32::MAX << bits));
-            // The shift is 64 only when `value` is empty, and then the wrapped shift adds 0.
-            *acc |= value.wrapping_shl(64u32.wrapping_sub(pending + bits));
+            // Shifting `x` up by `64 - bits` (in two steps, so that 0 bits shift it out
+            // entirely) drops its high bits without a mask.
+            let top = (u64::from(x) << (63 - bits)) << 1;
+            *acc |= top >> pending;
             let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
             (u32::from(next), bits)
         }
@@ -664,7 +678,7 @@ fn tans_body(
             let mut pending: u32 = 0;
             #absent_decl
             // Symbols go in backwards, so the last, partial round comes first.
-            let (rounds, rest) = input.as_chunks::<LANES>();
+            let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
             for (lane, &symbol) in rest.iter().enumerate().rev() {
                 let rule = &RULES[#rule_index];
                 #absent_check
@@ -678,14 +692,14 @@ fn tans_body(
                 if let Some(window) = window {
                     // Fast path: every store lands in `window`, no other check needed.
                     let top = pos;
-                    for lane in (0..LANES).rev() {
-                        let symbol = round[lane];
+                    for i in (0..ENCODE_ROUND).rev() {
+                        let symbol = round[i];
                         let rule = &RULES[#rule_index];
                         #absent_check
-                        let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                        state[lane] = next;
+                        let (next, bits) = put(state[i % LANES], rule, &mut acc, pending);
+                        state[i % LANES] = next;
                         pending += bits;
-                        if lane % PER_FLUSH == 0 {
+                        if i % PER_FLUSH == 0 {
                             let at = (ENCODE_WINDOW - 8).saturating_sub(top.wrapping_sub(pos));
                             window[at..at + 8].copy_from_slice(&acc.to_le_bytes());
                             let whole = pending >> 3;
@@ -695,12 +709,12 @@ fn tans_body(
                         }
                     }
                 } else {
-                    for lane in (0..LANES).rev() {
-                        let symbol = round[lane];
+                    for i in (0..ENCODE_ROUND).rev() {
+                        let symbol = round[i];
                         let rule = &RULES[#rule_index];
                         #absent_check
-                        let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                        state[lane] = next;
+                        let (next, bits) = put(state[i % LANES], rule, &mut acc, pending);
+                        state[i % LANES] = next;
                         pending += bits;
                         store(out, &mut pos, &mut acc, &mut pending)?;
                     }
@@ -739,7 +753,7 @@ fn tans_body(
                 *x = bits_at(payload, at) as usize & MASK;
                 at += SCALE_BITS as usize;
             }
-            let (rounds, _) = out.as_chunks_mut::<LANES>();
+            let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
             let mut done = 0;
             for round in rounds.iter_mut() {
                 let Some(window) = payload.get(at >> 3..).and_then(<[u8]>::first_chunk::<DECODE_WINDOW>) else {
@@ -748,18 +762,19 @@ fn tans_body(
                 // Fast path: every read lands in `window`, no other check needed.
                 let first = at >> 3;
                 let mut buf = 0u64;
-                for lane in 0..LANES {
-                    if lane % PER_LOAD == 0 {
+                for i in 0..DECODE_ROUND {
+                    if i % PER_LOAD == 0 {
                         buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                     }
-                    let step = &DECODE[state[lane] & MASK];
-                    round[lane] = step.0;
+                    let x = &mut state[i % LANES];
+                    let step = &DECODE[*x & MASK];
+                    round[i] = step.0;
                     let bits = u32::from(step.1);
-                    state[lane] = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                    *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                     buf >>= bits;
                     at += bits as usize;
                 }
-                done += LANES;
+                done += DECODE_ROUND;
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
@@ -797,9 +812,10 @@ fn tans_body(
             word(data, at >> 3) >> (at & 7)
         }
 
-        /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-        /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-        struct Step(Symbol, u8, u16);
+        /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
+        /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored to
+        /// keep the shift off the critical path), and goes to position `base + b`.
+        struct Step(Symbol, u8, u16, u32);
 
         /// Encoding rule per symbol: from state `x` the encoder writes
         /// `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
