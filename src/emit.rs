@@ -41,7 +41,7 @@ pub fn table_bytes(spec: &CodecSpec, tables: &Tables) -> usize {
         }
         Tables::Rans(rans) => {
             let lookup = match spec.lookup {
-                Lookup::Table => (1usize << rans.scale_bits) * 6,
+                Lookup::Table => (1usize << rans.scale_bits) * 8,
                 Lookup::Search => (spec.symbols.len() + 1) * 2,
             };
             lookup + rows * 16
@@ -915,16 +915,17 @@ fn rans_body(
                     row.push_str("Step(");
                     row.push_str(&labels[s]);
                     row.push_str(", ");
-                    push_number(row, u64::from(rans.slots[s]));
-                    row.push_str(", ");
                     push_number(row, u64::from(slot - rans.cum[s]));
+                    row.push_str(", ");
+                    push_number(row, u64::from(rans.slots[s]));
                     row.push_str("), ");
                 }),
             });
             quote! {
-                /// What slot `i` decodes to, `Step(symbol, f, i - c)`: the symbol owning the
-                /// slot, its slot count `f` and the slot's place in the symbol's range.
-                struct Step(Symbol, u16, u16);
+                /// What slot `i` decodes to, `Step(symbol, i - c, f)`: the symbol owning the
+                /// slot, the slot's place in the symbol's range and the symbol's slot count
+                /// (a `u32`, so that an entry is 8 bytes and its index scales by a shift).
+                struct Step(Symbol, u16, u32);
 
                 /// Decode steps by slot.
                 static DECODE: [Step; TABLE_LEN] = #decode_ph;
@@ -933,7 +934,7 @@ fn rans_body(
                 #[inline(always)]
                 fn lookup(slot: usize) -> (Symbol, u32, u32) {
                     let step = &DECODE[slot & MASK];
-                    (step.0, u32::from(step.1), u32::from(step.2))
+                    (step.0, step.2, u32::from(step.1))
                 }
             }
         }
@@ -1064,11 +1065,12 @@ fn rans_body(
                         let rule = &RULES[#rule_index];
                         #absent_check
                         let x = state[lane];
-                        let shed = x > rule.limit;
+                        let shed = u32::from(x > rule.limit);
                         let at = (2 * LANES - 2).saturating_sub(top.wrapping_sub(pos));
                         window[at..at + 2].copy_from_slice(&(x as u16).to_le_bytes());
-                        pos -= 2 * usize::from(shed);
-                        state[lane] = put(if shed { x >> 16 } else { x }, rule);
+                        pos -= (shed as usize) << 1;
+                        // Branch-free: the word goes when the state is over the limit.
+                        state[lane] = put(x >> (shed << 4), rule);
                     }
                 } else {
                     for lane in (0..LANES).rev() {
@@ -1138,9 +1140,10 @@ fn rans_body(
                     let i = at.wrapping_sub(first);
                     let i = if i < 2 * LANES - 2 { i } else { 2 * LANES - 2 };
                     let w = u32::from(u16::from_le_bytes([window[i], window[i + 1]]));
-                    let refill = x < LOW;
-                    state[lane] = if refill { (x << 16) | w } else { x };
-                    at += 2 * usize::from(refill);
+                    // Branch-free refill: shift in the word when the state fell below LOW.
+                    let need = u32::from(x < LOW);
+                    state[lane] = (x << (need << 4)) | (w & need.wrapping_neg());
+                    at += (need as usize) << 1;
                 }
                 done += LANES;
             }

@@ -137,6 +137,26 @@ pub fn divide(x: u32, multiplier: u32, shift: u32) -> u32 {
     ((x + ((x * u64::from(multiplier)) >> 32)) >> shift) as u32
 }
 
+/// The rANS coding function `C(s, x) = M floor(x / f) + c + (x mod f)` with `M = 2^scale_bits`
+/// (Duda, arXiv:1311.2540), in plain arithmetic.
+pub fn rans_code(x: u64, f: u64, c: u64, scale_bits: u32) -> u64 {
+    ((x / f) << scale_bits) + c + x % f
+}
+
+/// Its inverse `D(x) = (s, f floor(x / M) + (x mod M) - c)`, where `s` owns slot `x mod M`.
+pub fn rans_uncode(x: u64, slots: &[u32], cum: &[u32], scale_bits: u32) -> (usize, u64) {
+    let slot = (x & ((1 << scale_bits) - 1)) as u32;
+    let s = cum.partition_point(|&c| c <= slot) - 1;
+    let next = u64::from(slots[s]) * (x >> scale_bits) + u64::from(slot - cum[s]);
+    (s, next)
+}
+
+/// The streaming renormalisation bound `(L / M) b f` (Duda, arXiv:1311.2540): the encoder
+/// sheds a word while `x >=` this. Here `L = 2^low_bits`, `b = 2^word_bits`.
+pub fn rans_bound(low_bits: u32, word_bits: u32, scale_bits: u32, f: u64) -> u64 {
+    (1u64 << (low_bits - scale_bits + word_bits)) * f
+}
+
 impl Rans {
     pub fn new(slots: &[u32], scale_bits: u32) -> Result<Rans> {
         let mut cum = Vec::with_capacity(slots.len() + 1);

@@ -8,7 +8,7 @@
 use crate::error::{Error, Result};
 use crate::model::Model;
 use crate::spec::Framing;
-use crate::tables::{Rans, Tables, Tans, RANS_LOW};
+use crate::tables::{rans_bound, rans_code, rans_uncode, Rans, Tables, Tans, RANS_LOW};
 
 /// Stream format version, in the high nibble of the first header byte.
 pub const FORMAT_VERSION: u8 = 2;
@@ -190,12 +190,11 @@ impl<'a> Reference<'a> {
             let x = &mut x[i % self.lanes];
             let f = u64::from(rans.slots[usize::from(s)]);
             let c = u64::from(rans.cum[usize::from(s)]);
-            if *x >= f << (32 - n) {
+            if *x >= rans_bound(16, 16, n, f) {
                 words.push(*x as u16);
                 *x >>= 16;
             }
-            // C(s, x) = M floor(x / f) + c + x mod f (Duda, arXiv:1311.2540).
-            *x = ((*x / f) << n) + c + *x % f;
+            *x = rans_code(*x, f, c, n);
         }
         let mut out = Vec::new();
         for &x in &x {
@@ -349,11 +348,8 @@ impl<'a> Reference<'a> {
         let mut out = Vec::with_capacity(count.min(1 << 20));
         for i in 0..count {
             let x = &mut x[i % self.lanes];
-            let slot = (*x % (1 << n)) as u32;
-            let s = rans.symbol_at(slot);
-            let f = u64::from(rans.slots[s]);
-            // D(x) = (s, f floor(x / M) + x mod M - c) (Duda, arXiv:1311.2540).
-            *x = f * (*x >> n) + u64::from(slot - rans.cum[s]);
+            let (s, next) = rans_uncode(*x, &rans.slots, &rans.cum, n);
+            *x = next;
             if *x < u64::from(RANS_LOW) {
                 let lo = payload.get(at).copied().unwrap_or(0);
                 let hi = payload.get(at + 1).copied().unwrap_or(0);

@@ -158,3 +158,94 @@ fn redundancy_shrinks_as_the_table_grows() {
         "excess {small} at 2^6, {large} at 2^12"
     );
 }
+
+#[test]
+fn rans_worked_example() {
+    use precast::tables::{rans_code, rans_uncode};
+    // Duda, arXiv:1311.2540, notation of Giesen, "rANS notes", 2014 (CHECKS.md, recomputed):
+    // M = 4, f = (1, 3), c = (0, 1); from state 1, symbols 0,1,1,1,1 give 1→4→6→9→13→18.
+    let (slots, cum) = ([1u32, 3], [0u32, 1, 4]);
+    let (f, c) = ([1u64, 3], [0u64, 1]);
+    let mut x = 1u64;
+    let mut states = vec![x];
+    for s in [0usize, 1, 1, 1, 1] {
+        x = rans_code(x, f[s], c[s], 2);
+        states.push(x);
+    }
+    assert_eq!(states, [1, 4, 6, 9, 13, 18]);
+    // Decoding 18 gives 1,1,1,1,0 back and ends at 1.
+    let mut back = Vec::new();
+    for _ in 0..5 {
+        let (s, next) = rans_uncode(x, &slots, &cum, 2);
+        back.push(s);
+        x = next;
+    }
+    assert_eq!((back, x), (vec![1, 1, 1, 1, 0], 1));
+    // C(0, x) = 4x; C(1, x) for x = 1..8 is 2,3,5,6,7,9,10,11.
+    for x in 1..20 {
+        assert_eq!(rans_code(x, 1, 0, 2), 4 * x);
+    }
+    let c1: Vec<u64> = (1..=8).map(|x| rans_code(x, 3, 1, 2)).collect();
+    assert_eq!(c1, [2, 3, 5, 6, 7, 9, 10, 11]);
+}
+
+#[test]
+fn rans_streaming_bounds() {
+    use precast::tables::{rans_bound, Rans};
+    // The invariant x in [L, bL) with the shedding bound (L/M)·b·f (Duda, arXiv:1311.2540).
+    // CHECKS.md (recomputed), L = 2^23, b = 2^8, M = 2^12: f = 1, 3, 4096 → 524288,
+    // 1572864, 2^31.
+    assert_eq!(rans_bound(23, 8, 12, 1), 524_288);
+    assert_eq!(rans_bound(23, 8, 12, 3), 1_572_864);
+    assert_eq!(rans_bound(23, 8, 12, 4096), 1 << 31);
+    // Ours, L = 2^16 and b = 2^16: the generated `limit` is that bound minus one.
+    for scale_bits in 1..=15u32 {
+        let m = 1u32 << scale_bits;
+        let slots = [1, m - 1];
+        let rans = Rans::new(&slots, scale_bits).unwrap();
+        for (s, &f) in slots.iter().enumerate() {
+            let rule = rans.rule(s);
+            assert_eq!(
+                u64::from(rule.limit) + 1,
+                rans_bound(16, 16, scale_bits, u64::from(f))
+            );
+        }
+    }
+}
+
+#[test]
+fn reciprocals_divide_exactly_for_every_frequency() {
+    use precast::tables::{divide, reciprocal};
+    // Round-up reciprocals (Alverson, IEEE ARITH 1991; Granlund & Montgomery, PLDI 1994,
+    // from memory). With k = 32 + s and r·f = 2^k + e, the quotient computed at x = qf + j
+    // (0 <= j < f) is q + floor((j·2^k + x·e) / (f·2^k)): it is right iff j·2^k + x·e < f·2^k.
+    // The margin is smallest at j = f - 1 and shrinks as x grows, so exactness over all
+    // x < 2^32 is the one condition x_top·e < 2^k at the largest x_top ≡ f - 1 (mod f).
+    // Checked for every frequency a table can hold (1 ..= 2^15), with the computed quotient
+    // also compared at x_top and at the lowest and highest few thousand dividends.
+    for f in 1..=(1u32 << 15) {
+        let (m, s) = reciprocal(f);
+        let r = (1u128 << 32) + u128::from(m);
+        let e = r * u128::from(f) - (1u128 << (32 + s));
+        assert!(e < u128::from(f), "f {f}: r is not the round-up reciprocal");
+        let top = u64::from(u32::MAX);
+        let x_top = top - (top + 1) % u64::from(f);
+        assert_eq!(x_top % u64::from(f), u64::from(f) - 1);
+        assert!(u128::from(x_top) * e < 1u128 << (32 + s), "f {f}");
+        let check = |x: u32| assert_eq!(divide(x, m, s), x / f, "f {f}, x {x}");
+        for k in 0..(2 * f).min(4096) {
+            check(k);
+            check(u32::MAX - k);
+        }
+        check(x_top as u32);
+    }
+    // And a full sweep of the whole 32-bit range for some frequencies (release speed only).
+    if !cfg!(debug_assertions) {
+        for f in [3u32, 5, 7, 641, 12_345, 32_767] {
+            let (m, s) = reciprocal(f);
+            for x in 0..=u32::MAX {
+                assert_eq!(divide(x, m, s), x / f);
+            }
+        }
+    }
+}
