@@ -633,24 +633,34 @@ fn tans_body(
             (#header_max).saturating_add(bits / 8)
         }
 
-        /// One encoder step: puts the low `k` bits of `x` just below the `pending` bits at the
-        /// top of `acc` (the stream is built back to front) and returns the next state and `k`.
+        /// One encoder step: shifts the low `k` bits of `x` in under the pending bits (the
+        /// stream is built back to front, so they come first) and returns the next state and `k`.
         #[inline(always)]
-        fn put(x: u32, rule: &Rule, acc: &mut u64, pending: u32) -> (u32, u32) {
+        fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
             let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-            // Shifting `x` up by `64 - bits` (in two steps, so that 0 bits shift it out
-            // entirely) drops its high bits without a mask.
-            let top = (u64::from(x) << (63 - bits)) << 1;
-            *acc |= top >> pending;
+            *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
             let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
             (u32::from(next), bits)
         }
 
+        /// `2^k - 1` by `k`: a load instead of two shifts.
+        static LOW_BITS: [u32; 16] = [
+            0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
+        ];
+
+        /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
+        /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
+        /// bits already stored, which this shifts out.
+        #[inline(always)]
+        fn aligned(acc: u64, pending: u32) -> u64 {
+            acc.wrapping_shl(64u32.wrapping_sub(pending))
+        }
+
         /// Stores the whole bytes of the pending bits in front of `pos`.
         #[inline(always)]
-        fn store(out: &mut [u8], pos: &mut usize, acc: &mut u64, pending: &mut u32) -> Result<(), Error> {
+        fn store(out: &mut [u8], pos: &mut usize, acc: u64, pending: &mut u32) -> Result<(), Error> {
             let whole = (*pending >> 3) as usize;
-            let bytes = acc.to_le_bytes();
+            let bytes = aligned(acc, *pending).to_le_bytes();
             let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..)) else {
                 return Err(Error::OutputTooSmall);
             };
@@ -659,7 +669,6 @@ fn tans_body(
             };
             dst.copy_from_slice(top);
             *pos = start;
-            *acc = acc.wrapping_shl(whole as u32 * 8);
             *pending &= 7;
             Ok(())
         }
@@ -673,7 +682,7 @@ fn tans_body(
             let end = out.len();
             let mut pos = end;
             let mut state = [TABLE_LEN as u32; LANES];
-            // Bits not yet stored, at the top of `acc`; fewer than 8 between stores.
+            // Bits not yet stored, the low `pending` of `acc`; fewer than 8 between stores.
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
             #absent_decl
@@ -682,10 +691,10 @@ fn tans_body(
             for (lane, &symbol) in rest.iter().enumerate().rev() {
                 let rule = &RULES[#rule_index];
                 #absent_check
-                let (next, bits) = put(state[lane % LANES], rule, &mut acc, pending);
+                let (next, bits) = put(state[lane % LANES], rule, &mut acc);
                 state[lane % LANES] = next;
                 pending += bits;
-                store(out, &mut pos, &mut acc, &mut pending)?;
+                store(out, &mut pos, acc, &mut pending)?;
             }
             for round in rounds.iter().rev() {
                 let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
@@ -696,15 +705,13 @@ fn tans_body(
                         let symbol = round[i];
                         let rule = &RULES[#rule_index];
                         #absent_check
-                        let (next, bits) = put(state[i % LANES], rule, &mut acc, pending);
+                        let (next, bits) = put(state[i % LANES], rule, &mut acc);
                         state[i % LANES] = next;
                         pending += bits;
                         if i % PER_FLUSH == 0 {
                             let at = (ENCODE_WINDOW - 8).saturating_sub(top.wrapping_sub(pos));
-                            window[at..at + 8].copy_from_slice(&acc.to_le_bytes());
-                            let whole = pending >> 3;
-                            pos -= whole as usize;
-                            acc <<= whole * 8;
+                            window[at..at + 8].copy_from_slice(&aligned(acc, pending).to_le_bytes());
+                            pos -= (pending >> 3) as usize;
                             pending &= 7;
                         }
                     }
@@ -713,23 +720,24 @@ fn tans_body(
                         let symbol = round[i];
                         let rule = &RULES[#rule_index];
                         #absent_check
-                        let (next, bits) = put(state[i % LANES], rule, &mut acc, pending);
+                        let (next, bits) = put(state[i % LANES], rule, &mut acc);
                         state[i % LANES] = next;
                         pending += bits;
-                        store(out, &mut pos, &mut acc, &mut pending)?;
+                        store(out, &mut pos, acc, &mut pending)?;
                     }
                 }
             }
             #absent_after
             // The final states, lane 0 in front, then zero padding to a whole byte.
             for &x in state.iter().rev() {
-                acc |= (u64::from(x) - TABLE_LEN as u64) << (64 - pending - SCALE_BITS);
+                acc = (acc << SCALE_BITS) | (u64::from(x) - TABLE_LEN as u64);
                 pending += SCALE_BITS;
-                store(out, &mut pos, &mut acc, &mut pending)?;
+                store(out, &mut pos, acc, &mut pending)?;
             }
             let pad = (8 - pending % 8) % 8;
+            acc <<= pad;
             pending += pad;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
             if pos < header {
                 return Err(Error::OutputTooSmall);
             }

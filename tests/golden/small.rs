@@ -160,13 +160,17 @@ pub mod mit_text {
     /// Most bits any one symbol costs.
     pub const MAX_SYMBOL_BITS: u32 = 9;
     /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
-    const PER_LOAD: usize = 1;
+    const PER_LOAD: usize = 6;
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
-    const PER_FLUSH: usize = 1;
-    /// Stream bytes one decoder round of `LANES` symbols may touch.
+    const PER_FLUSH: usize = 6;
+    /// Symbols in one decoder round (a multiple of `LANES`).
+    const DECODE_ROUND: usize = 6;
+    /// Symbols in one encoder round (a multiple of `LANES`).
+    const ENCODE_ROUND: usize = 6;
+    /// Stream bytes one decoder round may touch.
     const DECODE_WINDOW: usize = 8;
-    /// Output bytes one encoder round of `LANES` symbols may touch.
-    const ENCODE_WINDOW: usize = 10;
+    /// Output bytes one encoder round may touch.
+    const ENCODE_WINDOW: usize = 15;
     /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
     pub const fn max_encoded_len(symbols: usize) -> usize {
         let bits = symbols
@@ -174,26 +178,36 @@ pub mod mit_text {
             .saturating_add(LANES * SCALE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step: puts the low `k` bits of `x` just below the `pending` bits at the
-    /// top of `acc` (the stream is built back to front) and returns the next state and `k`.
+    /// One encoder step: shifts the low `k` bits of `x` in under the pending bits (the
+    /// stream is built back to front, so they come first) and returns the next state and `k`.
     #[inline(always)]
-    fn put(x: u32, rule: &Rule, acc: &mut u64, pending: u32) -> (u32, u32) {
+    fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        let value = u64::from(x & !(u32::MAX << bits));
-        *acc |= value.wrapping_shl(64u32.wrapping_sub(pending + bits));
+        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
         let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
+    }
+    /// `2^k - 1` by `k`: a load instead of two shifts.
+    static LOW_BITS: [u32; 16] = [
+        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
+    ];
+    /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
+    /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
+    /// bits already stored, which this shifts out.
+    #[inline(always)]
+    fn aligned(acc: u64, pending: u32) -> u64 {
+        acc.wrapping_shl(64u32.wrapping_sub(pending))
     }
     /// Stores the whole bytes of the pending bits in front of `pos`.
     #[inline(always)]
     fn store(
         out: &mut [u8],
         pos: &mut usize,
-        acc: &mut u64,
+        acc: u64,
         pending: &mut u32,
     ) -> Result<(), Error> {
         let whole = (*pending >> 3) as usize;
-        let bytes = acc.to_le_bytes();
+        let bytes = aligned(acc, *pending).to_le_bytes();
         let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..))
         else {
             return Err(Error::OutputTooSmall);
@@ -203,7 +217,6 @@ pub mod mit_text {
         };
         dst.copy_from_slice(top);
         *pos = start;
-        *acc = acc.wrapping_shl(whole as u32 * 8);
         *pending &= 7;
         Ok(())
     }
@@ -219,14 +232,14 @@ pub mod mit_text {
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
         let mut absent: u8 = 0;
-        let (rounds, rest) = input.as_chunks::<LANES>();
+        let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
         for (lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[usize::from(symbol)];
             absent |= rule.absent;
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc, pending);
+            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
             state[lane % LANES] = next;
             pending += bits;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         for round in rounds.iter().rev() {
             let window = out
@@ -234,32 +247,31 @@ pub mod mit_text {
                 .and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
             if let Some(window) = window {
                 let top = pos;
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[usize::from(symbol)];
                     absent |= rule.absent;
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    if lane % PER_FLUSH == 0 {
+                    if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
                             .saturating_sub(top.wrapping_sub(pos));
-                        window[at..at + 8].copy_from_slice(&acc.to_le_bytes());
-                        let whole = pending >> 3;
-                        pos -= whole as usize;
-                        acc <<= whole * 8;
+                        window[at..at + 8]
+                            .copy_from_slice(&aligned(acc, pending).to_le_bytes());
+                        pos -= (pending >> 3) as usize;
                         pending &= 7;
                     }
                 }
             } else {
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[usize::from(symbol)];
                     absent |= rule.absent;
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    store(out, &mut pos, &mut acc, &mut pending)?;
+                    store(out, &mut pos, acc, &mut pending)?;
                 }
             }
         }
@@ -271,13 +283,14 @@ pub mod mit_text {
             return Err(Error::UnknownSymbol { position });
         }
         for &x in state.iter().rev() {
-            acc |= (u64::from(x) - TABLE_LEN as u64) << (64 - pending - SCALE_BITS);
+            acc = (acc << SCALE_BITS) | (u64::from(x) - TABLE_LEN as u64);
             pending += SCALE_BITS;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         let pad = (8 - pending % 8) % 8;
+        acc <<= pad;
         pending += pad;
-        store(out, &mut pos, &mut acc, &mut pending)?;
+        store(out, &mut pos, acc, &mut pending)?;
         if pos < header {
             return Err(Error::OutputTooSmall);
         }
@@ -314,7 +327,7 @@ pub mod mit_text {
             *x = bits_at(payload, at) as usize & MASK;
             at += SCALE_BITS as usize;
         }
-        let (rounds, _) = out.as_chunks_mut::<LANES>();
+        let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
         let mut done = 0;
         for round in rounds.iter_mut() {
             let Some(window) = payload
@@ -324,18 +337,19 @@ pub mod mit_text {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for lane in 0..LANES {
-                if lane % PER_LOAD == 0 {
+            for i in 0..DECODE_ROUND {
+                if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let step = &DECODE[state[lane] & MASK];
-                round[lane] = step.0;
+                let x = &mut state[i % LANES];
+                let step = &DECODE[*x & MASK];
+                round[i] = step.0;
                 let bits = u32::from(step.1);
-                state[lane] = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
                 at += bits as usize;
             }
-            done += LANES;
+            done += DECODE_ROUND;
         }
         for (i, slot) in out.iter_mut().enumerate().skip(done) {
             let x = &mut state[i % LANES];
@@ -385,9 +399,10 @@ pub mod mit_text {
     fn bits_at(data: &[u8], at: usize) -> u64 {
         word(data, at >> 3) >> (at & 7)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
+    /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
+    /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored to
+    /// keep the shift off the critical path), and goes to position `base + b`.
+    struct Step(Symbol, u8, u16, u32);
     /// Encoding rule per symbol: from state `x` the encoder writes
     /// `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
     /// `NEXT_STATE[((x >> k) + offset) % TABLE_LEN]`.
@@ -399,70 +414,70 @@ pub mod mit_text {
     }
     /// Decode steps by table position (the spread of symbols over the table).
     static DECODE: [Step; TABLE_LEN] = [
-        Step(b'p', 7, 128), Step(b'f', 7, 384), Step(b'\n', 6, 192), Step(b'S', 6, 256), Step(b'a', 6, 256), Step(b'r', 6, 256), Step(b's', 5, 0), Step(b'E', 5, 32), // 0
-        Step(b'I', 5, 32), Step(b'T', 5, 96), Step(b'i', 5, 160), Step(b't', 5, 224), Step(b'o', 5, 256), Step(b' ', 3, 48), Step(b' ', 3, 56), Step(b'e', 5, 224), // 8
-        Step(b'O', 5, 64), Step(b' ', 3, 64), Step(b'R', 5, 32), Step(b'N', 6, 448), Step(b'n', 6, 448), Step(b'A', 6, 384), Step(b'o', 5, 288), Step(b't', 5, 256), // 16
-        Step(b' ', 3, 72), Step(b',', 6, 192), Step(b'i', 5, 192), Step(b'h', 6, 128), Step(b'T', 5, 128), Step(b'H', 6, 64), Step(b' ', 3, 80), Step(b'E', 5, 64), // 24
-        Step(b'I', 5, 64), Step(b's', 5, 32), Step(b'c', 6, 0), Step(b'd', 6, 0), Step(b'l', 6, 0), Step(b'e', 5, 256), Step(b'L', 7, 384), Step(b' ', 3, 88), // 32
-        Step(b'S', 6, 320), Step(b'a', 6, 320), Step(b'r', 6, 320), Step(b'F', 7, 256), Step(b'u', 7, 256), Step(b'o', 5, 320), Step(b'O', 5, 96), Step(b't', 5, 288), // 40
-        Step(b' ', 3, 96), Step(b'\n', 6, 256), Step(b'R', 5, 64), Step(b'i', 5, 224), Step(b'C', 7, 128), Step(b'D', 7, 128), Step(b'w', 7, 128), Step(b' ', 3, 104), // 48
-        Step(b'N', 5, 0), Step(b'n', 5, 0), Step(b'T', 5, 160), Step(b'A', 6, 448), Step(b'e', 5, 288), Step(b' ', 3, 112), Step(b'E', 5, 96), Step(b'I', 5, 96), // 56
-        Step(b'P', 7, 0), Step(b'U', 7, 0), Step(b'g', 7, 0), Step(b'm', 7, 0), Step(b's', 5, 64), Step(b'o', 5, 352), Step(b't', 5, 320), Step(b' ', 3, 120), // 64
-        Step(b'f', 6, 0), Step(b',', 6, 256), Step(b'O', 5, 128), Step(b'i', 5, 256), Step(b' ', 3, 128), Step(b'R', 5, 96), Step(b'h', 6, 192), Step(b'e', 5, 320), // 72
-        Step(b'T', 5, 192), Step(b' ', 3, 136), Step(b'G', 8, 256), Step(b'Y', 8, 256), Step(b'y', 8, 256), Step(b'S', 6, 384), Step(b'a', 6, 384), Step(b'r', 6, 384), // 80
-        Step(b'o', 5, 384), Step(b'H', 6, 128), Step(b'N', 5, 32), Step(b'n', 5, 32), Step(b't', 5, 352), Step(b' ', 3, 144), Step(b'E', 5, 128), Step(b'I', 5, 128), // 88
-        Step(b'\n', 6, 320), Step(b'A', 5, 0), Step(b'p', 7, 256), Step(b's', 5, 96), Step(b' ', 3, 152), Step(b'i', 5, 288), Step(b'c', 6, 64), Step(b'd', 6, 64), // 96
-        Step(b'l', 6, 64), Step(b'O', 5, 160), Step(b'e', 5, 352), Step(b' ', 3, 160), Step(b'o', 5, 416), Step(b'T', 5, 224), Step(b'R', 5, 128), Step(b't', 5, 384), // 104
-        Step(b' ', 3, 168), Step(b'L', 6, 0), Step(b'W', 7, 128), Step(b'b', 7, 128), Step(b',', 6, 320), Step(b' ', 3, 176), Step(b'E', 5, 160), Step(b'I', 5, 160), // 112
-        Step(b'i', 5, 320), Step(b'N', 5, 64), Step(b'n', 5, 64), Step(b'"', 8, 0), Step(b'e', 5, 384), Step(b'S', 6, 448), Step(b'a', 6, 448), Step(b'r', 6, 448), // 120
-        Step(b' ', 3, 184), Step(b's', 5, 128), Step(b'o', 5, 448), Step(b'F', 7, 384), Step(b'u', 7, 384), Step(b'h', 6, 256), Step(b'A', 5, 32), Step(b'O', 5, 192), // 128
-        Step(b't', 5, 416), Step(b' ', 3, 192), Step(b'T', 5, 256), Step(b'\n', 6, 384), Step(b'R', 5, 160), Step(b'f', 6, 64), Step(b' ', 3, 200), Step(b'H', 6, 192), // 136
-        Step(b'i', 5, 352), Step(b'M', 7, 0), Step(b'e', 5, 416), Step(b' ', 3, 208), Step(b'E', 5, 192), Step(b'I', 5, 192), Step(b'o', 5, 480), Step(b'C', 7, 256), // 144
-        Step(b'D', 7, 256), Step(b'w', 7, 256), Step(b't', 5, 448), Step(b' ', 3, 216), Step(b'N', 5, 96), Step(b'n', 5, 96), Step(b's', 5, 160), Step(b'O', 5, 224), // 152
-        Step(b'T', 5, 288), Step(b'c', 6, 128), Step(b'd', 6, 128), Step(b'l', 6, 128), Step(b' ', 3, 224), Step(b',', 6, 384), Step(b'S', 5, 0), Step(b'a', 5, 0), // 160
-        Step(b'r', 5, 0), Step(b'A', 5, 64), Step(b'R', 5, 192), Step(b'i', 5, 384), Step(b'e', 5, 448), Step(b' ', 3, 232), Step(b'o', 4, 0), Step(b't', 5, 480), // 168
-        Step(b' ', 3, 240), Step(b'E', 5, 224), Step(b'I', 5, 224), Step(b'\n', 6, 448), Step(b'h', 6, 320), Step(b' ', 3, 248), Step(b'L', 6, 64), Step(b'T', 5, 320), // 176
-        Step(b'O', 5, 256), Step(b'p', 7, 384), Step(b's', 5, 192), Step(b'N', 5, 128), Step(b'n', 5, 128), Step(b'o', 4, 16), Step(b' ', 3, 256), Step(b'e', 5, 480), // 184
-        Step(b'P', 7, 128), Step(b'U', 7, 128), Step(b'g', 7, 128), Step(b'm', 7, 128), Step(b'i', 5, 416), Step(b'R', 5, 224), Step(b't', 4, 0), Step(b' ', 3, 264), // 192
-        Step(b'H', 6, 256), Step(b'B', 8, 256), Step(b'A', 5, 96), Step(b' ', 3, 272), Step(b'f', 6, 128), Step(b'S', 5, 32), Step(b'a', 5, 32), Step(b'r', 5, 32), // 200
-        Step(b'E', 5, 256), Step(b'I', 5, 256), Step(b'o', 4, 32), Step(b',', 6, 448), Step(b'T', 5, 352), Step(b' ', 3, 280), Step(b'e', 4, 0), Step(b'F', 6, 0), // 208
-        Step(b'u', 6, 0), Step(b'O', 5, 288), Step(b'i', 5, 448), Step(b's', 5, 224), Step(b't', 4, 16), Step(b' ', 3, 288), Step(b'N', 5, 160), Step(b'n', 5, 160), // 216
-        Step(b'\n', 5, 0), Step(b'c', 6, 192), Step(b'd', 6, 192), Step(b'l', 6, 192), Step(b' ', 3, 296), Step(b'R', 5, 256), Step(b'W', 7, 256), Step(b'b', 7, 256), // 224
-        Step(b'V', 9, 0), Step(b'z', 9, 0), Step(b'o', 4, 48), Step(b'h', 6, 384), Step(b' ', 3, 304), Step(b'e', 4, 16), Step(b'E', 5, 288), Step(b'I', 5, 288), // 232
-        Step(b'T', 5, 384), Step(b'A', 5, 128), Step(b'i', 5, 480), Step(b't', 4, 32), Step(b' ', 3, 312), Step(b'O', 5, 320), Step(b'S', 5, 64), Step(b'a', 5, 64), // 240
-        Step(b'r', 5, 64), Step(b' ', 3, 320), Step(b's', 5, 256), Step(b'o', 4, 64), Step(b'G', 7, 0), Step(b'Y', 7, 0), Step(b'y', 7, 0), Step(b' ', 3, 328), // 248
-        Step(b'C', 7, 384), Step(b'D', 7, 384), Step(b'w', 7, 384), Step(b'L', 6, 128), Step(b'H', 6, 320), Step(b',', 5, 0), Step(b'N', 5, 192), Step(b'n', 5, 192), // 256
-        Step(b'R', 5, 288), Step(b'e', 4, 32), Step(b't', 4, 48), Step(b' ', 3, 336), Step(b'i', 4, 0), Step(b'T', 5, 416), Step(b'E', 5, 320), Step(b'I', 5, 320), // 264
-        Step(b'\n', 5, 32), Step(b' ', 3, 344), Step(b'O', 5, 352), Step(b'o', 4, 80), Step(b'f', 6, 192), Step(b'A', 5, 160), Step(b' ', 3, 352), Step(b'e', 4, 48), // 272
-        Step(b'p', 6, 0), Step(b's', 5, 288), Step(b'h', 6, 448), Step(b't', 4, 64), Step(b' ', 3, 360), Step(b'i', 4, 16), Step(b'R', 5, 320), Step(b'S', 5, 96), // 280
-        Step(b'a', 5, 96), Step(b'r', 5, 96), Step(b'c', 6, 256), Step(b'd', 6, 256), Step(b'l', 6, 256), Step(b'T', 5, 448), Step(b'N', 5, 224), Step(b'n', 5, 224), // 288
-        Step(b'M', 7, 128), Step(b' ', 3, 368), Step(b'E', 5, 352), Step(b'I', 5, 352), Step(b'o', 4, 96), Step(b' ', 3, 376), Step(b'F', 6, 64), Step(b'u', 6, 64), // 296
-        Step(b'O', 5, 384), Step(b'e', 4, 64), Step(b',', 5, 32), Step(b't', 4, 80), Step(b' ', 3, 384), Step(b'i', 4, 32), Step(b's', 5, 320), Step(b'A', 5, 192), // 304
-        Step(b'\n', 5, 64), Step(b' ', 3, 392), Step(b'H', 6, 384), Step(b'o', 4, 112), Step(b'T', 5, 480), Step(b'R', 5, 352), Step(b'P', 7, 256), Step(b'U', 7, 256), // 312
-        Step(b'g', 7, 256), Step(b'm', 7, 256), Step(b' ', 3, 400), Step(b'E', 5, 384), Step(b'I', 5, 384), Step(b'e', 4, 80), Step(b'N', 5, 256), Step(b'n', 5, 256), // 320
-        Step(b't', 4, 96), Step(b' ', 3, 408), Step(b'O', 5, 416), Step(b'S', 5, 128), Step(b'a', 5, 128), Step(b'r', 5, 128), Step(b'L', 6, 192), Step(b'.', 8, 0), // 328
-        Step(b'h', 5, 0), Step(b'i', 4, 48), Step(b' ', 3, 416), Step(b'o', 4, 128), Step(b'W', 7, 384), Step(b'b', 7, 384), Step(b'f', 6, 256), Step(b's', 5, 352), // 336
-        Step(b'T', 4, 0), Step(b' ', 3, 424), Step(b'e', 4, 96), Step(b'R', 5, 384), Step(b'A', 5, 224), Step(b't', 4, 112), Step(b' ', 3, 432), Step(b',', 5, 64), // 344
-        Step(b'E', 5, 416), Step(b'I', 5, 416), Step(b'c', 6, 320), Step(b'd', 6, 320), Step(b'l', 6, 320), Step(b'o', 4, 144), Step(b'O', 5, 448), Step(b' ', 3, 440), // 352
-        Step(b'\n', 5, 96), Step(b'i', 4, 64), Step(b'C', 6, 0), Step(b'D', 6, 0), Step(b'w', 6, 0), Step(b'N', 5, 288), Step(b'n', 5, 288), Step(b' ', 3, 448), // 360
-        Step(b'e', 4, 112), Step(b'T', 4, 16), Step(b'S', 5, 160), Step(b'a', 5, 160), Step(b'r', 5, 160), Step(b'H', 6, 448), Step(b't', 4, 128), Step(b' ', 3, 456), // 368
-        Step(b'p', 6, 64), Step(b's', 5, 384), Step(b'o', 4, 160), Step(b'R', 5, 416), Step(b' ', 3, 464), Step(b'"', 8, 256), Step(b'E', 5, 448), Step(b'I', 5, 448), // 376
-        Step(b'i', 4, 80), Step(b'F', 6, 128), Step(b'u', 6, 128), Step(b'h', 5, 32), Step(b'A', 5, 256), Step(b'O', 5, 480), Step(b' ', 3, 472), Step(b'e', 4, 128), // 384
-        Step(b't', 4, 144), Step(b' ', 3, 480), Step(b'N', 5, 320), Step(b'n', 5, 320), Step(b'T', 4, 32), Step(b',', 5, 96), Step(b'o', 4, 176), Step(b' ', 3, 488), // 392
-        Step(b'\n', 5, 128), Step(b'L', 6, 256), Step(b's', 5, 416), Step(b'i', 4, 96), Step(b'B', 7, 0), Step(b'R', 5, 448), Step(b' ', 3, 496), Step(b'f', 6, 320), // 400
-        Step(b'S', 5, 192), Step(b'a', 5, 192), Step(b'r', 5, 192), Step(b'E', 5, 480), Step(b'I', 5, 480), Step(b'e', 4, 144), Step(b'O', 4, 0), Step(b't', 4, 160), // 408
-        Step(b' ', 3, 504), Step(b'c', 6, 384), Step(b'd', 6, 384), Step(b'l', 6, 384), Step(b'o', 4, 192), Step(b'T', 4, 48), Step(b'A', 5, 288), Step(b' ', 2, 0), // 416
-        Step(b'G', 7, 128), Step(b'Y', 7, 128), Step(b'y', 7, 128), Step(b'H', 5, 0), Step(b'N', 5, 352), Step(b'n', 5, 352), Step(b' ', 2, 4), Step(b'i', 4, 112), // 424
-        Step(b'e', 4, 160), Step(b's', 5, 448), Step(b'h', 5, 64), Step(b't', 4, 176), Step(b' ', 2, 8), Step(b'R', 5, 480), Step(b'M', 7, 256), Step(b'E', 4, 0), // 432
-        Step(b'I', 4, 0), Step(b'o', 4, 208), Step(b'O', 4, 16), Step(b',', 5, 128), Step(b' ', 2, 12), Step(b'\n', 5, 160), Step(b'T', 4, 64), Step(b'P', 7, 384), // 440
-        Step(b'U', 7, 384), Step(b'g', 7, 384), Step(b'm', 7, 384), Step(b' ', 2, 16), Step(b'S', 5, 224), Step(b'a', 5, 224), Step(b'r', 5, 224), Step(b'i', 4, 128), // 448
-        Step(b'W', 6, 0), Step(b'b', 6, 0), Step(b'e', 4, 176), Step(b'A', 5, 320), Step(b't', 4, 192), Step(b' ', 2, 20), Step(b'o', 4, 224), Step(b'C', 6, 64), // 456
-        Step(b'D', 6, 64), Step(b'w', 6, 64), Step(b'N', 5, 384), Step(b'n', 5, 384), Step(b' ', 2, 24), Step(b's', 5, 480), Step(b'R', 4, 0), Step(b'E', 4, 16), // 464
-        Step(b'I', 4, 16), Step(b'F', 6, 192), Step(b'u', 6, 192), Step(b'O', 4, 32), Step(b' ', 2, 28), Step(b'T', 4, 80), Step(b'L', 6, 320), Step(b'i', 4, 144), // 472
-        Step(b'e', 4, 192), Step(b't', 4, 208), Step(b' ', 2, 32), Step(b'c', 6, 448), Step(b'd', 6, 448), Step(b'l', 6, 448), Step(b'o', 4, 240), Step(b'H', 5, 32), // 480
-        Step(b'h', 5, 96), Step(b' ', 2, 36), Step(b',', 5, 160), Step(b'A', 5, 352), Step(b' ', 2, 40), Step(b'N', 5, 416), Step(b'n', 5, 416), Step(b'R', 4, 16), // 488
-        Step(b'O', 4, 48), Step(b'e', 4, 208), Step(b' ', 2, 44), Step(b'W', 6, 64), Step(b'b', 6, 64), Step(b'M', 7, 384), Step(b'B', 7, 128), Step(b'.', 8, 256), // 496
-        Step(b'(', 9, 0), Step(b')', 9, 0), Step(b'/', 9, 0), Step(b':', 9, 0), Step(b'K', 9, 0), Step(b'X', 9, 0), Step(b'j', 9, 0), Step(b'v', 9, 0), // 504
+        Step(b'p', 7, 128, 127), Step(b'f', 7, 384, 127), Step(b'\n', 6, 192, 63), Step(b'S', 6, 256, 63), Step(b'a', 6, 256, 63), Step(b'r', 6, 256, 63), Step(b's', 5, 0, 31), Step(b'E', 5, 32, 31), // 0
+        Step(b'I', 5, 32, 31), Step(b'T', 5, 96, 31), Step(b'i', 5, 160, 31), Step(b't', 5, 224, 31), Step(b'o', 5, 256, 31), Step(b' ', 3, 48, 7), Step(b' ', 3, 56, 7), Step(b'e', 5, 224, 31), // 8
+        Step(b'O', 5, 64, 31), Step(b' ', 3, 64, 7), Step(b'R', 5, 32, 31), Step(b'N', 6, 448, 63), Step(b'n', 6, 448, 63), Step(b'A', 6, 384, 63), Step(b'o', 5, 288, 31), Step(b't', 5, 256, 31), // 16
+        Step(b' ', 3, 72, 7), Step(b',', 6, 192, 63), Step(b'i', 5, 192, 31), Step(b'h', 6, 128, 63), Step(b'T', 5, 128, 31), Step(b'H', 6, 64, 63), Step(b' ', 3, 80, 7), Step(b'E', 5, 64, 31), // 24
+        Step(b'I', 5, 64, 31), Step(b's', 5, 32, 31), Step(b'c', 6, 0, 63), Step(b'd', 6, 0, 63), Step(b'l', 6, 0, 63), Step(b'e', 5, 256, 31), Step(b'L', 7, 384, 127), Step(b' ', 3, 88, 7), // 32
+        Step(b'S', 6, 320, 63), Step(b'a', 6, 320, 63), Step(b'r', 6, 320, 63), Step(b'F', 7, 256, 127), Step(b'u', 7, 256, 127), Step(b'o', 5, 320, 31), Step(b'O', 5, 96, 31), Step(b't', 5, 288, 31), // 40
+        Step(b' ', 3, 96, 7), Step(b'\n', 6, 256, 63), Step(b'R', 5, 64, 31), Step(b'i', 5, 224, 31), Step(b'C', 7, 128, 127), Step(b'D', 7, 128, 127), Step(b'w', 7, 128, 127), Step(b' ', 3, 104, 7), // 48
+        Step(b'N', 5, 0, 31), Step(b'n', 5, 0, 31), Step(b'T', 5, 160, 31), Step(b'A', 6, 448, 63), Step(b'e', 5, 288, 31), Step(b' ', 3, 112, 7), Step(b'E', 5, 96, 31), Step(b'I', 5, 96, 31), // 56
+        Step(b'P', 7, 0, 127), Step(b'U', 7, 0, 127), Step(b'g', 7, 0, 127), Step(b'm', 7, 0, 127), Step(b's', 5, 64, 31), Step(b'o', 5, 352, 31), Step(b't', 5, 320, 31), Step(b' ', 3, 120, 7), // 64
+        Step(b'f', 6, 0, 63), Step(b',', 6, 256, 63), Step(b'O', 5, 128, 31), Step(b'i', 5, 256, 31), Step(b' ', 3, 128, 7), Step(b'R', 5, 96, 31), Step(b'h', 6, 192, 63), Step(b'e', 5, 320, 31), // 72
+        Step(b'T', 5, 192, 31), Step(b' ', 3, 136, 7), Step(b'G', 8, 256, 255), Step(b'Y', 8, 256, 255), Step(b'y', 8, 256, 255), Step(b'S', 6, 384, 63), Step(b'a', 6, 384, 63), Step(b'r', 6, 384, 63), // 80
+        Step(b'o', 5, 384, 31), Step(b'H', 6, 128, 63), Step(b'N', 5, 32, 31), Step(b'n', 5, 32, 31), Step(b't', 5, 352, 31), Step(b' ', 3, 144, 7), Step(b'E', 5, 128, 31), Step(b'I', 5, 128, 31), // 88
+        Step(b'\n', 6, 320, 63), Step(b'A', 5, 0, 31), Step(b'p', 7, 256, 127), Step(b's', 5, 96, 31), Step(b' ', 3, 152, 7), Step(b'i', 5, 288, 31), Step(b'c', 6, 64, 63), Step(b'd', 6, 64, 63), // 96
+        Step(b'l', 6, 64, 63), Step(b'O', 5, 160, 31), Step(b'e', 5, 352, 31), Step(b' ', 3, 160, 7), Step(b'o', 5, 416, 31), Step(b'T', 5, 224, 31), Step(b'R', 5, 128, 31), Step(b't', 5, 384, 31), // 104
+        Step(b' ', 3, 168, 7), Step(b'L', 6, 0, 63), Step(b'W', 7, 128, 127), Step(b'b', 7, 128, 127), Step(b',', 6, 320, 63), Step(b' ', 3, 176, 7), Step(b'E', 5, 160, 31), Step(b'I', 5, 160, 31), // 112
+        Step(b'i', 5, 320, 31), Step(b'N', 5, 64, 31), Step(b'n', 5, 64, 31), Step(b'"', 8, 0, 255), Step(b'e', 5, 384, 31), Step(b'S', 6, 448, 63), Step(b'a', 6, 448, 63), Step(b'r', 6, 448, 63), // 120
+        Step(b' ', 3, 184, 7), Step(b's', 5, 128, 31), Step(b'o', 5, 448, 31), Step(b'F', 7, 384, 127), Step(b'u', 7, 384, 127), Step(b'h', 6, 256, 63), Step(b'A', 5, 32, 31), Step(b'O', 5, 192, 31), // 128
+        Step(b't', 5, 416, 31), Step(b' ', 3, 192, 7), Step(b'T', 5, 256, 31), Step(b'\n', 6, 384, 63), Step(b'R', 5, 160, 31), Step(b'f', 6, 64, 63), Step(b' ', 3, 200, 7), Step(b'H', 6, 192, 63), // 136
+        Step(b'i', 5, 352, 31), Step(b'M', 7, 0, 127), Step(b'e', 5, 416, 31), Step(b' ', 3, 208, 7), Step(b'E', 5, 192, 31), Step(b'I', 5, 192, 31), Step(b'o', 5, 480, 31), Step(b'C', 7, 256, 127), // 144
+        Step(b'D', 7, 256, 127), Step(b'w', 7, 256, 127), Step(b't', 5, 448, 31), Step(b' ', 3, 216, 7), Step(b'N', 5, 96, 31), Step(b'n', 5, 96, 31), Step(b's', 5, 160, 31), Step(b'O', 5, 224, 31), // 152
+        Step(b'T', 5, 288, 31), Step(b'c', 6, 128, 63), Step(b'd', 6, 128, 63), Step(b'l', 6, 128, 63), Step(b' ', 3, 224, 7), Step(b',', 6, 384, 63), Step(b'S', 5, 0, 31), Step(b'a', 5, 0, 31), // 160
+        Step(b'r', 5, 0, 31), Step(b'A', 5, 64, 31), Step(b'R', 5, 192, 31), Step(b'i', 5, 384, 31), Step(b'e', 5, 448, 31), Step(b' ', 3, 232, 7), Step(b'o', 4, 0, 15), Step(b't', 5, 480, 31), // 168
+        Step(b' ', 3, 240, 7), Step(b'E', 5, 224, 31), Step(b'I', 5, 224, 31), Step(b'\n', 6, 448, 63), Step(b'h', 6, 320, 63), Step(b' ', 3, 248, 7), Step(b'L', 6, 64, 63), Step(b'T', 5, 320, 31), // 176
+        Step(b'O', 5, 256, 31), Step(b'p', 7, 384, 127), Step(b's', 5, 192, 31), Step(b'N', 5, 128, 31), Step(b'n', 5, 128, 31), Step(b'o', 4, 16, 15), Step(b' ', 3, 256, 7), Step(b'e', 5, 480, 31), // 184
+        Step(b'P', 7, 128, 127), Step(b'U', 7, 128, 127), Step(b'g', 7, 128, 127), Step(b'm', 7, 128, 127), Step(b'i', 5, 416, 31), Step(b'R', 5, 224, 31), Step(b't', 4, 0, 15), Step(b' ', 3, 264, 7), // 192
+        Step(b'H', 6, 256, 63), Step(b'B', 8, 256, 255), Step(b'A', 5, 96, 31), Step(b' ', 3, 272, 7), Step(b'f', 6, 128, 63), Step(b'S', 5, 32, 31), Step(b'a', 5, 32, 31), Step(b'r', 5, 32, 31), // 200
+        Step(b'E', 5, 256, 31), Step(b'I', 5, 256, 31), Step(b'o', 4, 32, 15), Step(b',', 6, 448, 63), Step(b'T', 5, 352, 31), Step(b' ', 3, 280, 7), Step(b'e', 4, 0, 15), Step(b'F', 6, 0, 63), // 208
+        Step(b'u', 6, 0, 63), Step(b'O', 5, 288, 31), Step(b'i', 5, 448, 31), Step(b's', 5, 224, 31), Step(b't', 4, 16, 15), Step(b' ', 3, 288, 7), Step(b'N', 5, 160, 31), Step(b'n', 5, 160, 31), // 216
+        Step(b'\n', 5, 0, 31), Step(b'c', 6, 192, 63), Step(b'd', 6, 192, 63), Step(b'l', 6, 192, 63), Step(b' ', 3, 296, 7), Step(b'R', 5, 256, 31), Step(b'W', 7, 256, 127), Step(b'b', 7, 256, 127), // 224
+        Step(b'V', 9, 0, 511), Step(b'z', 9, 0, 511), Step(b'o', 4, 48, 15), Step(b'h', 6, 384, 63), Step(b' ', 3, 304, 7), Step(b'e', 4, 16, 15), Step(b'E', 5, 288, 31), Step(b'I', 5, 288, 31), // 232
+        Step(b'T', 5, 384, 31), Step(b'A', 5, 128, 31), Step(b'i', 5, 480, 31), Step(b't', 4, 32, 15), Step(b' ', 3, 312, 7), Step(b'O', 5, 320, 31), Step(b'S', 5, 64, 31), Step(b'a', 5, 64, 31), // 240
+        Step(b'r', 5, 64, 31), Step(b' ', 3, 320, 7), Step(b's', 5, 256, 31), Step(b'o', 4, 64, 15), Step(b'G', 7, 0, 127), Step(b'Y', 7, 0, 127), Step(b'y', 7, 0, 127), Step(b' ', 3, 328, 7), // 248
+        Step(b'C', 7, 384, 127), Step(b'D', 7, 384, 127), Step(b'w', 7, 384, 127), Step(b'L', 6, 128, 63), Step(b'H', 6, 320, 63), Step(b',', 5, 0, 31), Step(b'N', 5, 192, 31), Step(b'n', 5, 192, 31), // 256
+        Step(b'R', 5, 288, 31), Step(b'e', 4, 32, 15), Step(b't', 4, 48, 15), Step(b' ', 3, 336, 7), Step(b'i', 4, 0, 15), Step(b'T', 5, 416, 31), Step(b'E', 5, 320, 31), Step(b'I', 5, 320, 31), // 264
+        Step(b'\n', 5, 32, 31), Step(b' ', 3, 344, 7), Step(b'O', 5, 352, 31), Step(b'o', 4, 80, 15), Step(b'f', 6, 192, 63), Step(b'A', 5, 160, 31), Step(b' ', 3, 352, 7), Step(b'e', 4, 48, 15), // 272
+        Step(b'p', 6, 0, 63), Step(b's', 5, 288, 31), Step(b'h', 6, 448, 63), Step(b't', 4, 64, 15), Step(b' ', 3, 360, 7), Step(b'i', 4, 16, 15), Step(b'R', 5, 320, 31), Step(b'S', 5, 96, 31), // 280
+        Step(b'a', 5, 96, 31), Step(b'r', 5, 96, 31), Step(b'c', 6, 256, 63), Step(b'd', 6, 256, 63), Step(b'l', 6, 256, 63), Step(b'T', 5, 448, 31), Step(b'N', 5, 224, 31), Step(b'n', 5, 224, 31), // 288
+        Step(b'M', 7, 128, 127), Step(b' ', 3, 368, 7), Step(b'E', 5, 352, 31), Step(b'I', 5, 352, 31), Step(b'o', 4, 96, 15), Step(b' ', 3, 376, 7), Step(b'F', 6, 64, 63), Step(b'u', 6, 64, 63), // 296
+        Step(b'O', 5, 384, 31), Step(b'e', 4, 64, 15), Step(b',', 5, 32, 31), Step(b't', 4, 80, 15), Step(b' ', 3, 384, 7), Step(b'i', 4, 32, 15), Step(b's', 5, 320, 31), Step(b'A', 5, 192, 31), // 304
+        Step(b'\n', 5, 64, 31), Step(b' ', 3, 392, 7), Step(b'H', 6, 384, 63), Step(b'o', 4, 112, 15), Step(b'T', 5, 480, 31), Step(b'R', 5, 352, 31), Step(b'P', 7, 256, 127), Step(b'U', 7, 256, 127), // 312
+        Step(b'g', 7, 256, 127), Step(b'm', 7, 256, 127), Step(b' ', 3, 400, 7), Step(b'E', 5, 384, 31), Step(b'I', 5, 384, 31), Step(b'e', 4, 80, 15), Step(b'N', 5, 256, 31), Step(b'n', 5, 256, 31), // 320
+        Step(b't', 4, 96, 15), Step(b' ', 3, 408, 7), Step(b'O', 5, 416, 31), Step(b'S', 5, 128, 31), Step(b'a', 5, 128, 31), Step(b'r', 5, 128, 31), Step(b'L', 6, 192, 63), Step(b'.', 8, 0, 255), // 328
+        Step(b'h', 5, 0, 31), Step(b'i', 4, 48, 15), Step(b' ', 3, 416, 7), Step(b'o', 4, 128, 15), Step(b'W', 7, 384, 127), Step(b'b', 7, 384, 127), Step(b'f', 6, 256, 63), Step(b's', 5, 352, 31), // 336
+        Step(b'T', 4, 0, 15), Step(b' ', 3, 424, 7), Step(b'e', 4, 96, 15), Step(b'R', 5, 384, 31), Step(b'A', 5, 224, 31), Step(b't', 4, 112, 15), Step(b' ', 3, 432, 7), Step(b',', 5, 64, 31), // 344
+        Step(b'E', 5, 416, 31), Step(b'I', 5, 416, 31), Step(b'c', 6, 320, 63), Step(b'd', 6, 320, 63), Step(b'l', 6, 320, 63), Step(b'o', 4, 144, 15), Step(b'O', 5, 448, 31), Step(b' ', 3, 440, 7), // 352
+        Step(b'\n', 5, 96, 31), Step(b'i', 4, 64, 15), Step(b'C', 6, 0, 63), Step(b'D', 6, 0, 63), Step(b'w', 6, 0, 63), Step(b'N', 5, 288, 31), Step(b'n', 5, 288, 31), Step(b' ', 3, 448, 7), // 360
+        Step(b'e', 4, 112, 15), Step(b'T', 4, 16, 15), Step(b'S', 5, 160, 31), Step(b'a', 5, 160, 31), Step(b'r', 5, 160, 31), Step(b'H', 6, 448, 63), Step(b't', 4, 128, 15), Step(b' ', 3, 456, 7), // 368
+        Step(b'p', 6, 64, 63), Step(b's', 5, 384, 31), Step(b'o', 4, 160, 15), Step(b'R', 5, 416, 31), Step(b' ', 3, 464, 7), Step(b'"', 8, 256, 255), Step(b'E', 5, 448, 31), Step(b'I', 5, 448, 31), // 376
+        Step(b'i', 4, 80, 15), Step(b'F', 6, 128, 63), Step(b'u', 6, 128, 63), Step(b'h', 5, 32, 31), Step(b'A', 5, 256, 31), Step(b'O', 5, 480, 31), Step(b' ', 3, 472, 7), Step(b'e', 4, 128, 15), // 384
+        Step(b't', 4, 144, 15), Step(b' ', 3, 480, 7), Step(b'N', 5, 320, 31), Step(b'n', 5, 320, 31), Step(b'T', 4, 32, 15), Step(b',', 5, 96, 31), Step(b'o', 4, 176, 15), Step(b' ', 3, 488, 7), // 392
+        Step(b'\n', 5, 128, 31), Step(b'L', 6, 256, 63), Step(b's', 5, 416, 31), Step(b'i', 4, 96, 15), Step(b'B', 7, 0, 127), Step(b'R', 5, 448, 31), Step(b' ', 3, 496, 7), Step(b'f', 6, 320, 63), // 400
+        Step(b'S', 5, 192, 31), Step(b'a', 5, 192, 31), Step(b'r', 5, 192, 31), Step(b'E', 5, 480, 31), Step(b'I', 5, 480, 31), Step(b'e', 4, 144, 15), Step(b'O', 4, 0, 15), Step(b't', 4, 160, 15), // 408
+        Step(b' ', 3, 504, 7), Step(b'c', 6, 384, 63), Step(b'd', 6, 384, 63), Step(b'l', 6, 384, 63), Step(b'o', 4, 192, 15), Step(b'T', 4, 48, 15), Step(b'A', 5, 288, 31), Step(b' ', 2, 0, 3), // 416
+        Step(b'G', 7, 128, 127), Step(b'Y', 7, 128, 127), Step(b'y', 7, 128, 127), Step(b'H', 5, 0, 31), Step(b'N', 5, 352, 31), Step(b'n', 5, 352, 31), Step(b' ', 2, 4, 3), Step(b'i', 4, 112, 15), // 424
+        Step(b'e', 4, 160, 15), Step(b's', 5, 448, 31), Step(b'h', 5, 64, 31), Step(b't', 4, 176, 15), Step(b' ', 2, 8, 3), Step(b'R', 5, 480, 31), Step(b'M', 7, 256, 127), Step(b'E', 4, 0, 15), // 432
+        Step(b'I', 4, 0, 15), Step(b'o', 4, 208, 15), Step(b'O', 4, 16, 15), Step(b',', 5, 128, 31), Step(b' ', 2, 12, 3), Step(b'\n', 5, 160, 31), Step(b'T', 4, 64, 15), Step(b'P', 7, 384, 127), // 440
+        Step(b'U', 7, 384, 127), Step(b'g', 7, 384, 127), Step(b'm', 7, 384, 127), Step(b' ', 2, 16, 3), Step(b'S', 5, 224, 31), Step(b'a', 5, 224, 31), Step(b'r', 5, 224, 31), Step(b'i', 4, 128, 15), // 448
+        Step(b'W', 6, 0, 63), Step(b'b', 6, 0, 63), Step(b'e', 4, 176, 15), Step(b'A', 5, 320, 31), Step(b't', 4, 192, 15), Step(b' ', 2, 20, 3), Step(b'o', 4, 224, 15), Step(b'C', 6, 64, 63), // 456
+        Step(b'D', 6, 64, 63), Step(b'w', 6, 64, 63), Step(b'N', 5, 384, 31), Step(b'n', 5, 384, 31), Step(b' ', 2, 24, 3), Step(b's', 5, 480, 31), Step(b'R', 4, 0, 15), Step(b'E', 4, 16, 15), // 464
+        Step(b'I', 4, 16, 15), Step(b'F', 6, 192, 63), Step(b'u', 6, 192, 63), Step(b'O', 4, 32, 15), Step(b' ', 2, 28, 3), Step(b'T', 4, 80, 15), Step(b'L', 6, 320, 63), Step(b'i', 4, 144, 15), // 472
+        Step(b'e', 4, 192, 15), Step(b't', 4, 208, 15), Step(b' ', 2, 32, 3), Step(b'c', 6, 448, 63), Step(b'd', 6, 448, 63), Step(b'l', 6, 448, 63), Step(b'o', 4, 240, 15), Step(b'H', 5, 32, 31), // 480
+        Step(b'h', 5, 96, 31), Step(b' ', 2, 36, 3), Step(b',', 5, 160, 31), Step(b'A', 5, 352, 31), Step(b' ', 2, 40, 3), Step(b'N', 5, 416, 31), Step(b'n', 5, 416, 31), Step(b'R', 4, 16, 15), // 488
+        Step(b'O', 4, 48, 15), Step(b'e', 4, 208, 15), Step(b' ', 2, 44, 3), Step(b'W', 6, 64, 63), Step(b'b', 6, 64, 63), Step(b'M', 7, 384, 127), Step(b'B', 7, 128, 127), Step(b'.', 8, 256, 255), // 496
+        Step(b'(', 9, 0, 511), Step(b')', 9, 0, 511), Step(b'/', 9, 0, 511), Step(b':', 9, 0, 511), Step(b'K', 9, 0, 511), Step(b'X', 9, 0, 511), Step(b'j', 9, 0, 511), Step(b'v', 9, 0, 511), // 504
     ];
     /// Encoding rules, indexed by symbol.
     static RULES: [Rule; 256] = [
@@ -949,13 +964,17 @@ pub mod five {
     /// Most bits any one symbol costs.
     pub const MAX_SYMBOL_BITS: u32 = 3;
     /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
-    const PER_LOAD: usize = 1;
+    const PER_LOAD: usize = 19;
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
-    const PER_FLUSH: usize = 1;
-    /// Stream bytes one decoder round of `LANES` symbols may touch.
+    const PER_FLUSH: usize = 18;
+    /// Symbols in one decoder round (a multiple of `LANES`).
+    const DECODE_ROUND: usize = 19;
+    /// Symbols in one encoder round (a multiple of `LANES`).
+    const ENCODE_ROUND: usize = 18;
+    /// Stream bytes one decoder round may touch.
     const DECODE_WINDOW: usize = 8;
-    /// Output bytes one encoder round of `LANES` symbols may touch.
-    const ENCODE_WINDOW: usize = 9;
+    /// Output bytes one encoder round may touch.
+    const ENCODE_WINDOW: usize = 15;
     /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
     pub const fn max_encoded_len(symbols: usize) -> usize {
         let bits = symbols
@@ -963,26 +982,36 @@ pub mod five {
             .saturating_add(LANES * SCALE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step: puts the low `k` bits of `x` just below the `pending` bits at the
-    /// top of `acc` (the stream is built back to front) and returns the next state and `k`.
+    /// One encoder step: shifts the low `k` bits of `x` in under the pending bits (the
+    /// stream is built back to front, so they come first) and returns the next state and `k`.
     #[inline(always)]
-    fn put(x: u32, rule: &Rule, acc: &mut u64, pending: u32) -> (u32, u32) {
+    fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        let value = u64::from(x & !(u32::MAX << bits));
-        *acc |= value.wrapping_shl(64u32.wrapping_sub(pending + bits));
+        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
         let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
+    }
+    /// `2^k - 1` by `k`: a load instead of two shifts.
+    static LOW_BITS: [u32; 16] = [
+        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
+    ];
+    /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
+    /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
+    /// bits already stored, which this shifts out.
+    #[inline(always)]
+    fn aligned(acc: u64, pending: u32) -> u64 {
+        acc.wrapping_shl(64u32.wrapping_sub(pending))
     }
     /// Stores the whole bytes of the pending bits in front of `pos`.
     #[inline(always)]
     fn store(
         out: &mut [u8],
         pos: &mut usize,
-        acc: &mut u64,
+        acc: u64,
         pending: &mut u32,
     ) -> Result<(), Error> {
         let whole = (*pending >> 3) as usize;
-        let bytes = acc.to_le_bytes();
+        let bytes = aligned(acc, *pending).to_le_bytes();
         let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..))
         else {
             return Err(Error::OutputTooSmall);
@@ -992,7 +1021,6 @@ pub mod five {
         };
         dst.copy_from_slice(top);
         *pos = start;
-        *acc = acc.wrapping_shl(whole as u32 * 8);
         *pending &= 7;
         Ok(())
     }
@@ -1007,13 +1035,13 @@ pub mod five {
         let mut state = [TABLE_LEN as u32; LANES];
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
-        let (rounds, rest) = input.as_chunks::<LANES>();
+        let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
         for (lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[symbol as usize];
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc, pending);
+            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
             state[lane % LANES] = next;
             pending += bits;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         for round in rounds.iter().rev() {
             let window = out
@@ -1021,41 +1049,41 @@ pub mod five {
                 .and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
             if let Some(window) = window {
                 let top = pos;
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    if lane % PER_FLUSH == 0 {
+                    if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
                             .saturating_sub(top.wrapping_sub(pos));
-                        window[at..at + 8].copy_from_slice(&acc.to_le_bytes());
-                        let whole = pending >> 3;
-                        pos -= whole as usize;
-                        acc <<= whole * 8;
+                        window[at..at + 8]
+                            .copy_from_slice(&aligned(acc, pending).to_le_bytes());
+                        pos -= (pending >> 3) as usize;
                         pending &= 7;
                     }
                 }
             } else {
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    store(out, &mut pos, &mut acc, &mut pending)?;
+                    store(out, &mut pos, acc, &mut pending)?;
                 }
             }
         }
         for &x in state.iter().rev() {
-            acc |= (u64::from(x) - TABLE_LEN as u64) << (64 - pending - SCALE_BITS);
+            acc = (acc << SCALE_BITS) | (u64::from(x) - TABLE_LEN as u64);
             pending += SCALE_BITS;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         let pad = (8 - pending % 8) % 8;
+        acc <<= pad;
         pending += pad;
-        store(out, &mut pos, &mut acc, &mut pending)?;
+        store(out, &mut pos, acc, &mut pending)?;
         if pos < header {
             return Err(Error::OutputTooSmall);
         }
@@ -1092,7 +1120,7 @@ pub mod five {
             *x = bits_at(payload, at) as usize & MASK;
             at += SCALE_BITS as usize;
         }
-        let (rounds, _) = out.as_chunks_mut::<LANES>();
+        let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
         let mut done = 0;
         for round in rounds.iter_mut() {
             let Some(window) = payload
@@ -1102,18 +1130,19 @@ pub mod five {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for lane in 0..LANES {
-                if lane % PER_LOAD == 0 {
+            for i in 0..DECODE_ROUND {
+                if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let step = &DECODE[state[lane] & MASK];
-                round[lane] = step.0;
+                let x = &mut state[i % LANES];
+                let step = &DECODE[*x & MASK];
+                round[i] = step.0;
                 let bits = u32::from(step.1);
-                state[lane] = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
                 at += bits as usize;
             }
-            done += LANES;
+            done += DECODE_ROUND;
         }
         for (i, slot) in out.iter_mut().enumerate().skip(done) {
             let x = &mut state[i % LANES];
@@ -1163,9 +1192,10 @@ pub mod five {
     fn bits_at(data: &[u8], at: usize) -> u64 {
         word(data, at >> 3) >> (at & 7)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
+    /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
+    /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored to
+    /// keep the shift off the critical path), and goes to position `base + b`.
+    struct Step(Symbol, u8, u16, u32);
     /// Encoding rule per symbol: from state `x` the encoder writes
     /// `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
     /// `NEXT_STATE[((x >> k) + offset) % TABLE_LEN]`.
@@ -1175,14 +1205,14 @@ pub mod five {
     }
     /// Decode steps by table position (the spread of symbols over the table).
     static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::E, 3, 8), Step(Symbol::A, 2, 0), Step(Symbol::B, 2, 0), Step(Symbol::C, 3, 40), Step(Symbol::D, 3, 16), Step(Symbol::E, 3, 16), Step(Symbol::A, 2, 4), Step(Symbol::B, 2, 4), // 0
-        Step(Symbol::C, 3, 48), Step(Symbol::A, 2, 8), Step(Symbol::B, 2, 8), Step(Symbol::D, 3, 24), Step(Symbol::E, 3, 24), Step(Symbol::C, 3, 56), Step(Symbol::A, 2, 12), Step(Symbol::B, 2, 12), // 8
-        Step(Symbol::A, 2, 16), Step(Symbol::B, 2, 16), Step(Symbol::C, 2, 0), Step(Symbol::D, 3, 32), Step(Symbol::E, 3, 32), Step(Symbol::A, 2, 20), Step(Symbol::B, 2, 20), Step(Symbol::C, 2, 4), // 16
-        Step(Symbol::D, 3, 40), Step(Symbol::E, 3, 40), Step(Symbol::A, 2, 24), Step(Symbol::B, 2, 24), Step(Symbol::C, 2, 8), Step(Symbol::A, 2, 28), Step(Symbol::B, 2, 28), Step(Symbol::D, 3, 48), // 24
-        Step(Symbol::E, 3, 48), Step(Symbol::C, 2, 12), Step(Symbol::A, 2, 32), Step(Symbol::B, 2, 32), Step(Symbol::A, 2, 36), Step(Symbol::B, 2, 36), Step(Symbol::C, 2, 16), Step(Symbol::D, 3, 56), // 32
-        Step(Symbol::E, 3, 56), Step(Symbol::A, 2, 40), Step(Symbol::B, 2, 40), Step(Symbol::C, 2, 20), Step(Symbol::D, 2, 0), Step(Symbol::E, 2, 0), Step(Symbol::A, 2, 44), Step(Symbol::B, 2, 44), // 40
-        Step(Symbol::C, 2, 24), Step(Symbol::A, 2, 48), Step(Symbol::B, 2, 48), Step(Symbol::D, 2, 4), Step(Symbol::E, 2, 4), Step(Symbol::C, 2, 28), Step(Symbol::A, 2, 52), Step(Symbol::B, 2, 52), // 48
-        Step(Symbol::A, 2, 56), Step(Symbol::B, 2, 56), Step(Symbol::C, 2, 32), Step(Symbol::D, 2, 8), Step(Symbol::A, 2, 60), Step(Symbol::B, 2, 60), Step(Symbol::C, 2, 36), Step(Symbol::D, 2, 12), // 56
+        Step(Symbol::E, 3, 8, 7), Step(Symbol::A, 2, 0, 3), Step(Symbol::B, 2, 0, 3), Step(Symbol::C, 3, 40, 7), Step(Symbol::D, 3, 16, 7), Step(Symbol::E, 3, 16, 7), Step(Symbol::A, 2, 4, 3), Step(Symbol::B, 2, 4, 3), // 0
+        Step(Symbol::C, 3, 48, 7), Step(Symbol::A, 2, 8, 3), Step(Symbol::B, 2, 8, 3), Step(Symbol::D, 3, 24, 7), Step(Symbol::E, 3, 24, 7), Step(Symbol::C, 3, 56, 7), Step(Symbol::A, 2, 12, 3), Step(Symbol::B, 2, 12, 3), // 8
+        Step(Symbol::A, 2, 16, 3), Step(Symbol::B, 2, 16, 3), Step(Symbol::C, 2, 0, 3), Step(Symbol::D, 3, 32, 7), Step(Symbol::E, 3, 32, 7), Step(Symbol::A, 2, 20, 3), Step(Symbol::B, 2, 20, 3), Step(Symbol::C, 2, 4, 3), // 16
+        Step(Symbol::D, 3, 40, 7), Step(Symbol::E, 3, 40, 7), Step(Symbol::A, 2, 24, 3), Step(Symbol::B, 2, 24, 3), Step(Symbol::C, 2, 8, 3), Step(Symbol::A, 2, 28, 3), Step(Symbol::B, 2, 28, 3), Step(Symbol::D, 3, 48, 7), // 24
+        Step(Symbol::E, 3, 48, 7), Step(Symbol::C, 2, 12, 3), Step(Symbol::A, 2, 32, 3), Step(Symbol::B, 2, 32, 3), Step(Symbol::A, 2, 36, 3), Step(Symbol::B, 2, 36, 3), Step(Symbol::C, 2, 16, 3), Step(Symbol::D, 3, 56, 7), // 32
+        Step(Symbol::E, 3, 56, 7), Step(Symbol::A, 2, 40, 3), Step(Symbol::B, 2, 40, 3), Step(Symbol::C, 2, 20, 3), Step(Symbol::D, 2, 0, 3), Step(Symbol::E, 2, 0, 3), Step(Symbol::A, 2, 44, 3), Step(Symbol::B, 2, 44, 3), // 40
+        Step(Symbol::C, 2, 24, 3), Step(Symbol::A, 2, 48, 3), Step(Symbol::B, 2, 48, 3), Step(Symbol::D, 2, 4, 3), Step(Symbol::E, 2, 4, 3), Step(Symbol::C, 2, 28, 3), Step(Symbol::A, 2, 52, 3), Step(Symbol::B, 2, 52, 3), // 48
+        Step(Symbol::A, 2, 56, 3), Step(Symbol::B, 2, 56, 3), Step(Symbol::C, 2, 32, 3), Step(Symbol::D, 2, 8, 3), Step(Symbol::A, 2, 60, 3), Step(Symbol::B, 2, 60, 3), Step(Symbol::C, 2, 36, 3), Step(Symbol::D, 2, 12, 3), // 56
     ];
     /// Encoding rules, indexed by symbol.
     static RULES: [Rule; 5] = [
@@ -1369,13 +1399,17 @@ pub mod skewed {
     /// Most bits any one symbol costs.
     pub const MAX_SYMBOL_BITS: u32 = 4;
     /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
-    const PER_LOAD: usize = 1;
+    const PER_LOAD: usize = 14;
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
-    const PER_FLUSH: usize = 1;
-    /// Stream bytes one decoder round of `LANES` symbols may touch.
+    const PER_FLUSH: usize = 14;
+    /// Symbols in one decoder round (a multiple of `LANES`).
+    const DECODE_ROUND: usize = 14;
+    /// Symbols in one encoder round (a multiple of `LANES`).
+    const ENCODE_ROUND: usize = 14;
+    /// Stream bytes one decoder round may touch.
     const DECODE_WINDOW: usize = 8;
-    /// Output bytes one encoder round of `LANES` symbols may touch.
-    const ENCODE_WINDOW: usize = 9;
+    /// Output bytes one encoder round may touch.
+    const ENCODE_WINDOW: usize = 15;
     /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
     pub const fn max_encoded_len(symbols: usize) -> usize {
         let bits = symbols
@@ -1383,26 +1417,36 @@ pub mod skewed {
             .saturating_add(LANES * SCALE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step: puts the low `k` bits of `x` just below the `pending` bits at the
-    /// top of `acc` (the stream is built back to front) and returns the next state and `k`.
+    /// One encoder step: shifts the low `k` bits of `x` in under the pending bits (the
+    /// stream is built back to front, so they come first) and returns the next state and `k`.
     #[inline(always)]
-    fn put(x: u32, rule: &Rule, acc: &mut u64, pending: u32) -> (u32, u32) {
+    fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        let value = u64::from(x & !(u32::MAX << bits));
-        *acc |= value.wrapping_shl(64u32.wrapping_sub(pending + bits));
+        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
         let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
+    }
+    /// `2^k - 1` by `k`: a load instead of two shifts.
+    static LOW_BITS: [u32; 16] = [
+        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
+    ];
+    /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
+    /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
+    /// bits already stored, which this shifts out.
+    #[inline(always)]
+    fn aligned(acc: u64, pending: u32) -> u64 {
+        acc.wrapping_shl(64u32.wrapping_sub(pending))
     }
     /// Stores the whole bytes of the pending bits in front of `pos`.
     #[inline(always)]
     fn store(
         out: &mut [u8],
         pos: &mut usize,
-        acc: &mut u64,
+        acc: u64,
         pending: &mut u32,
     ) -> Result<(), Error> {
         let whole = (*pending >> 3) as usize;
-        let bytes = acc.to_le_bytes();
+        let bytes = aligned(acc, *pending).to_le_bytes();
         let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..))
         else {
             return Err(Error::OutputTooSmall);
@@ -1412,7 +1456,6 @@ pub mod skewed {
         };
         dst.copy_from_slice(top);
         *pos = start;
-        *acc = acc.wrapping_shl(whole as u32 * 8);
         *pending &= 7;
         Ok(())
     }
@@ -1427,13 +1470,13 @@ pub mod skewed {
         let mut state = [TABLE_LEN as u32; LANES];
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
-        let (rounds, rest) = input.as_chunks::<LANES>();
+        let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
         for (lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[symbol as usize];
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc, pending);
+            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
             state[lane % LANES] = next;
             pending += bits;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         for round in rounds.iter().rev() {
             let window = out
@@ -1441,41 +1484,41 @@ pub mod skewed {
                 .and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
             if let Some(window) = window {
                 let top = pos;
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    if lane % PER_FLUSH == 0 {
+                    if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
                             .saturating_sub(top.wrapping_sub(pos));
-                        window[at..at + 8].copy_from_slice(&acc.to_le_bytes());
-                        let whole = pending >> 3;
-                        pos -= whole as usize;
-                        acc <<= whole * 8;
+                        window[at..at + 8]
+                            .copy_from_slice(&aligned(acc, pending).to_le_bytes());
+                        pos -= (pending >> 3) as usize;
                         pending &= 7;
                     }
                 }
             } else {
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    store(out, &mut pos, &mut acc, &mut pending)?;
+                    store(out, &mut pos, acc, &mut pending)?;
                 }
             }
         }
         for &x in state.iter().rev() {
-            acc |= (u64::from(x) - TABLE_LEN as u64) << (64 - pending - SCALE_BITS);
+            acc = (acc << SCALE_BITS) | (u64::from(x) - TABLE_LEN as u64);
             pending += SCALE_BITS;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         let pad = (8 - pending % 8) % 8;
+        acc <<= pad;
         pending += pad;
-        store(out, &mut pos, &mut acc, &mut pending)?;
+        store(out, &mut pos, acc, &mut pending)?;
         if pos < header {
             return Err(Error::OutputTooSmall);
         }
@@ -1512,7 +1555,7 @@ pub mod skewed {
             *x = bits_at(payload, at) as usize & MASK;
             at += SCALE_BITS as usize;
         }
-        let (rounds, _) = out.as_chunks_mut::<LANES>();
+        let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
         let mut done = 0;
         for round in rounds.iter_mut() {
             let Some(window) = payload
@@ -1522,18 +1565,19 @@ pub mod skewed {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for lane in 0..LANES {
-                if lane % PER_LOAD == 0 {
+            for i in 0..DECODE_ROUND {
+                if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let step = &DECODE[state[lane] & MASK];
-                round[lane] = step.0;
+                let x = &mut state[i % LANES];
+                let step = &DECODE[*x & MASK];
+                round[i] = step.0;
                 let bits = u32::from(step.1);
-                state[lane] = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
                 at += bits as usize;
             }
-            done += LANES;
+            done += DECODE_ROUND;
         }
         for (i, slot) in out.iter_mut().enumerate().skip(done) {
             let x = &mut state[i % LANES];
@@ -1583,9 +1627,10 @@ pub mod skewed {
     fn bits_at(data: &[u8], at: usize) -> u64 {
         word(data, at >> 3) >> (at & 7)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
+    /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
+    /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored to
+    /// keep the shift off the critical path), and goes to position `base + b`.
+    struct Step(Symbol, u8, u16, u32);
     /// Encoding rule per symbol: from state `x` the encoder writes
     /// `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
     /// `NEXT_STATE[((x >> k) + offset) % TABLE_LEN]`.
@@ -1595,22 +1640,22 @@ pub mod skewed {
     }
     /// Decode steps by table position (the spread of symbols over the table).
     static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::Likely, 1, 102), Step(Symbol::Likely, 1, 104), Step(Symbol::Likely, 1, 106), Step(Symbol::Likely, 1, 108), Step(Symbol::Likely, 1, 110), Step(Symbol::Likely, 1, 112), Step(Symbol::Unlikely, 4, 80), Step(Symbol::Likely, 1, 114), // 0
-        Step(Symbol::Likely, 1, 116), Step(Symbol::Likely, 1, 118), Step(Symbol::Likely, 1, 120), Step(Symbol::Likely, 1, 122), Step(Symbol::Likely, 1, 124), Step(Symbol::Likely, 1, 126), Step(Symbol::Likely, 0, 0), Step(Symbol::Likely, 0, 1), // 8
-        Step(Symbol::Unlikely, 4, 96), Step(Symbol::Likely, 0, 2), Step(Symbol::Likely, 0, 3), Step(Symbol::Likely, 0, 4), Step(Symbol::Likely, 0, 5), Step(Symbol::Likely, 0, 6), Step(Symbol::Likely, 0, 7), Step(Symbol::Likely, 0, 8), // 16
-        Step(Symbol::Likely, 0, 9), Step(Symbol::Likely, 0, 10), Step(Symbol::Unlikely, 4, 112), Step(Symbol::Likely, 0, 11), Step(Symbol::Likely, 0, 12), Step(Symbol::Likely, 0, 13), Step(Symbol::Likely, 0, 14), Step(Symbol::Likely, 0, 15), // 24
-        Step(Symbol::Likely, 0, 16), Step(Symbol::Likely, 0, 17), Step(Symbol::Likely, 0, 18), Step(Symbol::Likely, 0, 19), Step(Symbol::Unlikely, 3, 0), Step(Symbol::Likely, 0, 20), Step(Symbol::Likely, 0, 21), Step(Symbol::Likely, 0, 22), // 32
-        Step(Symbol::Likely, 0, 23), Step(Symbol::Likely, 0, 24), Step(Symbol::Likely, 0, 25), Step(Symbol::Likely, 0, 26), Step(Symbol::Likely, 0, 27), Step(Symbol::Likely, 0, 28), Step(Symbol::Unlikely, 3, 8), Step(Symbol::Likely, 0, 29), // 40
-        Step(Symbol::Likely, 0, 30), Step(Symbol::Likely, 0, 31), Step(Symbol::Likely, 0, 32), Step(Symbol::Likely, 0, 33), Step(Symbol::Likely, 0, 34), Step(Symbol::Likely, 0, 35), Step(Symbol::Likely, 0, 36), Step(Symbol::Likely, 0, 37), // 48
-        Step(Symbol::Unlikely, 3, 16), Step(Symbol::Likely, 0, 38), Step(Symbol::Likely, 0, 39), Step(Symbol::Likely, 0, 40), Step(Symbol::Likely, 0, 41), Step(Symbol::Likely, 0, 42), Step(Symbol::Likely, 0, 43), Step(Symbol::Likely, 0, 44), // 56
-        Step(Symbol::Likely, 0, 45), Step(Symbol::Likely, 0, 46), Step(Symbol::Unlikely, 3, 24), Step(Symbol::Likely, 0, 47), Step(Symbol::Likely, 0, 48), Step(Symbol::Likely, 0, 49), Step(Symbol::Likely, 0, 50), Step(Symbol::Likely, 0, 51), // 64
-        Step(Symbol::Likely, 0, 52), Step(Symbol::Likely, 0, 53), Step(Symbol::Likely, 0, 54), Step(Symbol::Likely, 0, 55), Step(Symbol::Unlikely, 3, 32), Step(Symbol::Likely, 0, 56), Step(Symbol::Likely, 0, 57), Step(Symbol::Likely, 0, 58), // 72
-        Step(Symbol::Likely, 0, 59), Step(Symbol::Likely, 0, 60), Step(Symbol::Likely, 0, 61), Step(Symbol::Likely, 0, 62), Step(Symbol::Likely, 0, 63), Step(Symbol::Likely, 0, 64), Step(Symbol::Unlikely, 3, 40), Step(Symbol::Likely, 0, 65), // 80
-        Step(Symbol::Likely, 0, 66), Step(Symbol::Likely, 0, 67), Step(Symbol::Likely, 0, 68), Step(Symbol::Likely, 0, 69), Step(Symbol::Likely, 0, 70), Step(Symbol::Likely, 0, 71), Step(Symbol::Likely, 0, 72), Step(Symbol::Likely, 0, 73), // 88
-        Step(Symbol::Unlikely, 3, 48), Step(Symbol::Likely, 0, 74), Step(Symbol::Likely, 0, 75), Step(Symbol::Likely, 0, 76), Step(Symbol::Likely, 0, 77), Step(Symbol::Likely, 0, 78), Step(Symbol::Likely, 0, 79), Step(Symbol::Likely, 0, 80), // 96
-        Step(Symbol::Likely, 0, 81), Step(Symbol::Likely, 0, 82), Step(Symbol::Unlikely, 3, 56), Step(Symbol::Likely, 0, 83), Step(Symbol::Likely, 0, 84), Step(Symbol::Likely, 0, 85), Step(Symbol::Likely, 0, 86), Step(Symbol::Likely, 0, 87), // 104
-        Step(Symbol::Likely, 0, 88), Step(Symbol::Likely, 0, 89), Step(Symbol::Likely, 0, 90), Step(Symbol::Likely, 0, 91), Step(Symbol::Unlikely, 3, 64), Step(Symbol::Likely, 0, 92), Step(Symbol::Likely, 0, 93), Step(Symbol::Likely, 0, 94), // 112
-        Step(Symbol::Likely, 0, 95), Step(Symbol::Likely, 0, 96), Step(Symbol::Likely, 0, 97), Step(Symbol::Likely, 0, 98), Step(Symbol::Likely, 0, 99), Step(Symbol::Likely, 0, 100), Step(Symbol::Unlikely, 3, 72), Step(Symbol::Likely, 0, 101), // 120
+        Step(Symbol::Likely, 1, 102, 1), Step(Symbol::Likely, 1, 104, 1), Step(Symbol::Likely, 1, 106, 1), Step(Symbol::Likely, 1, 108, 1), Step(Symbol::Likely, 1, 110, 1), Step(Symbol::Likely, 1, 112, 1), Step(Symbol::Unlikely, 4, 80, 15), Step(Symbol::Likely, 1, 114, 1), // 0
+        Step(Symbol::Likely, 1, 116, 1), Step(Symbol::Likely, 1, 118, 1), Step(Symbol::Likely, 1, 120, 1), Step(Symbol::Likely, 1, 122, 1), Step(Symbol::Likely, 1, 124, 1), Step(Symbol::Likely, 1, 126, 1), Step(Symbol::Likely, 0, 0, 0), Step(Symbol::Likely, 0, 1, 0), // 8
+        Step(Symbol::Unlikely, 4, 96, 15), Step(Symbol::Likely, 0, 2, 0), Step(Symbol::Likely, 0, 3, 0), Step(Symbol::Likely, 0, 4, 0), Step(Symbol::Likely, 0, 5, 0), Step(Symbol::Likely, 0, 6, 0), Step(Symbol::Likely, 0, 7, 0), Step(Symbol::Likely, 0, 8, 0), // 16
+        Step(Symbol::Likely, 0, 9, 0), Step(Symbol::Likely, 0, 10, 0), Step(Symbol::Unlikely, 4, 112, 15), Step(Symbol::Likely, 0, 11, 0), Step(Symbol::Likely, 0, 12, 0), Step(Symbol::Likely, 0, 13, 0), Step(Symbol::Likely, 0, 14, 0), Step(Symbol::Likely, 0, 15, 0), // 24
+        Step(Symbol::Likely, 0, 16, 0), Step(Symbol::Likely, 0, 17, 0), Step(Symbol::Likely, 0, 18, 0), Step(Symbol::Likely, 0, 19, 0), Step(Symbol::Unlikely, 3, 0, 7), Step(Symbol::Likely, 0, 20, 0), Step(Symbol::Likely, 0, 21, 0), Step(Symbol::Likely, 0, 22, 0), // 32
+        Step(Symbol::Likely, 0, 23, 0), Step(Symbol::Likely, 0, 24, 0), Step(Symbol::Likely, 0, 25, 0), Step(Symbol::Likely, 0, 26, 0), Step(Symbol::Likely, 0, 27, 0), Step(Symbol::Likely, 0, 28, 0), Step(Symbol::Unlikely, 3, 8, 7), Step(Symbol::Likely, 0, 29, 0), // 40
+        Step(Symbol::Likely, 0, 30, 0), Step(Symbol::Likely, 0, 31, 0), Step(Symbol::Likely, 0, 32, 0), Step(Symbol::Likely, 0, 33, 0), Step(Symbol::Likely, 0, 34, 0), Step(Symbol::Likely, 0, 35, 0), Step(Symbol::Likely, 0, 36, 0), Step(Symbol::Likely, 0, 37, 0), // 48
+        Step(Symbol::Unlikely, 3, 16, 7), Step(Symbol::Likely, 0, 38, 0), Step(Symbol::Likely, 0, 39, 0), Step(Symbol::Likely, 0, 40, 0), Step(Symbol::Likely, 0, 41, 0), Step(Symbol::Likely, 0, 42, 0), Step(Symbol::Likely, 0, 43, 0), Step(Symbol::Likely, 0, 44, 0), // 56
+        Step(Symbol::Likely, 0, 45, 0), Step(Symbol::Likely, 0, 46, 0), Step(Symbol::Unlikely, 3, 24, 7), Step(Symbol::Likely, 0, 47, 0), Step(Symbol::Likely, 0, 48, 0), Step(Symbol::Likely, 0, 49, 0), Step(Symbol::Likely, 0, 50, 0), Step(Symbol::Likely, 0, 51, 0), // 64
+        Step(Symbol::Likely, 0, 52, 0), Step(Symbol::Likely, 0, 53, 0), Step(Symbol::Likely, 0, 54, 0), Step(Symbol::Likely, 0, 55, 0), Step(Symbol::Unlikely, 3, 32, 7), Step(Symbol::Likely, 0, 56, 0), Step(Symbol::Likely, 0, 57, 0), Step(Symbol::Likely, 0, 58, 0), // 72
+        Step(Symbol::Likely, 0, 59, 0), Step(Symbol::Likely, 0, 60, 0), Step(Symbol::Likely, 0, 61, 0), Step(Symbol::Likely, 0, 62, 0), Step(Symbol::Likely, 0, 63, 0), Step(Symbol::Likely, 0, 64, 0), Step(Symbol::Unlikely, 3, 40, 7), Step(Symbol::Likely, 0, 65, 0), // 80
+        Step(Symbol::Likely, 0, 66, 0), Step(Symbol::Likely, 0, 67, 0), Step(Symbol::Likely, 0, 68, 0), Step(Symbol::Likely, 0, 69, 0), Step(Symbol::Likely, 0, 70, 0), Step(Symbol::Likely, 0, 71, 0), Step(Symbol::Likely, 0, 72, 0), Step(Symbol::Likely, 0, 73, 0), // 88
+        Step(Symbol::Unlikely, 3, 48, 7), Step(Symbol::Likely, 0, 74, 0), Step(Symbol::Likely, 0, 75, 0), Step(Symbol::Likely, 0, 76, 0), Step(Symbol::Likely, 0, 77, 0), Step(Symbol::Likely, 0, 78, 0), Step(Symbol::Likely, 0, 79, 0), Step(Symbol::Likely, 0, 80, 0), // 96
+        Step(Symbol::Likely, 0, 81, 0), Step(Symbol::Likely, 0, 82, 0), Step(Symbol::Unlikely, 3, 56, 7), Step(Symbol::Likely, 0, 83, 0), Step(Symbol::Likely, 0, 84, 0), Step(Symbol::Likely, 0, 85, 0), Step(Symbol::Likely, 0, 86, 0), Step(Symbol::Likely, 0, 87, 0), // 104
+        Step(Symbol::Likely, 0, 88, 0), Step(Symbol::Likely, 0, 89, 0), Step(Symbol::Likely, 0, 90, 0), Step(Symbol::Likely, 0, 91, 0), Step(Symbol::Unlikely, 3, 64, 7), Step(Symbol::Likely, 0, 92, 0), Step(Symbol::Likely, 0, 93, 0), Step(Symbol::Likely, 0, 94, 0), // 112
+        Step(Symbol::Likely, 0, 95, 0), Step(Symbol::Likely, 0, 96, 0), Step(Symbol::Likely, 0, 97, 0), Step(Symbol::Likely, 0, 98, 0), Step(Symbol::Likely, 0, 99, 0), Step(Symbol::Likely, 0, 100, 0), Step(Symbol::Unlikely, 3, 72, 7), Step(Symbol::Likely, 0, 101, 0), // 120
     ];
     /// Encoding rules, indexed by symbol.
     static RULES: [Rule; 2] = [
@@ -1793,13 +1838,17 @@ pub mod single {
     /// Most bits any one symbol costs.
     pub const MAX_SYMBOL_BITS: u32 = 1;
     /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
-    const PER_LOAD: usize = 1;
+    const PER_LOAD: usize = 57;
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
-    const PER_FLUSH: usize = 1;
-    /// Stream bytes one decoder round of `LANES` symbols may touch.
+    const PER_FLUSH: usize = 56;
+    /// Symbols in one decoder round (a multiple of `LANES`).
+    const DECODE_ROUND: usize = 57;
+    /// Symbols in one encoder round (a multiple of `LANES`).
+    const ENCODE_ROUND: usize = 56;
+    /// Stream bytes one decoder round may touch.
     const DECODE_WINDOW: usize = 8;
-    /// Output bytes one encoder round of `LANES` symbols may touch.
-    const ENCODE_WINDOW: usize = 9;
+    /// Output bytes one encoder round may touch.
+    const ENCODE_WINDOW: usize = 15;
     /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
     pub const fn max_encoded_len(symbols: usize) -> usize {
         let bits = symbols
@@ -1807,26 +1856,36 @@ pub mod single {
             .saturating_add(LANES * SCALE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step: puts the low `k` bits of `x` just below the `pending` bits at the
-    /// top of `acc` (the stream is built back to front) and returns the next state and `k`.
+    /// One encoder step: shifts the low `k` bits of `x` in under the pending bits (the
+    /// stream is built back to front, so they come first) and returns the next state and `k`.
     #[inline(always)]
-    fn put(x: u32, rule: &Rule, acc: &mut u64, pending: u32) -> (u32, u32) {
+    fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        let value = u64::from(x & !(u32::MAX << bits));
-        *acc |= value.wrapping_shl(64u32.wrapping_sub(pending + bits));
+        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
         let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
+    }
+    /// `2^k - 1` by `k`: a load instead of two shifts.
+    static LOW_BITS: [u32; 16] = [
+        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
+    ];
+    /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
+    /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
+    /// bits already stored, which this shifts out.
+    #[inline(always)]
+    fn aligned(acc: u64, pending: u32) -> u64 {
+        acc.wrapping_shl(64u32.wrapping_sub(pending))
     }
     /// Stores the whole bytes of the pending bits in front of `pos`.
     #[inline(always)]
     fn store(
         out: &mut [u8],
         pos: &mut usize,
-        acc: &mut u64,
+        acc: u64,
         pending: &mut u32,
     ) -> Result<(), Error> {
         let whole = (*pending >> 3) as usize;
-        let bytes = acc.to_le_bytes();
+        let bytes = aligned(acc, *pending).to_le_bytes();
         let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..))
         else {
             return Err(Error::OutputTooSmall);
@@ -1836,7 +1895,6 @@ pub mod single {
         };
         dst.copy_from_slice(top);
         *pos = start;
-        *acc = acc.wrapping_shl(whole as u32 * 8);
         *pending &= 7;
         Ok(())
     }
@@ -1851,13 +1909,13 @@ pub mod single {
         let mut state = [TABLE_LEN as u32; LANES];
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
-        let (rounds, rest) = input.as_chunks::<LANES>();
+        let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
         for (lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[symbol as usize];
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc, pending);
+            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
             state[lane % LANES] = next;
             pending += bits;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         for round in rounds.iter().rev() {
             let window = out
@@ -1865,41 +1923,41 @@ pub mod single {
                 .and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
             if let Some(window) = window {
                 let top = pos;
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    if lane % PER_FLUSH == 0 {
+                    if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
                             .saturating_sub(top.wrapping_sub(pos));
-                        window[at..at + 8].copy_from_slice(&acc.to_le_bytes());
-                        let whole = pending >> 3;
-                        pos -= whole as usize;
-                        acc <<= whole * 8;
+                        window[at..at + 8]
+                            .copy_from_slice(&aligned(acc, pending).to_le_bytes());
+                        pos -= (pending >> 3) as usize;
                         pending &= 7;
                     }
                 }
             } else {
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    store(out, &mut pos, &mut acc, &mut pending)?;
+                    store(out, &mut pos, acc, &mut pending)?;
                 }
             }
         }
         for &x in state.iter().rev() {
-            acc |= (u64::from(x) - TABLE_LEN as u64) << (64 - pending - SCALE_BITS);
+            acc = (acc << SCALE_BITS) | (u64::from(x) - TABLE_LEN as u64);
             pending += SCALE_BITS;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         let pad = (8 - pending % 8) % 8;
+        acc <<= pad;
         pending += pad;
-        store(out, &mut pos, &mut acc, &mut pending)?;
+        store(out, &mut pos, acc, &mut pending)?;
         if pos < header {
             return Err(Error::OutputTooSmall);
         }
@@ -1936,7 +1994,7 @@ pub mod single {
             *x = bits_at(payload, at) as usize & MASK;
             at += SCALE_BITS as usize;
         }
-        let (rounds, _) = out.as_chunks_mut::<LANES>();
+        let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
         let mut done = 0;
         for round in rounds.iter_mut() {
             let Some(window) = payload
@@ -1946,18 +2004,19 @@ pub mod single {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for lane in 0..LANES {
-                if lane % PER_LOAD == 0 {
+            for i in 0..DECODE_ROUND {
+                if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let step = &DECODE[state[lane] & MASK];
-                round[lane] = step.0;
+                let x = &mut state[i % LANES];
+                let step = &DECODE[*x & MASK];
+                round[i] = step.0;
                 let bits = u32::from(step.1);
-                state[lane] = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
                 at += bits as usize;
             }
-            done += LANES;
+            done += DECODE_ROUND;
         }
         for (i, slot) in out.iter_mut().enumerate().skip(done) {
             let x = &mut state[i % LANES];
@@ -2007,9 +2066,10 @@ pub mod single {
     fn bits_at(data: &[u8], at: usize) -> u64 {
         word(data, at >> 3) >> (at & 7)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
+    /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
+    /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored to
+    /// keep the shift off the critical path), and goes to position `base + b`.
+    struct Step(Symbol, u8, u16, u32);
     /// Encoding rule per symbol: from state `x` the encoder writes
     /// `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
     /// `NEXT_STATE[((x >> k) + offset) % TABLE_LEN]`.
@@ -2019,7 +2079,7 @@ pub mod single {
     }
     /// Decode steps by table position (the spread of symbols over the table).
     static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::Only, 0, 0), Step(Symbol::Only, 0, 1), // 0
+        Step(Symbol::Only, 0, 0, 0), Step(Symbol::Only, 0, 1, 0), // 0
     ];
     /// Encoding rules, indexed by symbol.
     static RULES: [Rule; 1] = [
@@ -2212,13 +2272,17 @@ pub mod five_bare {
     /// Most bits any one symbol costs.
     pub const MAX_SYMBOL_BITS: u32 = 3;
     /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
-    const PER_LOAD: usize = 1;
+    const PER_LOAD: usize = 19;
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
-    const PER_FLUSH: usize = 1;
-    /// Stream bytes one decoder round of `LANES` symbols may touch.
+    const PER_FLUSH: usize = 18;
+    /// Symbols in one decoder round (a multiple of `LANES`).
+    const DECODE_ROUND: usize = 19;
+    /// Symbols in one encoder round (a multiple of `LANES`).
+    const ENCODE_ROUND: usize = 18;
+    /// Stream bytes one decoder round may touch.
     const DECODE_WINDOW: usize = 8;
-    /// Output bytes one encoder round of `LANES` symbols may touch.
-    const ENCODE_WINDOW: usize = 9;
+    /// Output bytes one encoder round may touch.
+    const ENCODE_WINDOW: usize = 15;
     /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
     pub const fn max_encoded_len(symbols: usize) -> usize {
         let bits = symbols
@@ -2226,26 +2290,36 @@ pub mod five_bare {
             .saturating_add(LANES * SCALE_BITS as usize + 7);
         (0usize).saturating_add(bits / 8)
     }
-    /// One encoder step: puts the low `k` bits of `x` just below the `pending` bits at the
-    /// top of `acc` (the stream is built back to front) and returns the next state and `k`.
+    /// One encoder step: shifts the low `k` bits of `x` in under the pending bits (the
+    /// stream is built back to front, so they come first) and returns the next state and `k`.
     #[inline(always)]
-    fn put(x: u32, rule: &Rule, acc: &mut u64, pending: u32) -> (u32, u32) {
+    fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        let value = u64::from(x & !(u32::MAX << bits));
-        *acc |= value.wrapping_shl(64u32.wrapping_sub(pending + bits));
+        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
         let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
+    }
+    /// `2^k - 1` by `k`: a load instead of two shifts.
+    static LOW_BITS: [u32; 16] = [
+        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
+    ];
+    /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
+    /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
+    /// bits already stored, which this shifts out.
+    #[inline(always)]
+    fn aligned(acc: u64, pending: u32) -> u64 {
+        acc.wrapping_shl(64u32.wrapping_sub(pending))
     }
     /// Stores the whole bytes of the pending bits in front of `pos`.
     #[inline(always)]
     fn store(
         out: &mut [u8],
         pos: &mut usize,
-        acc: &mut u64,
+        acc: u64,
         pending: &mut u32,
     ) -> Result<(), Error> {
         let whole = (*pending >> 3) as usize;
-        let bytes = acc.to_le_bytes();
+        let bytes = aligned(acc, *pending).to_le_bytes();
         let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..))
         else {
             return Err(Error::OutputTooSmall);
@@ -2255,7 +2329,6 @@ pub mod five_bare {
         };
         dst.copy_from_slice(top);
         *pos = start;
-        *acc = acc.wrapping_shl(whole as u32 * 8);
         *pending &= 7;
         Ok(())
     }
@@ -2270,13 +2343,13 @@ pub mod five_bare {
         let mut state = [TABLE_LEN as u32; LANES];
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
-        let (rounds, rest) = input.as_chunks::<LANES>();
+        let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
         for (lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[symbol as usize];
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc, pending);
+            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
             state[lane % LANES] = next;
             pending += bits;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         for round in rounds.iter().rev() {
             let window = out
@@ -2284,41 +2357,41 @@ pub mod five_bare {
                 .and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
             if let Some(window) = window {
                 let top = pos;
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    if lane % PER_FLUSH == 0 {
+                    if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
                             .saturating_sub(top.wrapping_sub(pos));
-                        window[at..at + 8].copy_from_slice(&acc.to_le_bytes());
-                        let whole = pending >> 3;
-                        pos -= whole as usize;
-                        acc <<= whole * 8;
+                        window[at..at + 8]
+                            .copy_from_slice(&aligned(acc, pending).to_le_bytes());
+                        pos -= (pending >> 3) as usize;
                         pending &= 7;
                     }
                 }
             } else {
-                for lane in (0..LANES).rev() {
-                    let symbol = round[lane];
+                for i in (0..ENCODE_ROUND).rev() {
+                    let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[lane], rule, &mut acc, pending);
-                    state[lane] = next;
+                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
+                    state[i % LANES] = next;
                     pending += bits;
-                    store(out, &mut pos, &mut acc, &mut pending)?;
+                    store(out, &mut pos, acc, &mut pending)?;
                 }
             }
         }
         for &x in state.iter().rev() {
-            acc |= (u64::from(x) - TABLE_LEN as u64) << (64 - pending - SCALE_BITS);
+            acc = (acc << SCALE_BITS) | (u64::from(x) - TABLE_LEN as u64);
             pending += SCALE_BITS;
-            store(out, &mut pos, &mut acc, &mut pending)?;
+            store(out, &mut pos, acc, &mut pending)?;
         }
         let pad = (8 - pending % 8) % 8;
+        acc <<= pad;
         pending += pad;
-        store(out, &mut pos, &mut acc, &mut pending)?;
+        store(out, &mut pos, acc, &mut pending)?;
         if pos < header {
             return Err(Error::OutputTooSmall);
         }
@@ -2357,7 +2430,7 @@ pub mod five_bare {
             *x = bits_at(payload, at) as usize & MASK;
             at += SCALE_BITS as usize;
         }
-        let (rounds, _) = out.as_chunks_mut::<LANES>();
+        let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
         let mut done = 0;
         for round in rounds.iter_mut() {
             let Some(window) = payload
@@ -2367,18 +2440,19 @@ pub mod five_bare {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for lane in 0..LANES {
-                if lane % PER_LOAD == 0 {
+            for i in 0..DECODE_ROUND {
+                if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let step = &DECODE[state[lane] & MASK];
-                round[lane] = step.0;
+                let x = &mut state[i % LANES];
+                let step = &DECODE[*x & MASK];
+                round[i] = step.0;
                 let bits = u32::from(step.1);
-                state[lane] = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
                 at += bits as usize;
             }
-            done += LANES;
+            done += DECODE_ROUND;
         }
         for (i, slot) in out.iter_mut().enumerate().skip(done) {
             let x = &mut state[i % LANES];
@@ -2428,9 +2502,10 @@ pub mod five_bare {
     fn bits_at(data: &[u8], at: usize) -> u64 {
         word(data, at >> 3) >> (at & 7)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
+    /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
+    /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored to
+    /// keep the shift off the critical path), and goes to position `base + b`.
+    struct Step(Symbol, u8, u16, u32);
     /// Encoding rule per symbol: from state `x` the encoder writes
     /// `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
     /// `NEXT_STATE[((x >> k) + offset) % TABLE_LEN]`.
@@ -2440,14 +2515,14 @@ pub mod five_bare {
     }
     /// Decode steps by table position (the spread of symbols over the table).
     static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::E, 3, 8), Step(Symbol::A, 2, 0), Step(Symbol::B, 2, 0), Step(Symbol::C, 3, 40), Step(Symbol::D, 3, 16), Step(Symbol::E, 3, 16), Step(Symbol::A, 2, 4), Step(Symbol::B, 2, 4), // 0
-        Step(Symbol::C, 3, 48), Step(Symbol::A, 2, 8), Step(Symbol::B, 2, 8), Step(Symbol::D, 3, 24), Step(Symbol::E, 3, 24), Step(Symbol::C, 3, 56), Step(Symbol::A, 2, 12), Step(Symbol::B, 2, 12), // 8
-        Step(Symbol::A, 2, 16), Step(Symbol::B, 2, 16), Step(Symbol::C, 2, 0), Step(Symbol::D, 3, 32), Step(Symbol::E, 3, 32), Step(Symbol::A, 2, 20), Step(Symbol::B, 2, 20), Step(Symbol::C, 2, 4), // 16
-        Step(Symbol::D, 3, 40), Step(Symbol::E, 3, 40), Step(Symbol::A, 2, 24), Step(Symbol::B, 2, 24), Step(Symbol::C, 2, 8), Step(Symbol::A, 2, 28), Step(Symbol::B, 2, 28), Step(Symbol::D, 3, 48), // 24
-        Step(Symbol::E, 3, 48), Step(Symbol::C, 2, 12), Step(Symbol::A, 2, 32), Step(Symbol::B, 2, 32), Step(Symbol::A, 2, 36), Step(Symbol::B, 2, 36), Step(Symbol::C, 2, 16), Step(Symbol::D, 3, 56), // 32
-        Step(Symbol::E, 3, 56), Step(Symbol::A, 2, 40), Step(Symbol::B, 2, 40), Step(Symbol::C, 2, 20), Step(Symbol::D, 2, 0), Step(Symbol::E, 2, 0), Step(Symbol::A, 2, 44), Step(Symbol::B, 2, 44), // 40
-        Step(Symbol::C, 2, 24), Step(Symbol::A, 2, 48), Step(Symbol::B, 2, 48), Step(Symbol::D, 2, 4), Step(Symbol::E, 2, 4), Step(Symbol::C, 2, 28), Step(Symbol::A, 2, 52), Step(Symbol::B, 2, 52), // 48
-        Step(Symbol::A, 2, 56), Step(Symbol::B, 2, 56), Step(Symbol::C, 2, 32), Step(Symbol::D, 2, 8), Step(Symbol::A, 2, 60), Step(Symbol::B, 2, 60), Step(Symbol::C, 2, 36), Step(Symbol::D, 2, 12), // 56
+        Step(Symbol::E, 3, 8, 7), Step(Symbol::A, 2, 0, 3), Step(Symbol::B, 2, 0, 3), Step(Symbol::C, 3, 40, 7), Step(Symbol::D, 3, 16, 7), Step(Symbol::E, 3, 16, 7), Step(Symbol::A, 2, 4, 3), Step(Symbol::B, 2, 4, 3), // 0
+        Step(Symbol::C, 3, 48, 7), Step(Symbol::A, 2, 8, 3), Step(Symbol::B, 2, 8, 3), Step(Symbol::D, 3, 24, 7), Step(Symbol::E, 3, 24, 7), Step(Symbol::C, 3, 56, 7), Step(Symbol::A, 2, 12, 3), Step(Symbol::B, 2, 12, 3), // 8
+        Step(Symbol::A, 2, 16, 3), Step(Symbol::B, 2, 16, 3), Step(Symbol::C, 2, 0, 3), Step(Symbol::D, 3, 32, 7), Step(Symbol::E, 3, 32, 7), Step(Symbol::A, 2, 20, 3), Step(Symbol::B, 2, 20, 3), Step(Symbol::C, 2, 4, 3), // 16
+        Step(Symbol::D, 3, 40, 7), Step(Symbol::E, 3, 40, 7), Step(Symbol::A, 2, 24, 3), Step(Symbol::B, 2, 24, 3), Step(Symbol::C, 2, 8, 3), Step(Symbol::A, 2, 28, 3), Step(Symbol::B, 2, 28, 3), Step(Symbol::D, 3, 48, 7), // 24
+        Step(Symbol::E, 3, 48, 7), Step(Symbol::C, 2, 12, 3), Step(Symbol::A, 2, 32, 3), Step(Symbol::B, 2, 32, 3), Step(Symbol::A, 2, 36, 3), Step(Symbol::B, 2, 36, 3), Step(Symbol::C, 2, 16, 3), Step(Symbol::D, 3, 56, 7), // 32
+        Step(Symbol::E, 3, 56, 7), Step(Symbol::A, 2, 40, 3), Step(Symbol::B, 2, 40, 3), Step(Symbol::C, 2, 20, 3), Step(Symbol::D, 2, 0, 3), Step(Symbol::E, 2, 0, 3), Step(Symbol::A, 2, 44, 3), Step(Symbol::B, 2, 44, 3), // 40
+        Step(Symbol::C, 2, 24, 3), Step(Symbol::A, 2, 48, 3), Step(Symbol::B, 2, 48, 3), Step(Symbol::D, 2, 4, 3), Step(Symbol::E, 2, 4, 3), Step(Symbol::C, 2, 28, 3), Step(Symbol::A, 2, 52, 3), Step(Symbol::B, 2, 52, 3), // 48
+        Step(Symbol::A, 2, 56, 3), Step(Symbol::B, 2, 56, 3), Step(Symbol::C, 2, 32, 3), Step(Symbol::D, 2, 8, 3), Step(Symbol::A, 2, 60, 3), Step(Symbol::B, 2, 60, 3), Step(Symbol::C, 2, 36, 3), Step(Symbol::D, 2, 12, 3), // 56
     ];
     /// Encoding rules, indexed by symbol.
     static RULES: [Rule; 5] = [
