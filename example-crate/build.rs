@@ -1,4 +1,6 @@
-// Generates the codecs from codecs.toml into $OUT_DIR/codecs.rs at build time.
+// Generates the codecs at build time: codecs.toml into $OUT_DIR/codecs.rs (the library), and
+// bench_codecs.toml into $OUT_DIR/bench_codecs.rs (only the bench and bench-report include it).
 fn main() {
     precast::build("codecs.toml");
+    precast::build("bench_codecs.toml");
 }
