@@ -97,9 +97,19 @@ fn check<E: std::fmt::Debug + PartialEq + Copy>(c: Codec<E>) {
         let mut buf = vec![0u8; (c.max_encoded_len)(len)];
         let n = (c.encode)(&input, &mut buf).unwrap();
         let stream = &buf[..n];
-        assert_eq!(stream, &reference.encode(&index(&input))[..], "{} len {len}", c.name);
+        assert_eq!(
+            stream,
+            &reference.encode(&index(&input))[..],
+            "{} len {len}",
+            c.name
+        );
         let mut back = vec![0u8; len];
-        assert_eq!((c.decode)(stream, &mut back), Ok(len), "{} len {len}", c.name);
+        assert_eq!(
+            (c.decode)(stream, &mut back),
+            Ok(len),
+            "{} len {len}",
+            c.name
+        );
         assert_eq!(back, input, "{} len {len}", c.name);
         // The exact size fits; one byte less does not.
         let mut exact = vec![0u8; n];
@@ -122,7 +132,11 @@ fn check<E: std::fmt::Debug + PartialEq + Copy>(c: Codec<E>) {
         }
         // Bit flips: the generated decoder agrees with the reference decoder.
         let mut out = vec![0u8; len + 64];
-        let out_len = if framing == Framing::Bare { len } else { out.len() };
+        let out_len = if framing == Framing::Bare {
+            len
+        } else {
+            out.len()
+        };
         for _ in 0..40.min(n * 8) {
             let mut bad = stream.to_vec();
             let bit = rng.below(n * 8);
@@ -132,7 +146,12 @@ fn check<E: std::fmt::Debug + PartialEq + Copy>(c: Codec<E>) {
                 .decode(&bad, out_len)
                 .ok()
                 .filter(|&(_, used)| used == bad.len());
-            assert_eq!(got.is_ok(), want.is_some(), "{} len {len} bit {bit}", c.name);
+            assert_eq!(
+                got.is_ok(),
+                want.is_some(),
+                "{} len {len} bit {bit}",
+                c.name
+            );
             if let (Ok(k), Some((symbols, _))) = (got, want) {
                 assert_eq!(index(&out[..k]), symbols);
             }
@@ -158,7 +177,11 @@ fn check<E: std::fmt::Debug + PartialEq + Copy>(c: Codec<E>) {
     let mut buf = vec![0u8; (c.max_encoded_len)(text.len())];
     let n = (c.encode)(&text, &mut buf).unwrap();
     let bound = text.len() as f64 * built.report.entropy / 8.0;
-    eprintln!("{}: {n} bytes for {} symbols, bound {bound:.1}", c.name, text.len());
+    eprintln!(
+        "{}: {n} bytes for {} symbols, bound {bound:.1}",
+        c.name,
+        text.len()
+    );
     assert!(
         (n as f64) < bound * 1.01 + 8.0 + 4.0 * f64::from(lanes),
         "{}: {n} bytes against a bound of {bound:.1}",
@@ -226,7 +249,10 @@ fn token_codecs_round_trip_and_match_the_reference() {
     let reference = Reference::framed(&b.tables, b.fingerprint, framing, lanes);
     for len in [0usize, 1, 2, 3, 999, 20_000] {
         let idx: Vec<u16> = (0..len).map(|_| rng.weighted(&[90, 10]) as u16).collect();
-        let input: Vec<_> = idx.iter().map(|&i| skewed_rans_l2::ALL[usize::from(i)]).collect();
+        let input: Vec<_> = idx
+            .iter()
+            .map(|&i| skewed_rans_l2::ALL[usize::from(i)])
+            .collect();
         let mut buf = vec![0u8; skewed_rans_l2::max_encoded_len(len)];
         let n = skewed_rans_l2::encode(&input, &mut buf).unwrap();
         assert_eq!(buf[..n], reference.encode(&idx)[..]);
@@ -245,7 +271,10 @@ fn token_codecs_round_trip_and_match_the_reference() {
         let idx: Vec<u16> = (0..len)
             .map(|_| rng.weighted(&b.model.counts) as u16)
             .collect();
-        let input: Vec<_> = idx.iter().map(|&i| five_rans_search::ALL[usize::from(i)]).collect();
+        let input: Vec<_> = idx
+            .iter()
+            .map(|&i| five_rans_search::ALL[usize::from(i)])
+            .collect();
         let mut buf = vec![0u8; five_rans_search::max_encoded_len(len)];
         let n = five_rans_search::encode(&input, &mut buf).unwrap();
         assert_eq!(buf[..n], reference.encode(&idx)[..]);

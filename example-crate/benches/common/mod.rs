@@ -243,50 +243,48 @@ macro_rules! codec_list {
     };
 }
 
-// The one list of bench codecs: module: dataset kind method lanes. Lines starting `//~` need
-// `method = "rans"` or `lanes`; enable them with bench_codecs.toml's pending block (see its
-// header for the two commands).
+// The one list of bench codecs: module: dataset kind method lanes.
 codec_list! {
     skew16_tans_l1: Skew16 bytes "tans" 1;
-    //~ skew16_tans_l2: Skew16 bytes "tans" 2;
-    //~ skew16_tans_l4: Skew16 bytes "tans" 4;
-    //~ skew16_tans_l8: Skew16 bytes "tans" 8;
-    //~ skew16_rans_l1: Skew16 bytes "rans" 1;
-    //~ skew16_rans_l2: Skew16 bytes "rans" 2;
-    //~ skew16_rans_l4: Skew16 bytes "rans" 4;
-    //~ skew16_rans_l8: Skew16 bytes "rans" 8;
+    skew16_tans_l2: Skew16 bytes "tans" 2;
+    skew16_tans_l4: Skew16 bytes "tans" 4;
+    skew16_tans_l8: Skew16 bytes "tans" 8;
+    skew16_rans_l1: Skew16 bytes "rans" 1;
+    skew16_rans_l2: Skew16 bytes "rans" 2;
+    skew16_rans_l4: Skew16 bytes "rans" 4;
+    skew16_rans_l8: Skew16 bytes "rans" 8;
     quad_tans_l1: Quad bytes "tans" 1;
-    //~ quad_tans_l2: Quad bytes "tans" 2;
-    //~ quad_tans_l4: Quad bytes "tans" 4;
-    //~ quad_tans_l8: Quad bytes "tans" 8;
-    //~ quad_rans_l1: Quad bytes "rans" 1;
-    //~ quad_rans_l2: Quad bytes "rans" 2;
-    //~ quad_rans_l4: Quad bytes "rans" 4;
-    //~ quad_rans_l8: Quad bytes "rans" 8;
+    quad_tans_l2: Quad bytes "tans" 2;
+    quad_tans_l4: Quad bytes "tans" 4;
+    quad_tans_l8: Quad bytes "tans" 8;
+    quad_rans_l1: Quad bytes "rans" 1;
+    quad_rans_l2: Quad bytes "rans" 2;
+    quad_rans_l4: Quad bytes "rans" 4;
+    quad_rans_l8: Quad bytes "rans" 8;
     gauge_status_tans_l1: GaugeStatus tokens "tans" 1;
-    //~ gauge_status_tans_l2: GaugeStatus tokens "tans" 2;
-    //~ gauge_status_tans_l4: GaugeStatus tokens "tans" 4;
-    //~ gauge_status_tans_l8: GaugeStatus tokens "tans" 8;
-    //~ gauge_status_rans_l1: GaugeStatus tokens "rans" 1;
-    //~ gauge_status_rans_l2: GaugeStatus tokens "rans" 2;
-    //~ gauge_status_rans_l4: GaugeStatus tokens "rans" 4;
-    //~ gauge_status_rans_l8: GaugeStatus tokens "rans" 8;
+    gauge_status_tans_l2: GaugeStatus tokens "tans" 2;
+    gauge_status_tans_l4: GaugeStatus tokens "tans" 4;
+    gauge_status_tans_l8: GaugeStatus tokens "tans" 8;
+    gauge_status_rans_l1: GaugeStatus tokens "rans" 1;
+    gauge_status_rans_l2: GaugeStatus tokens "rans" 2;
+    gauge_status_rans_l4: GaugeStatus tokens "rans" 4;
+    gauge_status_rans_l8: GaugeStatus tokens "rans" 8;
     level_delta_tans_l1: LevelDelta bytes "tans" 1;
-    //~ level_delta_tans_l2: LevelDelta bytes "tans" 2;
-    //~ level_delta_tans_l4: LevelDelta bytes "tans" 4;
-    //~ level_delta_tans_l8: LevelDelta bytes "tans" 8;
-    //~ level_delta_rans_l1: LevelDelta bytes "rans" 1;
-    //~ level_delta_rans_l2: LevelDelta bytes "rans" 2;
-    //~ level_delta_rans_l4: LevelDelta bytes "rans" 4;
-    //~ level_delta_rans_l8: LevelDelta bytes "rans" 8;
+    level_delta_tans_l2: LevelDelta bytes "tans" 2;
+    level_delta_tans_l4: LevelDelta bytes "tans" 4;
+    level_delta_tans_l8: LevelDelta bytes "tans" 8;
+    level_delta_rans_l1: LevelDelta bytes "rans" 1;
+    level_delta_rans_l2: LevelDelta bytes "rans" 2;
+    level_delta_rans_l4: LevelDelta bytes "rans" 4;
+    level_delta_rans_l8: LevelDelta bytes "rans" 8;
     field_notes_tans_l1: FieldNotes bytes "tans" 1;
-    //~ field_notes_tans_l2: FieldNotes bytes "tans" 2;
-    //~ field_notes_tans_l4: FieldNotes bytes "tans" 4;
-    //~ field_notes_tans_l8: FieldNotes bytes "tans" 8;
-    //~ field_notes_rans_l1: FieldNotes bytes "rans" 1;
-    //~ field_notes_rans_l2: FieldNotes bytes "rans" 2;
-    //~ field_notes_rans_l4: FieldNotes bytes "rans" 4;
-    //~ field_notes_rans_l8: FieldNotes bytes "rans" 8;
+    field_notes_tans_l2: FieldNotes bytes "tans" 2;
+    field_notes_tans_l4: FieldNotes bytes "tans" 4;
+    field_notes_tans_l8: FieldNotes bytes "tans" 8;
+    field_notes_rans_l1: FieldNotes bytes "rans" 1;
+    field_notes_rans_l2: FieldNotes bytes "rans" 2;
+    field_notes_rans_l4: FieldNotes bytes "rans" 4;
+    field_notes_rans_l8: FieldNotes bytes "rans" 8;
 }
 
 /// miniz_oxide raw deflate with the Huffman-only strategy (no match search), compressor and
