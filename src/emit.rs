@@ -522,7 +522,7 @@ fn tans_body(
     let max = max_bits_value as usize;
     let per_load = (57 / max).max(1);
     let per_flush = (56 / max).max(1);
-    let decode_round = (per_load / lanes).max(1) * lanes;
+    let decode_round = 8usize.max(lanes);
     let encode_round = (per_flush / lanes).max(1) * lanes;
     let last_load = (decode_round - 1) / per_load * per_load;
     let decode_window = 8 + (7 + last_load * max) / 8;
@@ -638,15 +638,12 @@ fn tans_body(
         #[inline(always)]
         fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
             let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-            *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
-            let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
+            let high = x >> bits;
+            // The low bits as `x` minus its high part: no mask to build.
+            *acc = (*acc << bits) | u64::from(x ^ (high << bits));
+            let next = NEXT_STATE[(high as usize + usize::from(rule.offset)) & MASK];
             (u32::from(next), bits)
         }
-
-        /// `2^k - 1` by `k`: a load instead of two shifts.
-        static LOW_BITS: [u32; 16] = [
-            0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
-        ];
 
         /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
         /// little-endian bytes end with the whole bytes to store. Above them `acc` holds

@@ -164,11 +164,11 @@ pub mod mit_text {
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
     const PER_FLUSH: usize = 6;
     /// Symbols in one decoder round (a multiple of `LANES`).
-    const DECODE_ROUND: usize = 6;
+    const DECODE_ROUND: usize = 8;
     /// Symbols in one encoder round (a multiple of `LANES`).
     const ENCODE_ROUND: usize = 6;
     /// Stream bytes one decoder round may touch.
-    const DECODE_WINDOW: usize = 8;
+    const DECODE_WINDOW: usize = 15;
     /// Output bytes one encoder round may touch.
     const ENCODE_WINDOW: usize = 15;
     /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
@@ -183,14 +183,11 @@ pub mod mit_text {
     #[inline(always)]
     fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
-        let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
+        let high = x >> bits;
+        *acc = (*acc << bits) | u64::from(x ^ (high << bits));
+        let next = NEXT_STATE[(high as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
     }
-    /// `2^k - 1` by `k`: a load instead of two shifts.
-    static LOW_BITS: [u32; 16] = [
-        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
-    ];
     /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
     /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
     /// bits already stored, which this shifts out.
@@ -968,7 +965,7 @@ pub mod five {
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
     const PER_FLUSH: usize = 18;
     /// Symbols in one decoder round (a multiple of `LANES`).
-    const DECODE_ROUND: usize = 19;
+    const DECODE_ROUND: usize = 8;
     /// Symbols in one encoder round (a multiple of `LANES`).
     const ENCODE_ROUND: usize = 18;
     /// Stream bytes one decoder round may touch.
@@ -987,14 +984,11 @@ pub mod five {
     #[inline(always)]
     fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
-        let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
+        let high = x >> bits;
+        *acc = (*acc << bits) | u64::from(x ^ (high << bits));
+        let next = NEXT_STATE[(high as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
     }
-    /// `2^k - 1` by `k`: a load instead of two shifts.
-    static LOW_BITS: [u32; 16] = [
-        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
-    ];
     /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
     /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
     /// bits already stored, which this shifts out.
@@ -1403,7 +1397,7 @@ pub mod skewed {
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
     const PER_FLUSH: usize = 14;
     /// Symbols in one decoder round (a multiple of `LANES`).
-    const DECODE_ROUND: usize = 14;
+    const DECODE_ROUND: usize = 8;
     /// Symbols in one encoder round (a multiple of `LANES`).
     const ENCODE_ROUND: usize = 14;
     /// Stream bytes one decoder round may touch.
@@ -1422,14 +1416,11 @@ pub mod skewed {
     #[inline(always)]
     fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
-        let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
+        let high = x >> bits;
+        *acc = (*acc << bits) | u64::from(x ^ (high << bits));
+        let next = NEXT_STATE[(high as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
     }
-    /// `2^k - 1` by `k`: a load instead of two shifts.
-    static LOW_BITS: [u32; 16] = [
-        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
-    ];
     /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
     /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
     /// bits already stored, which this shifts out.
@@ -1842,7 +1833,7 @@ pub mod single {
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
     const PER_FLUSH: usize = 56;
     /// Symbols in one decoder round (a multiple of `LANES`).
-    const DECODE_ROUND: usize = 57;
+    const DECODE_ROUND: usize = 8;
     /// Symbols in one encoder round (a multiple of `LANES`).
     const ENCODE_ROUND: usize = 56;
     /// Stream bytes one decoder round may touch.
@@ -1861,14 +1852,11 @@ pub mod single {
     #[inline(always)]
     fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
-        let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
+        let high = x >> bits;
+        *acc = (*acc << bits) | u64::from(x ^ (high << bits));
+        let next = NEXT_STATE[(high as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
     }
-    /// `2^k - 1` by `k`: a load instead of two shifts.
-    static LOW_BITS: [u32; 16] = [
-        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
-    ];
     /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
     /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
     /// bits already stored, which this shifts out.
@@ -2276,7 +2264,7 @@ pub mod five_bare {
     /// Symbols encoded between two stores (fewer than 64 bits stay pending).
     const PER_FLUSH: usize = 18;
     /// Symbols in one decoder round (a multiple of `LANES`).
-    const DECODE_ROUND: usize = 19;
+    const DECODE_ROUND: usize = 8;
     /// Symbols in one encoder round (a multiple of `LANES`).
     const ENCODE_ROUND: usize = 18;
     /// Stream bytes one decoder round may touch.
@@ -2295,14 +2283,11 @@ pub mod five_bare {
     #[inline(always)]
     fn put(x: u32, rule: &Rule, acc: &mut u64) -> (u32, u32) {
         let bits = x.wrapping_add(rule.bias) >> (SCALE_BITS + 1);
-        *acc = (*acc << bits) | u64::from(x & LOW_BITS[bits as usize & 15]);
-        let next = NEXT_STATE[((x >> bits) as usize + usize::from(rule.offset)) & MASK];
+        let high = x >> bits;
+        *acc = (*acc << bits) | u64::from(x ^ (high << bits));
+        let next = NEXT_STATE[(high as usize + usize::from(rule.offset)) & MASK];
         (u32::from(next), bits)
     }
-    /// `2^k - 1` by `k`: a load instead of two shifts.
-    static LOW_BITS: [u32; 16] = [
-        0, 1, 3, 7, 15, 31, 63, 127, 255, 511, 1023, 2047, 4095, 8191, 16383, 32767,
-    ];
     /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
     /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
     /// bits already stored, which this shifts out.
