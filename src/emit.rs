@@ -451,6 +451,15 @@ fn common(shape: &Shape) -> Common {
     }
 }
 
+/// The lane of symbol `i` (and of `lane` in a partial round): plain `0` with one lane.
+fn lane_tokens(lanes: usize) -> (TokenStream, TokenStream) {
+    if lanes == 1 {
+        (quote!(0), quote!(0))
+    } else {
+        (quote!(i % LANES), quote!(lane % LANES))
+    }
+}
+
 /// Encoding rows: 256 for bytes (absent bytes get a harmless copy flagged `absent`), one per
 /// token otherwise.
 fn rule_rows(
@@ -516,6 +525,12 @@ fn tans_body(
     let max_bits_value = u32::from(tans.decode.iter().map(|e| e.bits).max().unwrap_or(0)).max(1);
     let max_bits = Literal::u32_unsuffixed(max_bits_value);
     let lanes = shape.lanes;
+    let (lane_i, lane_rest) = lane_tokens(lanes);
+    let (tail_i, tail_lane) = if lanes == 1 {
+        (quote!(_i), quote!(_lane))
+    } else {
+        (quote!(i), quote!(lane))
+    };
     // One 64-bit load holds at least 57 unread bits; flushing keeps fewer than 64 pending.
     // A round is a whole number of symbols per lane: as many as one load (one store) covers,
     // or one per lane when that is more.
@@ -525,8 +540,11 @@ fn tans_body(
     let decode_round = 8usize.max(lanes);
     let encode_round = (per_flush / lanes).max(1) * lanes;
     let last_load = (decode_round - 1) / per_load * per_load;
-    let decode_window = 8 + (7 + last_load * max) / 8;
-    let encode_window = 8 + (7 + encode_round * max) / 8;
+    let decode_window = 8 + (last_load * max).div_ceil(8);
+    let encode_window = 8 + (encode_round * max).div_ceil(8);
+    // Literal conditions where the modulus is 1 (clippy's modulo_one in the user's crate).
+    let load_here = if per_load == 1 { quote!(true) } else { quote!(i % PER_LOAD == 0) };
+    let flush_here = if per_flush == 1 { quote!(true) } else { quote!(i % PER_FLUSH == 0) };
     let per_load = Literal::usize_unsuffixed(per_load);
     let per_flush = Literal::usize_unsuffixed(per_flush);
     let decode_round = Literal::usize_unsuffixed(decode_round);
@@ -593,7 +611,7 @@ fn tans_body(
         quote! {
             // The padding count must make the stream end on a byte boundary: one stream,
             // one encoding.
-            if at % 8 != 0 {
+            if !at.is_multiple_of(8) {
                 return Err(Error::Corrupt);
             }
         }
@@ -685,11 +703,11 @@ fn tans_body(
             #absent_decl
             // Symbols go in backwards, so the last, partial round comes first.
             let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
-            for (lane, &symbol) in rest.iter().enumerate().rev() {
+            for (#tail_lane, &symbol) in rest.iter().enumerate().rev() {
                 let rule = &RULES[#rule_index];
                 #absent_check
-                let (next, bits) = put(state[lane % LANES], rule, &mut acc);
-                state[lane % LANES] = next;
+                let (next, bits) = put(state[#lane_rest], rule, &mut acc);
+                state[#lane_rest] = next;
                 pending += bits;
                 store(out, &mut pos, acc, &mut pending)?;
             }
@@ -702,10 +720,10 @@ fn tans_body(
                         let symbol = round[i];
                         let rule = &RULES[#rule_index];
                         #absent_check
-                        let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                        state[i % LANES] = next;
+                        let (next, bits) = put(state[#lane_i], rule, &mut acc);
+                        state[#lane_i] = next;
                         pending += bits;
-                        if i % PER_FLUSH == 0 {
+                        if #flush_here {
                             let at = (ENCODE_WINDOW - 8).saturating_sub(top.wrapping_sub(pos));
                             window[at..at + 8].copy_from_slice(&aligned(acc, pending).to_le_bytes());
                             pos -= (pending >> 3) as usize;
@@ -717,8 +735,8 @@ fn tans_body(
                         let symbol = round[i];
                         let rule = &RULES[#rule_index];
                         #absent_check
-                        let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                        state[i % LANES] = next;
+                        let (next, bits) = put(state[#lane_i], rule, &mut acc);
+                        state[#lane_i] = next;
                         pending += bits;
                         store(out, &mut pos, acc, &mut pending)?;
                     }
@@ -767,13 +785,13 @@ fn tans_body(
                 // Fast path: every read lands in `window`, no other check needed.
                 let first = at >> 3;
                 let mut buf = 0u64;
-                for i in 0..DECODE_ROUND {
-                    if i % PER_LOAD == 0 {
+                for (i, slot) in round.iter_mut().enumerate() {
+                    if #load_here {
                         buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                     }
-                    let x = &mut state[i % LANES];
+                    let x = &mut state[#lane_i];
                     let step = &DECODE[*x & MASK];
-                    round[i] = step.0;
+                    *slot = step.0;
                     let bits = u32::from(step.1);
                     *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                     buf >>= bits;
@@ -781,8 +799,8 @@ fn tans_body(
                 }
                 done += DECODE_ROUND;
             }
-            for (i, slot) in out.iter_mut().enumerate().skip(done) {
-                let x = &mut state[i % LANES];
+            for (#tail_i, slot) in out.iter_mut().enumerate().skip(done) {
+                let x = &mut state[#lane_i];
                 let step = &DECODE[*x & MASK];
                 *slot = step.0;
                 let bits = u32::from(step.1);
@@ -879,6 +897,12 @@ fn rans_body(
         absent_after,
     } = c;
     let lanes = shape.lanes;
+    let (lane_i, lane_rest) = lane_tokens(lanes);
+    let (tail_i, tail_lane) = if lanes == 1 {
+        (quote!(_i), quote!(_lane))
+    } else {
+        (quote!(i), quote!(lane))
+    };
     let state_bytes = Literal::usize_unsuffixed(4 * lanes);
     let window = Literal::usize_unsuffixed(2 * lanes);
     let ph = |table: &str| format!("__precast_rows_{index}_{table}");
@@ -1053,11 +1077,11 @@ fn rans_body(
             #absent_decl
             // Symbols go in backwards, so the last, partial round comes first.
             let (rounds, rest) = input.as_chunks::<LANES>();
-            for (lane, &symbol) in rest.iter().enumerate().rev() {
+            for (#tail_lane, &symbol) in rest.iter().enumerate().rev() {
                 let rule = &RULES[#rule_index];
                 #absent_check
-                let x = shed(state[lane % LANES], rule, out, &mut pos)?;
-                state[lane % LANES] = put(x, rule);
+                let x = shed(state[#lane_rest], rule, out, &mut pos)?;
+                state[#lane_rest] = put(x, rule);
             }
             for round in rounds.iter().rev() {
                 let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<#window>);
@@ -1142,9 +1166,7 @@ fn rans_body(
                     let (symbol, f, offset) = lookup(x as usize);
                     round[lane] = symbol;
                     let x = f.wrapping_mul(x >> SCALE_BITS).wrapping_add(offset);
-                    let i = at.wrapping_sub(first);
-                    let i = if i < 2 * LANES - 2 { i } else { 2 * LANES - 2 };
-                    let w = u32::from(u16::from_le_bytes([window[i], window[i + 1]]));
+                    let w = window_half(window, at.wrapping_sub(first));
                     // Branch-free refill: shift in the word when the state fell below LOW.
                     let need = u32::from(x < LOW);
                     state[lane] = (x << (need << 4)) | (w & need.wrapping_neg());
@@ -1152,8 +1174,8 @@ fn rans_body(
                 }
                 done += LANES;
             }
-            for (i, slot) in out.iter_mut().enumerate().skip(done) {
-                let x = &mut state[i % LANES];
+            for (#tail_i, slot) in out.iter_mut().enumerate().skip(done) {
+                let x = &mut state[#lane_i];
                 let (symbol, f, offset) = lookup(*x as usize);
                 *slot = symbol;
                 let y = f.wrapping_mul(*x >> SCALE_BITS).wrapping_add(offset);
@@ -1174,6 +1196,14 @@ fn rans_body(
         }
 
         #word_fn
+
+        /// Two bytes of `window` from `at` on, little-endian. The rounds never read past
+        /// `N - 2`; the `min` only lets the compiler see it and drop the bounds check.
+        #[inline(always)]
+        fn window_half<const N: usize>(window: &[u8; N], at: usize) -> u32 {
+            let at = if at < N - 2 { at } else { N - 2 };
+            u32::from(u16::from_le_bytes([window[at], window[at + 1]]))
+        }
 
         #lookup
 

@@ -125,9 +125,9 @@ pub struct RansRule {
 /// `floor(x / f) = (x * r) >> (32 + s) = (x + (x * m >> 32)) >> s` in 64-bit arithmetic.
 /// Exact for all `x < 2^32` because `r * f - 2^(32+s) < f <= 2^s`.
 pub fn reciprocal(f: u32) -> (u32, u32) {
-    assert!(f >= 1 && f <= 1 << 16, "frequency out of range");
+    assert!((1..=1 << 16).contains(&f), "frequency out of range");
     let s = 32 - (f - 1).leading_zeros();
-    let r = ((1u128 << (32 + s)) + u128::from(f) - 1) / u128::from(f);
+    let r = (1u128 << (32 + s)).div_ceil(u128::from(f));
     ((r - (1u128 << 32)) as u32, s)
 }
 

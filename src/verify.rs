@@ -317,7 +317,7 @@ impl<'a> Reference<'a> {
             return Err(StreamError::Corrupt);
         }
         // Bare streams end in zero padding up to the byte boundary; tagged ones exactly on it.
-        if self.bare && (at..at.div_ceil(8) * 8).any(bit) || !self.bare && at % 8 != 0 {
+        if self.bare && (at..at.div_ceil(8) * 8).any(bit) || !self.bare && !at.is_multiple_of(8) {
             return Err(StreamError::Corrupt);
         }
         Ok((out, pos + at.div_ceil(8)))

@@ -201,7 +201,7 @@ impl Gauge {
             Status::DebrisAlert
         } else if visiting && rng.chance(0.5) {
             Status::Calibrating
-        } else if self.drifty && r % 4 == 0 && rng.chance(0.14) {
+        } else if self.drifty && r.is_multiple_of(4) && rng.chance(0.14) {
             Status::ClockDrift
         } else if rng.chance(if self.raining(r) { 0.25 } else { 0.017 }) {
             self.retries += 1;

@@ -230,11 +230,11 @@ pub mod mit_text {
         let mut pending: u32 = 0;
         let mut absent: u8 = 0;
         let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
-        for (lane, &symbol) in rest.iter().enumerate().rev() {
+        for (_lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[usize::from(symbol)];
             absent |= rule.absent;
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
-            state[lane % LANES] = next;
+            let (next, bits) = put(state[0], rule, &mut acc);
+            state[0] = next;
             pending += bits;
             store(out, &mut pos, acc, &mut pending)?;
         }
@@ -248,8 +248,8 @@ pub mod mit_text {
                     let symbol = round[i];
                     let rule = &RULES[usize::from(symbol)];
                     absent |= rule.absent;
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
@@ -265,8 +265,8 @@ pub mod mit_text {
                     let symbol = round[i];
                     let rule = &RULES[usize::from(symbol)];
                     absent |= rule.absent;
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     store(out, &mut pos, acc, &mut pending)?;
                 }
@@ -334,13 +334,13 @@ pub mod mit_text {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for i in 0..DECODE_ROUND {
+            for (i, slot) in round.iter_mut().enumerate() {
                 if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let x = &mut state[i % LANES];
+                let x = &mut state[0];
                 let step = &DECODE[*x & MASK];
-                round[i] = step.0;
+                *slot = step.0;
                 let bits = u32::from(step.1);
                 *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
@@ -348,8 +348,8 @@ pub mod mit_text {
             }
             done += DECODE_ROUND;
         }
-        for (i, slot) in out.iter_mut().enumerate().skip(done) {
-            let x = &mut state[i % LANES];
+        for (_i, slot) in out.iter_mut().enumerate().skip(done) {
+            let x = &mut state[0];
             let step = &DECODE[*x & MASK];
             *slot = step.0;
             let bits = u32::from(step.1);
@@ -363,7 +363,7 @@ pub mod mit_text {
         if state.iter().any(|&x| x != 0) {
             return Err(Error::Corrupt);
         }
-        if at % 8 != 0 {
+        if !at.is_multiple_of(8) {
             return Err(Error::Corrupt);
         }
         Ok((count, header + at.div_ceil(8)))
@@ -1030,10 +1030,10 @@ pub mod five {
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
         let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
-        for (lane, &symbol) in rest.iter().enumerate().rev() {
+        for (_lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[symbol as usize];
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
-            state[lane % LANES] = next;
+            let (next, bits) = put(state[0], rule, &mut acc);
+            state[0] = next;
             pending += bits;
             store(out, &mut pos, acc, &mut pending)?;
         }
@@ -1046,8 +1046,8 @@ pub mod five {
                 for i in (0..ENCODE_ROUND).rev() {
                     let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
@@ -1062,8 +1062,8 @@ pub mod five {
                 for i in (0..ENCODE_ROUND).rev() {
                     let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     store(out, &mut pos, acc, &mut pending)?;
                 }
@@ -1124,13 +1124,13 @@ pub mod five {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for i in 0..DECODE_ROUND {
+            for (i, slot) in round.iter_mut().enumerate() {
                 if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let x = &mut state[i % LANES];
+                let x = &mut state[0];
                 let step = &DECODE[*x & MASK];
-                round[i] = step.0;
+                *slot = step.0;
                 let bits = u32::from(step.1);
                 *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
@@ -1138,8 +1138,8 @@ pub mod five {
             }
             done += DECODE_ROUND;
         }
-        for (i, slot) in out.iter_mut().enumerate().skip(done) {
-            let x = &mut state[i % LANES];
+        for (_i, slot) in out.iter_mut().enumerate().skip(done) {
+            let x = &mut state[0];
             let step = &DECODE[*x & MASK];
             *slot = step.0;
             let bits = u32::from(step.1);
@@ -1153,7 +1153,7 @@ pub mod five {
         if state.iter().any(|&x| x != 0) {
             return Err(Error::Corrupt);
         }
-        if at % 8 != 0 {
+        if !at.is_multiple_of(8) {
             return Err(Error::Corrupt);
         }
         Ok((count, header + at.div_ceil(8)))
@@ -1462,10 +1462,10 @@ pub mod skewed {
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
         let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
-        for (lane, &symbol) in rest.iter().enumerate().rev() {
+        for (_lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[symbol as usize];
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
-            state[lane % LANES] = next;
+            let (next, bits) = put(state[0], rule, &mut acc);
+            state[0] = next;
             pending += bits;
             store(out, &mut pos, acc, &mut pending)?;
         }
@@ -1478,8 +1478,8 @@ pub mod skewed {
                 for i in (0..ENCODE_ROUND).rev() {
                     let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
@@ -1494,8 +1494,8 @@ pub mod skewed {
                 for i in (0..ENCODE_ROUND).rev() {
                     let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     store(out, &mut pos, acc, &mut pending)?;
                 }
@@ -1556,13 +1556,13 @@ pub mod skewed {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for i in 0..DECODE_ROUND {
+            for (i, slot) in round.iter_mut().enumerate() {
                 if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let x = &mut state[i % LANES];
+                let x = &mut state[0];
                 let step = &DECODE[*x & MASK];
-                round[i] = step.0;
+                *slot = step.0;
                 let bits = u32::from(step.1);
                 *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
@@ -1570,8 +1570,8 @@ pub mod skewed {
             }
             done += DECODE_ROUND;
         }
-        for (i, slot) in out.iter_mut().enumerate().skip(done) {
-            let x = &mut state[i % LANES];
+        for (_i, slot) in out.iter_mut().enumerate().skip(done) {
+            let x = &mut state[0];
             let step = &DECODE[*x & MASK];
             *slot = step.0;
             let bits = u32::from(step.1);
@@ -1585,7 +1585,7 @@ pub mod skewed {
         if state.iter().any(|&x| x != 0) {
             return Err(Error::Corrupt);
         }
-        if at % 8 != 0 {
+        if !at.is_multiple_of(8) {
             return Err(Error::Corrupt);
         }
         Ok((count, header + at.div_ceil(8)))
@@ -1898,10 +1898,10 @@ pub mod single {
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
         let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
-        for (lane, &symbol) in rest.iter().enumerate().rev() {
+        for (_lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[symbol as usize];
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
-            state[lane % LANES] = next;
+            let (next, bits) = put(state[0], rule, &mut acc);
+            state[0] = next;
             pending += bits;
             store(out, &mut pos, acc, &mut pending)?;
         }
@@ -1914,8 +1914,8 @@ pub mod single {
                 for i in (0..ENCODE_ROUND).rev() {
                     let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
@@ -1930,8 +1930,8 @@ pub mod single {
                 for i in (0..ENCODE_ROUND).rev() {
                     let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     store(out, &mut pos, acc, &mut pending)?;
                 }
@@ -1992,13 +1992,13 @@ pub mod single {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for i in 0..DECODE_ROUND {
+            for (i, slot) in round.iter_mut().enumerate() {
                 if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let x = &mut state[i % LANES];
+                let x = &mut state[0];
                 let step = &DECODE[*x & MASK];
-                round[i] = step.0;
+                *slot = step.0;
                 let bits = u32::from(step.1);
                 *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
@@ -2006,8 +2006,8 @@ pub mod single {
             }
             done += DECODE_ROUND;
         }
-        for (i, slot) in out.iter_mut().enumerate().skip(done) {
-            let x = &mut state[i % LANES];
+        for (_i, slot) in out.iter_mut().enumerate().skip(done) {
+            let x = &mut state[0];
             let step = &DECODE[*x & MASK];
             *slot = step.0;
             let bits = u32::from(step.1);
@@ -2021,7 +2021,7 @@ pub mod single {
         if state.iter().any(|&x| x != 0) {
             return Err(Error::Corrupt);
         }
-        if at % 8 != 0 {
+        if !at.is_multiple_of(8) {
             return Err(Error::Corrupt);
         }
         Ok((count, header + at.div_ceil(8)))
@@ -2329,10 +2329,10 @@ pub mod five_bare {
         let mut acc: u64 = 0;
         let mut pending: u32 = 0;
         let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
-        for (lane, &symbol) in rest.iter().enumerate().rev() {
+        for (_lane, &symbol) in rest.iter().enumerate().rev() {
             let rule = &RULES[symbol as usize];
-            let (next, bits) = put(state[lane % LANES], rule, &mut acc);
-            state[lane % LANES] = next;
+            let (next, bits) = put(state[0], rule, &mut acc);
+            state[0] = next;
             pending += bits;
             store(out, &mut pos, acc, &mut pending)?;
         }
@@ -2345,8 +2345,8 @@ pub mod five_bare {
                 for i in (0..ENCODE_ROUND).rev() {
                     let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     if i % PER_FLUSH == 0 {
                         let at = (ENCODE_WINDOW - 8)
@@ -2361,8 +2361,8 @@ pub mod five_bare {
                 for i in (0..ENCODE_ROUND).rev() {
                     let symbol = round[i];
                     let rule = &RULES[symbol as usize];
-                    let (next, bits) = put(state[i % LANES], rule, &mut acc);
-                    state[i % LANES] = next;
+                    let (next, bits) = put(state[0], rule, &mut acc);
+                    state[0] = next;
                     pending += bits;
                     store(out, &mut pos, acc, &mut pending)?;
                 }
@@ -2425,13 +2425,13 @@ pub mod five_bare {
             };
             let first = at >> 3;
             let mut buf = 0u64;
-            for i in 0..DECODE_ROUND {
+            for (i, slot) in round.iter_mut().enumerate() {
                 if i % PER_LOAD == 0 {
                     buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                 }
-                let x = &mut state[i % LANES];
+                let x = &mut state[0];
                 let step = &DECODE[*x & MASK];
-                round[i] = step.0;
+                *slot = step.0;
                 let bits = u32::from(step.1);
                 *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
                 buf >>= bits;
@@ -2439,8 +2439,8 @@ pub mod five_bare {
             }
             done += DECODE_ROUND;
         }
-        for (i, slot) in out.iter_mut().enumerate().skip(done) {
-            let x = &mut state[i % LANES];
+        for (_i, slot) in out.iter_mut().enumerate().skip(done) {
+            let x = &mut state[0];
             let step = &DECODE[*x & MASK];
             *slot = step.0;
             let bits = u32::from(step.1);
