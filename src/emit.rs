@@ -543,8 +543,16 @@ fn tans_body(
     let decode_window = 8 + (last_load * max).div_ceil(8);
     let encode_window = 8 + (encode_round * max).div_ceil(8);
     // Literal conditions where the modulus is 1 (clippy's modulo_one in the user's crate).
-    let load_here = if per_load == 1 { quote!(true) } else { quote!(i % PER_LOAD == 0) };
-    let flush_here = if per_flush == 1 { quote!(true) } else { quote!(i % PER_FLUSH == 0) };
+    let load_here = if per_load == 1 {
+        quote!(true)
+    } else {
+        quote!(i % PER_LOAD == 0)
+    };
+    let flush_here = if per_flush == 1 {
+        quote!(true)
+    } else {
+        quote!(i % PER_FLUSH == 0)
+    };
     let per_load = Literal::usize_unsuffixed(per_load);
     let per_flush = Literal::usize_unsuffixed(per_flush);
     let decode_round = Literal::usize_unsuffixed(decode_round);

@@ -161,3 +161,30 @@ fn garbage_specs_never_panic() {
         bytes[i] = old;
     }
 }
+
+#[test]
+fn lanes_and_lookup_are_checked() {
+    let base =
+        "[codec.a]\nkind = \"tokens\"\nsymbols = [\"x\", \"y\"]\ncounts = { x = 1, y = 2 }\n";
+    let msg = err(&format!("{base}lanes = 3\n"));
+    assert!(msg.starts_with("codecs.toml:5:9:"), "{msg}");
+    assert!(
+        msg.contains("lanes = 3") && msg.contains("1, 2, 4 or 8"),
+        "{msg}"
+    );
+    let msg = err(&format!("{base}symbol_lookup = \"search\"\n"));
+    assert!(msg.starts_with("codecs.toml:5:17:"), "{msg}");
+    assert!(msg.contains("rans"), "{msg}");
+    let msg = err(&format!(
+        "{base}method = \"rans\"\nsymbol_lookup = \"bisect\"\n"
+    ));
+    assert!(msg.contains("codec `a`") && msg.contains("bisect"), "{msg}");
+    let msg = err(&format!("{base}method = \"huffman\"\n"));
+    assert!(msg.contains("\"tans\" or \"rans\""), "{msg}");
+    for ok in [
+        "lanes = 8\nmethod = \"rans\"\n",
+        "symbol_lookup = \"search\"\nmethod = \"rans\"\n",
+    ] {
+        assert!(precast::render_str(&format!("{base}{ok}"), Path::new("c.toml")).is_ok());
+    }
+}
