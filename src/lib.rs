@@ -112,7 +112,7 @@ pub fn build_codec(codec: &spec::CodecSpec) -> Result<Built> {
             let rans =
                 tables::Rans::new(&slots, codec.scale_bits).map_err(|e| e.in_codec(&codec.name))?;
             // A 32-bit state over at most 2^15 slots codes within a few parts in 10^5 of the
-            // slots' own cost (measured in tests/outside_checks.rs), so that cost is the rate.
+X
             let rate = quantize::cross_entropy(&model.counts, &slots, codec.scale_bits);
             (tables::Tables::Rans(rans), rate)
         }
