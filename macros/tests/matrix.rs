@@ -7,32 +7,9 @@ use precast::spec::Framing;
 use precast::verify::Reference;
 use std::path::Path;
 
-/// SplitMix64 (Steele, Lea & Flood, OOPSLA 2014): deterministic test data.
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> u64 {
-        self.0 = self.0.wrapping_add(0x9e37_79b9_7f4a_7c15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xbf58_476d_1ce4_e5b9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94d0_49bb_1331_11eb);
-        z ^ (z >> 31)
-    }
-    fn below(&mut self, n: usize) -> usize {
-        (self.next() % n as u64) as usize
-    }
-    fn weighted(&mut self, weights: &[u64]) -> usize {
-        let total: u64 = weights.iter().sum();
-        let mut r = self.next() % total;
-        for (i, &w) in weights.iter().enumerate() {
-            if r < w {
-                return i;
-            }
-            r -= w;
-        }
-        weights.len() - 1
-    }
-}
+#[path = "../../tests/common/mod.rs"]
+mod common;
+use common::Rng;
 
 fn spec_path() -> std::path::PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("../tests/specs/matrix.toml")
