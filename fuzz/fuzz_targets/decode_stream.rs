@@ -85,4 +85,6 @@ fuzz_target!(|data: &[u8]| {
     check_codec!(five, data, golden::five::Symbol::A);
     check_codec!(skewed, data, golden::skewed::Symbol::Likely);
     check_codec!(single, data, golden::single::Symbol::Only);
+    check_codec!(five_rans, data, golden::five_rans::Symbol::A);
+    check_codec!(skewed_l8, data, golden::skewed_l8::Symbol::Likely);
 });

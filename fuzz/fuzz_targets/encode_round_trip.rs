@@ -89,4 +89,14 @@ fuzz_target!(|data: &[u8]| {
         &tokens(data, &golden::single::ALL),
         golden::single::Symbol::Only
     );
+    round_trip!(
+        five_rans,
+        &tokens(data, &golden::five_rans::ALL),
+        golden::five_rans::Symbol::A
+    );
+    round_trip!(
+        skewed_l8,
+        &tokens(data, &golden::skewed_l8::ALL),
+        golden::skewed_l8::Symbol::Likely
+    );
 });
