@@ -36,7 +36,12 @@ pub fn table_bytes(spec: &CodecSpec, tables: &Tables) -> usize {
     match tables {
         Tables::Tans(tans) => {
             let l = tans.table_len();
-            let step = if wide { 6 } else { 4 };
+            let step = match (tans.scale_bits <= MASKED_SCALE_BITS, wide) {
+                (true, true) => 12,
+                (true, false) => 8,
+                (false, true) => 6,
+                (false, false) => 4,
+            };
             l * step + l * 2 + rows * 8
         }
         Tables::Rans(rans) => {
@@ -154,6 +159,9 @@ fn byte_literal(b: u8) -> String {
         _ => format!("0x{b:02x}"),
     }
 }
+
+/// Largest tANS table whose decode entries carry their mask.
+pub const MASKED_SCALE_BITS: u32 = 11;
 
 /// Per-codec facts the templates share.
 struct Shape {
@@ -570,6 +578,30 @@ fn tans_body(
         absent_after,
     } = c;
 
+    // Tables up to 2^11 slots keep each entry's mask (8-byte entries, 16 KiB at most): one
+    // load instead of a shift on the decoder's critical path. Larger ones keep 4-byte entries
+    // so that the table stays in L1 cache and flash.
+    let stored_mask = tans.scale_bits <= MASKED_SCALE_BITS;
+    let (step_struct, step_value) = if stored_mask {
+        (
+            quote! {
+                /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
+                /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored
+                /// to keep a shift off the critical path), and goes to position `base + b`.
+                struct Step(Symbol, u8, u16, u32);
+            },
+            quote!(u64::from(step.3)),
+        )
+    } else {
+        (
+            quote! {
+                /// One decode step, `Step(symbol, bits, base)`: at table position `i` the
+                /// decoder emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
+                struct Step(Symbol, u8, u16);
+            },
+            quote!(!(u64::MAX << step.1)),
+        )
+    };
     let decode_rows = rows_of(&tans.decode, 8, |row, e| {
         row.push_str("Step(");
         row.push_str(&labels[usize::from(e.symbol)]);
@@ -577,8 +609,10 @@ fn tans_body(
         push_number(row, u64::from(e.bits));
         row.push_str(", ");
         push_number(row, u64::from(e.base));
-        row.push_str(", ");
-        push_number(row, (1u64 << e.bits) - 1);
+        if stored_mask {
+            row.push_str(", ");
+            push_number(row, (1u64 << e.bits) - 1);
+        }
         row.push_str("), ");
     });
     let next_rows = rows_of(&tans.next_state, 16, |row, &v| {
@@ -801,7 +835,7 @@ fn tans_body(
                     let step = &DECODE[*x & MASK];
                     *slot = step.0;
                     let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & u64::from(step.3)) as usize;
+                    *x = usize::from(step.2) + (buf & #step_value) as usize;
                     buf >>= bits;
                     at += bits as usize;
                 }
@@ -843,10 +877,7 @@ fn tans_body(
             word(data, at >> 3) >> (at & 7)
         }
 
-        /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
-        /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored to
-        /// keep the shift off the critical path), and goes to position `base + b`.
-        struct Step(Symbol, u8, u16, u32);
+        #step_struct
 
         /// Encoding rule per symbol: from state `x` the encoder writes
         /// `k = (x + bias) >> (SCALE_BITS + 1)` bits (wrapping add), then goes to
