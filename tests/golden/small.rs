@@ -2776,11 +2776,11 @@ pub mod five_rans {
             return Err(Error::Corrupt);
         }
         let payload = stream.get(header..).unwrap_or(&[]);
-        let Some(first) = payload.first_chunk::<16>() else {
+        let Some(head) = payload.first_chunk::<16>() else {
             return Err(Error::Truncated);
         };
         let mut state = [0u32; LANES];
-        for (x, bytes) in state.iter_mut().zip(first.chunks_exact(4)) {
+        for (x, bytes) in state.iter_mut().zip(head.chunks_exact(4)) {
             let mut w = [0u8; 4];
             w.copy_from_slice(bytes);
             *x = u32::from_le_bytes(w);
