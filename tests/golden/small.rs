@@ -2532,7 +2532,7 @@ pub mod five_bare {
 /// |---|---|
 /// | entropy of the training data | 2.285475 |
 /// | with the rounded slots | 2.286134 |
-/// | exact rate of these tables | 2.286134 |
+/// | rate of these tables (the slots' cost) | 2.286134 |
 ///
 /// Excess: 0.000659 bits/symbol (0.029 % above the entropy). Tables: 592 bytes. Spread: none (rANS: symbols own contiguous slot ranges).
 /// Trained on 100 symbols; 0 training sequence(s) round-tripped at generation time into 0 bytes.
