@@ -3,7 +3,7 @@
 //!
 //!     cargo run --example generation_time
 //!
-//! It renders a spec of 16 codecs at scale_bits 12 (8 bytes codecs over 40 to 96 symbols,
+//! It renders a spec of 16 codecs at table_bits 12 (8 bytes codecs over 40 to 96 symbols,
 //! 8 tokens codecs of 4 to 24 tokens) several times and prints the median, and beside it the
 //! time to merely read and parse the spec, as a same-run baseline.
 
@@ -11,7 +11,7 @@ use std::fmt::Write as _;
 use std::time::Instant;
 
 fn spec() -> String {
-    let mut s = String::from("[defaults]\nscale_bits = 12\n");
+    let mut s = String::from("[defaults]\ntable_bits = 12\n");
     for i in 0..8u64 {
         let n = 40 + 8 * i;
         let _ = write!(s, "\n[codec.bytes_{i}]\nkind = \"bytes\"\nsymbols = [");
@@ -67,7 +67,7 @@ fn main() {
         "optimised"
     };
     println!(
-        "16 codecs at scale_bits 12 ({profile}): render {:.3} s median of {runs}, spec parse alone {:.4} s, {} KiB of source",
+        "16 codecs at table_bits 12 ({profile}): render {:.3} s median of {runs}, spec parse alone {:.4} s, {} KiB of source",
         median(render),
         median(parse),
         bytes / 1024

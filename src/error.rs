@@ -74,6 +74,9 @@ pub struct Error {
     pub path: Option<PathBuf>,
     pub codec: Option<String>,
     pub message: String,
+    /// Further errors found in the same pass (a spec reports all of its mistakes at once);
+    /// `Display` prints them one a line after this one.
+    pub further: Vec<Error>,
 }
 
 impl Error {
@@ -84,6 +87,7 @@ impl Error {
             path: None,
             codec: None,
             message: message.into(),
+            further: Vec::new(),
         }
     }
 
@@ -94,6 +98,18 @@ impl Error {
             path: Some(path.to_path_buf()),
             codec: None,
             message: format!("cannot access file: {err}"),
+            further: Vec::new(),
+        }
+    }
+
+    pub(crate) fn io_message(message: String) -> Error {
+        Error {
+            kind: ErrorKind::Io,
+            location: None,
+            path: None,
+            codec: None,
+            message: format!("cannot access file: {message}"),
+            further: Vec::new(),
         }
     }
 
@@ -107,12 +123,31 @@ impl Error {
                 "internal error (a bug in precast, please report it): {}",
                 message.into()
             ),
+            further: Vec::new(),
         }
+    }
+
+    /// One error standing for all of `errors` (in order), or `None` when there are none.
+    pub(crate) fn gather(errors: Vec<Error>) -> Option<Error> {
+        let mut all = errors.into_iter();
+        let mut first = all.next()?;
+        first.further.extend(all);
+        Some(first)
+    }
+
+    /// This error and the further ones found with it, in order.
+    pub fn all(&self) -> impl Iterator<Item = &Error> {
+        std::iter::once(self).chain(self.further.iter())
     }
 
     pub(crate) fn in_codec(mut self, codec: &str) -> Error {
         if self.codec.is_none() {
             self.codec = Some(codec.to_string());
+        }
+        for e in &mut self.further {
+            if e.codec.is_none() {
+                e.codec = Some(codec.to_string());
+            }
         }
         self
     }
@@ -128,7 +163,11 @@ impl fmt::Display for Error {
         if let Some(codec) = &self.codec {
             write!(f, "codec `{codec}`: ")?;
         }
-        f.write_str(&self.message)
+        f.write_str(&self.message)?;
+        for e in &self.further {
+            write!(f, "\n{e}")?;
+        }
+        Ok(())
     }
 }
 

@@ -41,19 +41,36 @@
 //! assert!(out.reports[0].exact_rate < out.reports[0].entropy * 1.01);
 //! ```
 //!
-//! The pipeline, one module a stage: [`spec`] → [`model`] → [`quantize`] → [`tables`] →
-//! [`verify`] → [`emit`] → [`report`].
+//! The pipeline, one module a stage: [`load`] (the only I/O) → [`spec`] → [`kind`] →
+//! [`model`] → [`quantize`] → [`method`] → [`verify`] → [`emit`] → [`report`], carried by
+//! one [`plan::CodecPlan`] per codec.
 
 #![forbid(unsafe_code)]
+// Errors are cold (at most one per build, carrying every mistake of a spec); their size
+// does not matter.
+#![allow(clippy::result_large_err)]
 
 pub mod emit;
 pub mod error;
+pub mod kind;
+pub mod load;
+pub mod method;
 pub mod model;
+pub mod plan;
 pub mod quantize;
 pub mod report;
 pub mod spec;
-pub mod tables;
 pub mod verify;
+
+/// The methods' table builders under one stable path, for tests and tools.
+pub mod tables {
+    pub use crate::method::rans::{
+        divide, rans_bound, rans_code, rans_uncode, reciprocal, Rans, RANS_LOW,
+    };
+    pub use crate::method::rate::exact_rate;
+    pub use crate::method::tans::{build, from_spread, spread, DecodeEntry, SpreadRule, Tans};
+    pub use crate::method::Tables;
+}
 
 pub use error::{Error, ErrorKind, Location, Result};
 pub use report::Report;
@@ -88,160 +105,97 @@ pub fn render(path: impl AsRef<Path>) -> Result<Rendered> {
     Ok(out)
 }
 
-/// A codec carried through every stage.
+/// A codec with one table set, as tests and tools inspect it.
 pub struct Built {
     pub model: model::Model,
-    pub tables: tables::Tables,
+    pub tables: method::Tables,
     pub fingerprint: u16,
     pub report: Report,
 }
 
-/// Runs one codec from its validated spec to its tables, verified, and its report.
+/// Runs one codec from its validated spec to its tables, verified, and its report (reading
+/// its sample files).
 pub fn build_codec(codec: &spec::CodecSpec) -> Result<Built> {
-    let model = model::build(codec)?;
-    let slots =
-        quantize::quantize(&model.counts, codec.scale_bits).map_err(|e| e.in_codec(&codec.name))?;
-    let probabilities = model.probabilities();
-    let (tables, rate) = match codec.method {
-        spec::Method::Tans => {
-            let (tans, rate) = tables::build(&slots, &probabilities, codec.scale_bits)
-                .map_err(|e| e.in_codec(&codec.name))?;
-            (tables::Tables::Tans(tans), rate)
-        }
-        spec::Method::Rans => {
-            let rans =
-                tables::Rans::new(&slots, codec.scale_bits).map_err(|e| e.in_codec(&codec.name))?;
-            // A 32-bit state codes within 10^-4 of the slots' own cost at scale_bits <= 12
-            // and 10^-3 at 15 (tests/rans_precision.rs), so that cost is the rate.
-            let rate = quantize::cross_entropy(&model.counts, &slots, codec.scale_bits);
-            (tables::Tables::Rans(rans), rate)
-        }
+    let plan = plan::plan(codec, load::samples(codec)?)?;
+    let Some(set) = plan.sets.into_iter().next() else {
+        return Err(Error::internal("a plan without a table set"));
     };
-    let fingerprint = verify::fingerprint(
-        kind_tag(codec),
-        &alphabet_bytes(codec),
-        &tables,
-        codec.lanes,
-    );
-    // Bare streams carry no fingerprint; the measured sizes below still match the framing.
-    let verified = verify::verify(&tables, fingerprint, codec.framing, codec.lanes, &model)
-        .map_err(|e| e.in_codec(&codec.name))?;
-    let table_bytes = emit::table_bytes(codec, &tables);
-    let report = report::build(codec, &model.counts, &tables, rate, verified, table_bytes);
     Ok(Built {
-        model,
-        tables,
-        fingerprint,
-        report,
+        model: plan.model,
+        tables: set.tables,
+        fingerprint: plan.fingerprint,
+        report: plan.report,
     })
 }
 
-fn kind_tag(codec: &spec::CodecSpec) -> u8 {
-    match codec.kind {
-        spec::Kind::Bytes => 1,
-        spec::Kind::Tokens => 2,
-    }
-}
-
-fn alphabet_bytes(codec: &spec::CodecSpec) -> Vec<u8> {
-    let mut out = Vec::new();
-    for s in &codec.symbols {
-        match s {
-            spec::SymbolName::Byte(b) => out.push(*b),
-            spec::SymbolName::Token(t) => {
-                out.extend_from_slice(t.as_bytes());
-                out.push(0);
-            }
-        }
-    }
-    out
-}
-
 fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
-    let mut built = Vec::with_capacity(spec.codecs.len());
+    let mut plans = Vec::with_capacity(spec.codecs.len());
     let mut inputs = Vec::new();
     let mut warnings = Vec::new();
     for codec in &spec.codecs {
-        let b = build_codec(codec)?;
+        let samples = load::samples(codec)?;
+        let plan = plan::plan(codec, samples)?;
         for source in &codec.sources {
             if let spec::Source::Sample { path, .. } = source {
                 inputs.push(path.clone());
             }
         }
-        warnings.extend(advice(codec, &b));
-        built.push(b);
+        warnings.extend(advice(&plan));
+        plans.push(plan);
     }
-    let parts: Vec<emit::CodecParts<'_>> = spec
-        .codecs
-        .iter()
-        .zip(&built)
-        .map(|(codec, b)| emit::CodecParts {
-            spec: codec,
-            tables: &b.tables,
-            fingerprint: b.fingerprint,
-            report: &b.report,
-        })
-        .collect();
     // The spec (line endings normalised, so a CRLF checkout renders the same header) and
     // every sample, hashed in place rather than copied.
     let spec_text = text.replace("\r\n", "\n");
     let mut refs: Vec<&[u8]> = vec![spec_text.as_bytes()];
-    for b in &built {
-        refs.extend(b.model.sample_bytes.iter().map(Vec::as_slice));
+    for p in &plans {
+        refs.extend(p.model.sample_bytes.iter().map(Vec::as_slice));
     }
-    let source = emit::file(&parts, verify::fnv1a(&refs))?;
+    let source = emit::file(&plans, verify::fnv1a(&refs))?;
     Ok(Rendered {
         source,
-        reports: built.into_iter().map(|b| b.report).collect(),
+        reports: plans.into_iter().map(|p| p.report).collect(),
         inputs,
         warnings,
     })
 }
 
 /// Build-log advice for one codec.
-fn advice(codec: &spec::CodecSpec, built: &Built) -> Vec<String> {
+fn advice(plan: &plan::CodecPlan) -> Vec<String> {
     let mut out = Vec::new();
-    let unseen: Vec<String> = codec
-        .symbols
-        .iter()
-        .zip(&built.model.counts)
+    let name = &plan.spec.name;
+    let kind = plan.spec.kind.as_ref();
+    let unseen: Vec<String> = (0..kind.alphabet_len())
+        .zip(&plan.model.counts)
         .filter(|(_, &c)| c == 0)
-        .map(|(s, _)| spec::show(s))
+        .map(|(s, _)| kind.describe(s))
         .collect();
-    if !unseen.is_empty() && built.model.total() > 0 {
+    if !unseen.is_empty() && plan.model.total() > 0 {
         let list = if unseen.len() > 8 {
             format!("{} and {} more", unseen[..8].join(", "), unseen.len() - 8)
         } else {
             unseen.join(", ")
         };
         out.push(format!(
-            "codec `{}`: {} symbol(s) never occur in the training data and keep one slot each: {list}",
-            codec.name,
+            "codec `{name}`: {} symbol(s) never occur in the training data and keep one slot each: {list}",
             unseen.len()
         ));
     }
-    let excess = built.report.excess_percent().unwrap_or(0.0);
+    let excess = plan.report.excess_percent().unwrap_or(0.0);
     if excess > report::EXCESS_WARNING_PERCENT {
-        let p = built.model.probabilities();
-        let better = (codec.scale_bits + 1..=spec::MAX_SCALE_BITS).find(|&bits| {
-            quantize::quantize(&built.model.counts, bits)
-                .and_then(|slots| tables::build(&slots, &p, bits))
-                .is_ok_and(|(_, rate)| {
-                    100.0 * (rate - built.report.entropy) / built.report.entropy
-                        <= report::EXCESS_WARNING_PERCENT
-                })
-        });
-        let hint = match better {
-            Some(bits) => format!("scale_bits = {bits} brings it under {} %", report::EXCESS_WARNING_PERCENT),
+        let hint = match plan::table_bits_for_excess(plan, report::EXCESS_WARNING_PERCENT) {
+            Some(bits) => format!(
+                "table_bits = {bits} brings it under {} %",
+                report::EXCESS_WARNING_PERCENT
+            ),
             None => format!(
-                "no table up to scale_bits = {} brings it under {} % (few symbols with skewed counts: consider merging rare ones)",
-                spec::MAX_SCALE_BITS,
+                "no table up to table_bits = {} brings it under {} % (few symbols with skewed counts: consider merging rare ones)",
+                spec::MAX_TABLE_BITS,
                 report::EXCESS_WARNING_PERCENT
             ),
         };
         out.push(format!(
-            "codec `{}`: the tables code {excess:.2} % above the entropy at scale_bits = {}; {hint}",
-            codec.name, codec.scale_bits
+            "codec `{name}`: the tables code {excess:.2} % above the entropy at table_bits = {}; {hint}",
+            plan.spec.table_bits
         ));
     }
     out

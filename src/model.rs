@@ -1,9 +1,10 @@
-//! Stage 2: the alphabet and its counts, from sample files, inline text and explicit counts.
-//! Training sequences are kept so that the verify stage can round-trip them.
+//! Stage 2: counts per symbol, from sample files, inline text and explicit counts. Training
+//! sequences are kept so that the verify stage can round-trip them. One table set's counts
+//! today; contexts will give a codec several.
 
 use crate::error::{Error, Location, Result};
-use crate::spec::{show_byte, CodecSpec, Kind, Source, SymbolName};
-use std::path::Path;
+use crate::kind::Misfit;
+use crate::spec::{CodecSpec, Source};
 
 /// One piece of training data as symbol indices, and where it came from (for messages).
 #[derive(Debug, Clone)]
@@ -22,30 +23,29 @@ pub struct Model {
 }
 
 impl Model {
+    /// Training symbols in all; saturates rather than wrapping on absurd counts.
     pub fn total(&self) -> u64 {
-        self.counts.iter().sum()
+        self.counts.iter().fold(0u64, |a, &c| a.saturating_add(c))
     }
 
     /// Probabilities of the training data; uniform when there is none.
     pub fn probabilities(&self) -> Vec<f64> {
-        let total = self.total();
-        if total == 0 {
+        let total: f64 = self.counts.iter().map(|&c| c as f64).sum();
+        if total == 0.0 {
             return vec![1.0 / self.counts.len() as f64; self.counts.len()];
         }
-        self.counts
-            .iter()
-            .map(|&c| c as f64 / total as f64)
-            .collect()
+        self.counts.iter().map(|&c| c as f64 / total).collect()
     }
 }
 
-/// Counts the training data of `codec`.
-pub fn build(codec: &CodecSpec) -> Result<Model> {
-    let n = codec.symbols.len();
-    let mut counts = vec![0u64; n];
+/// Counts the training data of `codec`; `samples` holds the bytes of its sample files, in
+/// the order of its sources (read by [`crate::load::samples`]).
+pub fn build(codec: &CodecSpec, samples: Vec<Vec<u8>>) -> Result<Model> {
+    let kind = codec.kind.as_ref();
+    let mut counts = vec![0u64; kind.alphabet_len()];
     let mut sequences = Vec::new();
+    let mut files = samples.into_iter();
     let mut sample_bytes = Vec::new();
-    let lookup = Lookup::new(codec);
     for source in &codec.sources {
         match source {
             Source::Counts(c) => {
@@ -54,36 +54,33 @@ pub fn build(codec: &CodecSpec) -> Result<Model> {
                 }
             }
             Source::Text { text, location } => {
-                let symbols = lookup
-                    .scan(text.as_bytes(), |offset| TextSpot::Inline {
-                        location: location.clone(),
-                        offset,
-                    })
-                    .map_err(|e| e.in_codec(&codec.name))?;
+                let symbols =
+                    kind.scan(text.as_bytes())
+                        .map_err(|Misfit { offset, message }| {
+                            Error::input(
+                                Some(location.clone()),
+                                format!("{message} (at byte {offset} of the inline text)"),
+                            )
+                            .in_codec(&codec.name)
+                        })?;
                 sequences.push(Sequence {
                     origin: "inline text".to_string(),
                     symbols,
                 });
             }
-            Source::Sample {
-                declared,
-                path,
-                location,
-            } => {
-                let bytes = std::fs::read(path).map_err(|e| {
+            Source::Sample { declared, path, .. } => {
+                let Some(bytes) = files.next() else {
+                    return Err(Error::internal(format!(
+                        "sample \"{declared}\" was not loaded"
+                    )));
+                };
+                let symbols = kind.scan(&bytes).map_err(|Misfit { offset, message }| {
                     Error::input(
-                        Some(location.clone()),
-                        format!("cannot read sample \"{declared}\": {e}"),
+                        Some(Location::in_bytes(path, &bytes, offset)),
+                        format!("{message} (byte offset {offset})"),
                     )
                     .in_codec(&codec.name)
                 })?;
-                let symbols = lookup
-                    .scan(&bytes, |offset| TextSpot::File {
-                        path,
-                        bytes: &bytes,
-                        offset,
-                    })
-                    .map_err(|e| e.in_codec(&codec.name))?;
                 sequences.push(Sequence {
                     origin: format!("sample \"{declared}\""),
                     symbols,
@@ -102,115 +99,4 @@ pub fn build(codec: &CodecSpec) -> Result<Model> {
         sequences,
         sample_bytes,
     })
-}
-
-enum TextSpot<'a> {
-    Inline {
-        location: Location,
-        offset: usize,
-    },
-    File {
-        path: &'a Path,
-        bytes: &'a [u8],
-        offset: usize,
-    },
-}
-
-impl TextSpot<'_> {
-    fn location(&self) -> (Location, String) {
-        match self {
-            TextSpot::Inline { location, offset } => (
-                location.clone(),
-                format!(" (at byte {offset} of the inline text)"),
-            ),
-            TextSpot::File {
-                path,
-                bytes,
-                offset,
-            } => (
-                Location::in_bytes(path, bytes, *offset),
-                format!(" (byte offset {offset})"),
-            ),
-        }
-    }
-}
-
-struct Lookup<'a> {
-    kind: Kind,
-    byte_index: [Option<u16>; 256],
-    tokens: Vec<(&'a str, u16)>,
-}
-
-impl<'a> Lookup<'a> {
-    fn new(codec: &'a CodecSpec) -> Self {
-        let mut byte_index = [None; 256];
-        let mut tokens = Vec::new();
-        for (i, s) in codec.symbols.iter().enumerate() {
-            match s {
-                SymbolName::Byte(b) => byte_index[usize::from(*b)] = Some(i as u16),
-                SymbolName::Token(t) => tokens.push((t.as_str(), i as u16)),
-            }
-        }
-        tokens.sort();
-        Lookup {
-            kind: codec.kind,
-            byte_index,
-            tokens,
-        }
-    }
-
-    fn scan<'b>(&self, data: &[u8], spot: impl Fn(usize) -> TextSpot<'b>) -> Result<Vec<u16>> {
-        let fail = |offset: usize, what: String| {
-            let (location, suffix) = spot(offset).location();
-            Err(Error::input(Some(location), format!("{what}{suffix}")))
-        };
-        match self.kind {
-            Kind::Bytes => {
-                let mut out = Vec::with_capacity(data.len());
-                for (offset, &b) in data.iter().enumerate() {
-                    match self.byte_index[usize::from(b)] {
-                        Some(i) => out.push(i),
-                        None => {
-                            return fail(offset, format!("{} is not in the alphabet", show_byte(b)))
-                        }
-                    }
-                }
-                Ok(out)
-            }
-            Kind::Tokens => {
-                let mut out = Vec::new();
-                let mut i = 0;
-                while i < data.len() {
-                    if data[i].is_ascii_whitespace() {
-                        i += 1;
-                        continue;
-                    }
-                    let start = i;
-                    while i < data.len() && !data[i].is_ascii_whitespace() {
-                        i += 1;
-                    }
-                    let word = &data[start..i];
-                    let found = std::str::from_utf8(word).ok().and_then(|w| {
-                        self.tokens
-                            .binary_search_by(|(t, _)| (*t).cmp(w))
-                            .ok()
-                            .map(|k| self.tokens[k].1)
-                    });
-                    match found {
-                        Some(index) => out.push(index),
-                        None => {
-                            return fail(
-                                start,
-                                format!(
-                                    "token \"{}\" is not in the alphabet",
-                                    String::from_utf8_lossy(word)
-                                ),
-                            )
-                        }
-                    }
-                }
-                Ok(out)
-            }
-        }
-    }
 }

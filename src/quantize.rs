@@ -1,4 +1,4 @@
-//! Stage 3: counts → slots. Each symbol gets at least one of the `2^scale_bits` slots and the
+//! Stage 3: counts → slots. Each symbol gets at least one of the `2^table_bits` slots and the
 //! slots minimise the cross-entropy of the training counts, `-Σ c_s·log2(q_s / M)`.
 //!
 //! Why the result is the exact optimum: the objective is a sum of one concave function per
@@ -70,10 +70,10 @@ pub fn log2(x: f64) -> f64 {
     ln(x) / std::f64::consts::LN_2
 }
 
-/// Slots for `counts` in a table of `2^scale_bits`; every symbol gets at least one.
-pub fn quantize(counts: &[u64], scale_bits: u32) -> Result<Vec<u32>> {
+/// Slots for `counts` in a table of `2^table_bits`; every symbol gets at least one.
+pub fn quantize(counts: &[u64], table_bits: u32) -> Result<Vec<u32>> {
     let n = counts.len();
-    let m = 1u64 << scale_bits;
+    let m = 1u64 << table_bits;
     if n == 0 || n as u64 > m {
         return Err(Error::internal(format!(
             "quantize: {n} symbols for {m} slots"
@@ -140,11 +140,11 @@ fn best_gain(counts: &[u64], slots: &[u64], gain: impl Fn(u64, u64) -> f64) -> u
 
 /// Shannon entropy of the counts in bits per symbol.
 pub fn entropy(counts: &[u64]) -> f64 {
-    let total: u64 = counts.iter().sum();
-    if total == 0 {
+    // Summed in floating point: counts near u64::MAX must not overflow.
+    let t: f64 = counts.iter().map(|&c| c as f64).sum();
+    if t == 0.0 {
         return 0.0;
     }
-    let t = total as f64;
     let h: f64 = counts
         .iter()
         .filter(|&&c| c > 0)
@@ -153,18 +153,21 @@ pub fn entropy(counts: &[u64]) -> f64 {
             -p * log2(p)
         })
         .sum();
-    // A single symbol gives -0.0; report it as 0.
-    h.max(0.0)
+    // A single symbol gives -0.0; report it as +0 (`max` may keep either zero).
+    if h > 0.0 {
+        h
+    } else {
+        0.0
+    }
 }
 
-/// Cross-entropy of the counts coded with `slots` out of `2^scale_bits`, bits per symbol.
-pub fn cross_entropy(counts: &[u64], slots: &[u32], scale_bits: u32) -> f64 {
-    let total: u64 = counts.iter().sum();
-    if total == 0 {
+/// Cross-entropy of the counts coded with `slots` out of `2^table_bits`, bits per symbol.
+pub fn cross_entropy(counts: &[u64], slots: &[u32], table_bits: u32) -> f64 {
+    let t: f64 = counts.iter().map(|&c| c as f64).sum();
+    if t == 0.0 {
         return 0.0;
     }
-    let t = total as f64;
-    let m = f64::from(1u32 << scale_bits);
+    let m = f64::from(1u32 << table_bits);
     counts
         .iter()
         .zip(slots)

@@ -1,9 +1,10 @@
-//! Stage 7: what a codec costs, in words a reviewer reads in the generated module docs and the
-//! build log: entropy, exact rate, excess, table bytes, and a line per symbol.
+//! The last stage: what a codec costs, in words a reviewer reads in the generated module docs
+//! and the build log: entropy, exact rate, excess, table bytes, and a line per symbol.
 
+use crate::method::Tables;
+use crate::plan::TableSet;
 use crate::quantize::{cross_entropy, entropy, log2};
-use crate::spec::{show, CodecSpec, Kind, Method};
-use crate::tables::Tables;
+use crate::spec::CodecSpec;
 use crate::verify::Verified;
 
 /// Excess above which the build script suggests a larger table.
@@ -14,7 +15,7 @@ pub const EXCESS_WARNING_PERCENT: f64 = 0.5;
 pub struct Report {
     pub name: String,
     pub symbols: usize,
-    pub scale_bits: u32,
+    pub table_bits: u32,
     pub training_symbols: u64,
     /// Shannon entropy of the training counts, bits/symbol.
     pub entropy: f64,
@@ -53,38 +54,51 @@ impl Report {
                 self.symbols,
                 self.method,
                 self.lanes,
-                self.scale_bits,
-                1u32 << self.scale_bits
+                self.table_bits,
+                1u32 << self.table_bits
             ),
             String::new(),
             "| figure | bits/symbol |".to_string(),
             "|---|---|".to_string(),
-            format!("| entropy of the training data | {:.6} |", self.entropy),
-            format!("| with the rounded slots | {:.6} |", self.quantised),
+            format!(
+                "| entropy of the training data | {:.6} |",
+                unsigned(self.entropy)
+            ),
+            format!(
+                "| with the rounded slots | {:.6} |",
+                unsigned(self.quantised)
+            ),
             if self.method == "rANS" {
                 // rANS has no state chain to solve; its 32-bit state adds under 10^-4.
                 format!(
                     "| rate of these tables (the slots' cost) | {:.6} |",
-                    self.exact_rate
+                    unsigned(self.exact_rate)
                 )
             } else {
-                format!("| exact rate of these tables | {:.6} |", self.exact_rate)
+                format!(
+                    "| exact rate of these tables | {:.6} |",
+                    unsigned(self.exact_rate)
+                )
             },
         ];
         if let Some(m) = self.measured_rate {
-            d.push(format!("| measured on the training data | {m:.6} |"));
+            d.push(format!(
+                "| measured on the training data | {:.6} |",
+                unsigned(m)
+            ));
         }
         d.push(String::new());
         d.push(match self.excess_percent() {
             Some(p) => format!(
-                "Excess: {:.6} bits/symbol ({p:.3} % above the entropy). Tables: {} bytes. Spread: {}.",
-                self.excess_bits(),
+                "Excess: {:.6} bits/symbol ({:.3} % above the entropy). Tables: {} bytes. Spread: {}.",
+                unsigned(self.excess_bits()),
+                unsigned(p),
                 self.table_bytes,
                 self.spread
             ),
             None => format!(
                 "Excess: {:.6} bits/symbol (the training data has zero entropy). Tables: {} bytes. Spread: {}.",
-                self.excess_bits(),
+                unsigned(self.excess_bits()),
                 self.table_bytes,
                 self.spread
             ),
@@ -97,17 +111,17 @@ impl Report {
         d.push("| symbol | count | slots | ideal bits | coded bits |".to_string());
         d.push("|---|---|---|---|---|".to_string());
         let total = self.training_symbols.max(1) as f64;
-        let l = f64::from(1u32 << self.scale_bits);
+        let l = f64::from(1u32 << self.table_bits);
         for (name, count, slots) in &self.lines {
             let ideal = if *count > 0 {
-                format!("{:.3}", -log2(*count as f64 / total))
+                format!("{:.3}", unsigned(-log2(*count as f64 / total)))
             } else {
                 "-".to_string()
             };
             d.push(format!(
                 "| {} | {count} | {slots} | {ideal} | {:.3} |",
                 name.replace('|', "\\|"),
-                -log2(f64::from(*slots) / l)
+                unsigned(-log2(f64::from(*slots) / l))
             ));
         }
         d
@@ -126,46 +140,35 @@ impl Report {
     }
 }
 
-/// Assembles the report of one codec.
-pub fn build(
-    codec: &CodecSpec,
-    counts: &[u64],
-    tables: &Tables,
-    exact_rate: f64,
-    verified: Verified,
-    table_bytes: usize,
-) -> Report {
-    let lines = codec
-        .symbols
-        .iter()
+/// `x` with a negative zero made positive (`-0.0 + 0.0` is `+0.0` in IEEE 754), so that a
+/// figure prints the same whatever sign of zero an optimiser's rounding left.
+fn unsigned(x: f64) -> f64 {
+    x + 0.0
+}
+
+/// Assembles the report of one codec (its one table set).
+pub fn build(codec: &CodecSpec, counts: &[u64], set: &TableSet, verified: Verified) -> Report {
+    let kind = codec.kind.as_ref();
+    let lines = (0..kind.alphabet_len())
         .zip(counts)
-        .zip(tables.slots())
-        .map(|((s, &c), &q)| {
-            let name = match (codec.kind, s) {
-                (Kind::Tokens, _) => show(s).trim_matches('"').to_string(),
-                _ => show(s),
-            };
-            (name, c, q)
-        })
+        .zip(&set.slots)
+        .map(|((s, &c), &q)| (kind.label(s), c, q))
         .collect();
     Report {
         name: codec.name.clone(),
-        symbols: codec.symbols.len(),
-        scale_bits: tables.scale_bits(),
-        training_symbols: counts.iter().sum(),
+        symbols: kind.alphabet_len(),
+        table_bits: set.tables.table_bits(),
+        training_symbols: counts.iter().fold(0u64, |a, &c| a.saturating_add(c)),
         entropy: entropy(counts),
-        quantised: cross_entropy(counts, tables.slots(), tables.scale_bits()),
-        exact_rate,
+        quantised: cross_entropy(counts, &set.slots, set.tables.table_bits()),
+        exact_rate: set.rate,
         measured_rate: (verified.symbols > 0)
             .then(|| verified.payload_bits as f64 / verified.symbols as f64),
-        table_bytes,
-        spread: match tables {
-            Tables::Tans(t) => t.spread_rule.describe(),
-            Tables::Rans(_) => "none (rANS: symbols own contiguous slot ranges)",
-        },
-        method: match codec.method {
-            Method::Tans => "tANS",
-            Method::Rans => "rANS",
+        table_bytes: set.layout.bytes(),
+        spread: set.tables.spread_description(),
+        method: match set.tables {
+            Tables::Tans(_) => "tANS",
+            Tables::Rans(_) => "rANS",
         },
         lanes: codec.lanes,
         verified,

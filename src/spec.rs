@@ -1,29 +1,32 @@
-//! Stage 1: parse the TOML spec and validate it into [`Spec`], keeping every span so that any
-//! later complaint can point at the line and column the user wrote.
+//! Stage 1: the spec text, parsed and validated into [`Spec`]. Every key keeps its span, so
+//! that any complaint, here or in a later stage, points at the line and column the user
+//! wrote; every mistake of a spec is reported in one pass. `[defaults]` is merged into each
+//! codec once, key by key, before any value is read.
 
 use crate::error::{Error, Location, Result};
-use serde::de::{self, Deserializer, SeqAccess, Visitor};
-use serde::Deserialize;
-use std::collections::BTreeMap;
-use std::fmt;
+use crate::kind::{self, Kind};
 use std::ops::Range;
 use std::path::{Path, PathBuf};
+use std::sync::Arc;
+use toml::de::{DeTable, DeValue};
 use toml::Spanned;
 
 /// Largest table precast builds: states and table positions must fit in `u16`.
-pub const MAX_SCALE_BITS: u32 = 15;
+pub const MAX_TABLE_BITS: u32 = 15;
 /// Smallest table precast builds.
-pub const MIN_SCALE_BITS: u32 = 1;
+pub const MIN_TABLE_BITS: u32 = 1;
 /// Default table size, 2^11 slots: a few KiB of tables, excess well under 1 % for most data.
-pub const DEFAULT_SCALE_BITS: u32 = 11;
+pub const DEFAULT_TABLE_BITS: u32 = 11;
 
-/// What a codec's symbols are.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Kind {
-    /// Byte values; `Symbol = u8`.
-    Bytes,
-    /// Named tokens; `Symbol` is a generated enum.
-    Tokens,
+/// Interleaved states a codec may use (FORMAT.md).
+pub const LANES: [u32; 4] = [1, 2, 4, 8];
+
+/// A spec key whose value is one of a few names.
+pub trait Choice: Copy + 'static {
+    /// The key, for messages.
+    const KEY: &'static str;
+    /// Every name and its value; the first is the default.
+    const OPTIONS: &'static [(&'static str, Self)];
 }
 
 /// Which entropy coder the tables drive.
@@ -35,17 +38,26 @@ pub enum Method {
     Rans,
 }
 
+impl Choice for Method {
+    const KEY: &'static str = "method";
+    const OPTIONS: &'static [(&'static str, Self)] =
+        &[("tans", Method::Tans), ("rans", Method::Rans)];
+}
+
 /// How a rANS decoder finds the symbol of a slot.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Lookup {
-    /// One table entry per slot: fastest, `2^scale_bits` entries of flash.
+    /// One table entry per slot: fastest, `2^table_bits` entries of flash.
     Table,
     /// A search over the cumulative slot counts: one entry per symbol, slower.
     Search,
 }
 
-/// Interleaved states a codec may use (FORMAT.md).
-pub const LANES: [u32; 4] = [1, 2, 4, 8];
+impl Choice for Lookup {
+    const KEY: &'static str = "symbol_lookup";
+    const OPTIONS: &'static [(&'static str, Self)] =
+        &[("table", Lookup::Table), ("search", Lookup::Search)];
+}
 
 /// How streams are delimited (FORMAT.md).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -58,14 +70,13 @@ pub enum Framing {
     Bare,
 }
 
-/// One symbol of an alphabet, as declared.
-#[derive(Debug, Clone, PartialEq, Eq)]
-pub enum SymbolName {
-    Byte(u8),
-    Token(String),
+impl Choice for Framing {
+    const KEY: &'static str = "framing";
+    const OPTIONS: &'static [(&'static str, Self)] =
+        &[("tagged", Framing::Tagged), ("bare", Framing::Bare)];
 }
 
-/// A piece of training data, as declared (files are read by the model stage).
+/// A piece of training data, as declared (files are read by the load stage).
 #[derive(Debug, Clone)]
 pub enum Source {
     /// Explicit counts, by symbol index.
@@ -84,14 +95,14 @@ pub enum Source {
 #[derive(Debug, Clone)]
 pub struct CodecSpec {
     pub name: String,
-    pub kind: Kind,
+    /// The alphabet, owned by its kind (`src/kind/`).
+    pub kind: Arc<dyn Kind>,
     pub method: Method,
-    pub scale_bits: u32,
+    pub table_bits: u32,
     /// Interleaved states, one of [`LANES`].
     pub lanes: u32,
     pub lookup: Lookup,
     pub framing: Framing,
-    pub symbols: Vec<SymbolName>,
     pub sources: Vec<Source>,
     /// Where the codec's table starts in the spec, for errors found by later stages.
     pub location: Location,
@@ -105,115 +116,95 @@ pub struct Spec {
     pub codecs: Vec<CodecSpec>,
 }
 
-#[derive(Deserialize)]
-#[serde(deny_unknown_fields)]
-struct RawSpec {
-    defaults: Option<RawCodec>,
-    codec: Option<BTreeMap<String, Spanned<RawCodec>>>,
-}
+/// Keys of a `[codec.NAME]` table (and of `[defaults]`).
+pub const CODEC_KEYS: &[&str] = &[
+    "kind",
+    "method",
+    "table_bits",
+    "lanes",
+    "symbol_lookup",
+    "framing",
+    "symbols",
+    "counts",
+    "text",
+    "samples",
+];
 
-#[derive(Deserialize, Default)]
-#[serde(deny_unknown_fields)]
-struct RawCodec {
-    kind: Option<Spanned<String>>,
-    method: Option<Spanned<String>>,
-    scale_bits: Option<Spanned<i64>>,
-    lanes: Option<Spanned<i64>>,
-    symbol_lookup: Option<Spanned<String>>,
-    framing: Option<Spanned<String>>,
-    symbols: Option<Spanned<RawSymbols>>,
-    counts: Option<Spanned<BTreeMap<String, Spanned<i64>>>>,
-    text: Option<Spanned<String>>,
-    samples: Option<Spanned<Vec<Spanned<String>>>>,
-}
-
-/// `symbols` is either a string (its bytes, or for tokens an error) or a list.
-enum RawSymbols {
-    Text(String),
-    List(Vec<Spanned<RawSymbol>>),
-}
-
-enum RawSymbol {
-    Int(i64),
-    Name(String),
-}
-
-impl<'de> Deserialize<'de> for RawSymbols {
-    fn deserialize<D: Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
-        struct V;
-        impl<'de> Visitor<'de> for V {
-            type Value = RawSymbols;
-            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-                f.write_str("a string or a list of byte values or token names")
-            }
-            fn visit_str<E: de::Error>(self, v: &str) -> std::result::Result<RawSymbols, E> {
-                Ok(RawSymbols::Text(v.to_string()))
-            }
-            fn visit_seq<A: SeqAccess<'de>>(
-                self,
-                mut seq: A,
-            ) -> std::result::Result<RawSymbols, A::Error> {
-                let mut items = Vec::new();
-                while let Some(item) = seq.next_element::<Spanned<RawSymbol>>()? {
-                    items.push(item);
-                }
-                Ok(RawSymbols::List(items))
-            }
-        }
-        d.deserialize_any(V)
-    }
-}
-
-impl<'de> Deserialize<'de> for RawSymbol {
-    fn deserialize<D: Deserializer<'de>>(d: D) -> std::result::Result<Self, D::Error> {
-        struct V;
-        impl Visitor<'_> for V {
-            type Value = RawSymbol;
-            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
-                f.write_str("a byte value (integer) or a token name (string)")
-            }
-            fn visit_i64<E: de::Error>(self, v: i64) -> std::result::Result<RawSymbol, E> {
-                Ok(RawSymbol::Int(v))
-            }
-            fn visit_u64<E: de::Error>(self, v: u64) -> std::result::Result<RawSymbol, E> {
-                Ok(RawSymbol::Int(i64::try_from(v).unwrap_or(i64::MAX)))
-            }
-            fn visit_str<E: de::Error>(self, v: &str) -> std::result::Result<RawSymbol, E> {
-                Ok(RawSymbol::Name(v.to_string()))
-            }
-        }
-        d.deserialize_any(V)
-    }
-}
-
-/// Reads and validates the spec file at `path`.
+/// Reads and validates the spec file at `path`; returns it with its text.
 pub fn load(path: &Path) -> Result<(Spec, String)> {
-    let text = std::fs::read_to_string(path).map_err(|e| Error::io(path, &e))?;
+    let text = crate::load::spec_text(path)?;
     let spec = parse(&text, path)?;
     Ok((spec, text))
 }
 
-/// Parses and validates spec text; `path` names the file in messages and anchors sample paths.
+/// Parses and validates spec text; `path` names the file in messages and anchors sample
+/// paths. All mistakes are reported at once, in the order of the text.
 pub fn parse(text: &str, path: &Path) -> Result<Spec> {
-    let raw: RawSpec = toml::from_str(text).map_err(|e| {
-        let location = e.span().map(|s| Location::at(path, text, s.start));
-        Error::input(location, e.message().trim().to_string())
-    })?;
-    let ctx = Ctx { path, text };
-    let defaults = raw.defaults.unwrap_or_default();
-    let mut codecs: Vec<(usize, CodecSpec)> = Vec::new();
-    for (name, table) in raw.codec.unwrap_or_default() {
-        let start = table.span().start;
-        let codec = ctx
-            .codec(&name, table.span(), table.into_inner(), &defaults)
-            .map_err(|e| e.in_codec(&name))?;
-        codecs.push((start, codec));
+    let checker = Checker { path, text };
+    let doc = match DeTable::parse(text) {
+        Ok(doc) => doc,
+        Err(e) => {
+            let at = e.span().map_or(0, |s| s.start);
+            return Err(Error::input(
+                Some(Location::at(path, text, at)),
+                e.message().trim().to_string(),
+            ));
+        }
+    };
+    let mut errors: Vec<(usize, Error)> = Vec::new();
+    let mut defaults: Option<&DeTable<'_>> = None;
+    let mut tables: Option<&DeTable<'_>> = None;
+    for (key, value) in doc.get_ref().iter() {
+        match (key.get_ref().as_ref(), value.get_ref()) {
+            ("defaults", DeValue::Table(t)) => {
+                checker.check_keys(t, None, &mut errors);
+                defaults = Some(t);
+            }
+            ("codec", DeValue::Table(t)) => tables = Some(t),
+            (k @ ("defaults" | "codec"), other) => errors.push(checker.error(
+                value.span(),
+                None,
+                format!("`{k}` must be a table, found {}", other.type_str()),
+            )),
+            (k, _) => {
+                errors.push(checker.error(key.span(), None, unknown_key(k, &["defaults", "codec"])))
+            }
+        }
     }
-    if codecs.is_empty() {
-        return Err(Error::input(
-            Some(Location::at(path, text, 0)),
-            "the spec declares no codec: add a `[codec.NAME]` table",
+    let mut codecs: Vec<(usize, CodecSpec)> = Vec::new();
+    for (name, table) in tables.into_iter().flat_map(|t| t.iter()) {
+        let name_text = name.get_ref().as_ref();
+        let DeValue::Table(t) = table.get_ref() else {
+            errors.push(checker.error(
+                table.span(),
+                Some(name_text),
+                format!(
+                    "a codec is a table `[codec.{name_text}]`, found {}",
+                    table.get_ref().type_str()
+                ),
+            ));
+            continue;
+        };
+        checker.check_keys(t, Some(name_text), &mut errors);
+        let merged = Merged { codec: t, defaults };
+        match checker.codec(name_text, table.span(), &merged) {
+            Ok(codec) => codecs.push((table.span().start, codec)),
+            Err(mut e) => errors.append(&mut e),
+        }
+    }
+    if codecs.is_empty() && errors.is_empty() {
+        errors.push(checker.error(
+            0..0,
+            None,
+            "the spec declares no codec: add a `[codec.NAME]` table".to_string(),
         ));
+    }
+    if !errors.is_empty() {
+        // In the order of the text; a bad value in `[defaults]` is reported once.
+        errors.sort_by_key(|(at, _)| *at);
+        errors.dedup_by(|b, a| a.0 == b.0 && a.1.message == b.1.message);
+        let gathered = Error::gather(errors.into_iter().map(|(_, e)| e).collect());
+        return Err(gathered.unwrap_or_else(|| Error::internal("an empty list of spec errors")));
     }
     codecs.sort_by_key(|(start, _)| *start);
     Ok(Spec {
@@ -222,332 +213,404 @@ pub fn parse(text: &str, path: &Path) -> Result<Spec> {
     })
 }
 
-struct Ctx<'a> {
+/// A codec's keys with `[defaults]` underneath.
+struct Merged<'a, 'i> {
+    codec: &'a DeTable<'i>,
+    defaults: Option<&'a DeTable<'i>>,
+}
+
+impl<'a, 'i> Merged<'a, 'i> {
+    fn get(&self, key: &str) -> Option<&'a Spanned<DeValue<'i>>> {
+        self.codec
+            .get(key)
+            .or_else(|| self.defaults.and_then(|d| d.get(key)))
+    }
+}
+
+/// Errors found while reading one codec, each with the byte offset it sorts by.
+type Found = Vec<(usize, Error)>;
+
+struct Checker<'a> {
     path: &'a Path,
     text: &'a str,
 }
 
-impl Ctx<'_> {
-    fn loc(&self, span: Range<usize>) -> Location {
-        Location::at(self.path, self.text, span.start)
+impl Checker<'_> {
+    fn error(&self, span: Range<usize>, codec: Option<&str>, message: String) -> (usize, Error) {
+        let mut e = Error::input(
+            Some(Location::at(self.path, self.text, span.start)),
+            message,
+        );
+        if let Some(c) = codec {
+            e = e.in_codec(c);
+        }
+        (span.start, e)
     }
 
-    fn err<T>(&self, span: Range<usize>, message: impl Into<String>) -> Result<T> {
-        Err(Error::input(Some(self.loc(span)), message))
+    fn check_keys(&self, table: &DeTable<'_>, codec: Option<&str>, errors: &mut Found) {
+        for key in table.keys() {
+            let k = key.get_ref().as_ref();
+            if !CODEC_KEYS.contains(&k) {
+                let message = if k == "scale_bits" {
+                    "unknown key `scale_bits`: the table size is `table_bits` (log2 of the number of slots)".to_string()
+                } else {
+                    unknown_key(k, CODEC_KEYS)
+                };
+                errors.push(self.error(key.span(), codec, message));
+            }
+        }
     }
 
     fn codec(
         &self,
         name: &str,
         span: Range<usize>,
-        raw: RawCodec,
-        defaults: &RawCodec,
-    ) -> Result<CodecSpec> {
-        check_identifier(name).or_else(|m| self.err(span.clone(), m))?;
+        keys: &Merged<'_, '_>,
+    ) -> std::result::Result<CodecSpec, Found> {
+        let mut errors: Found = Vec::new();
+        let mut fail = |span: Range<usize>, message: String| {
+            errors.push(self.error(span, Some(name), message));
+        };
+        if let Err(m) = check_identifier(name) {
+            fail(span.clone(), m);
+        }
 
-        let kind = match raw.kind.as_ref().or(defaults.kind.as_ref()) {
-            None => return self.err(span, "missing key `kind` (\"bytes\" or \"tokens\")"),
-            Some(k) => match k.get_ref().as_str() {
-                "bytes" => Kind::Bytes,
-                "tokens" => Kind::Tokens,
-                other => {
-                    return self.err(
-                        k.span(),
-                        format!("unknown kind \"{other}\": expected \"bytes\" or \"tokens\""),
-                    )
-                }
-            },
-        };
-        let method = match raw.method.as_ref().or(defaults.method.as_ref()) {
-            None => Method::Tans,
-            Some(m) => match m.get_ref().as_str() {
-                "tans" => Method::Tans,
-                "rans" => Method::Rans,
-                other => {
-                    return self.err(
-                        m.span(),
-                        format!("unknown method \"{other}\": expected \"tans\" or \"rans\""),
-                    )
-                }
-            },
-        };
-        let lanes = match raw.lanes.as_ref().or(defaults.lanes.as_ref()) {
-            None => 1,
-            Some(l) => {
-                let v = *l.get_ref();
-                match LANES.iter().find(|&&n| i64::from(n) == v) {
-                    Some(&n) => n,
-                    None => {
-                        return self.err(
-                            l.span(),
-                            format!("lanes = {v} is not available: expected 1, 2, 4 or 8"),
-                        )
-                    }
-                }
-            }
-        };
-        let lookup = match raw.symbol_lookup.as_ref().or(defaults.symbol_lookup.as_ref()) {
-            None => Lookup::Table,
-            Some(k) => match (k.get_ref().as_str(), method) {
-                ("table", _) => Lookup::Table,
-                ("search", Method::Rans) => Lookup::Search,
-                ("search", Method::Tans) => {
-                    return self.err(
-                        k.span(),
-                        "symbol_lookup = \"search\" applies to method = \"rans\"; a tANS decoder always reads its state table",
-                    )
-                }
-                (other, _) => {
-                    return self.err(
-                        k.span(),
-                        format!("unknown symbol_lookup \"{other}\": expected \"table\" or \"search\""),
-                    )
-                }
-            },
-        };
-        let scale_bits = match raw.scale_bits.as_ref().or(defaults.scale_bits.as_ref()) {
-            None => DEFAULT_SCALE_BITS,
-            Some(b) => {
-                let v = *b.get_ref();
-                if !(i64::from(MIN_SCALE_BITS)..=i64::from(MAX_SCALE_BITS)).contains(&v) {
-                    return self.err(
-                        b.span(),
-                        format!(
-                            "scale_bits = {v} is out of range: expected {MIN_SCALE_BITS} to {MAX_SCALE_BITS}"
-                        ),
-                    );
-                }
-                v as u32
-            }
-        };
-
-        let framing = match raw.framing.as_ref().or(defaults.framing.as_ref()) {
-            None => Framing::Tagged,
-            Some(f) => match f.get_ref().as_str() {
-                "tagged" => Framing::Tagged,
-                "bare" => Framing::Bare,
-                other => {
-                    return self.err(
-                        f.span(),
-                        format!("unknown framing \"{other}\": expected \"tagged\" or \"bare\""),
-                    )
-                }
-            },
-        };
-        let symbols = match raw.symbols.as_ref().or(defaults.symbols.as_ref()) {
-            Some(s) => self.symbols(kind, s)?,
-            None if kind == Kind::Bytes => (0..=255u8).map(SymbolName::Byte).collect(),
+        let kind_entry = match keys.get("kind") {
             None => {
-                return self.err(
-                    span,
-                    "missing key `symbols`: a tokens codec lists its token names",
-                )
-            }
-        };
-        if symbols.len() > 1usize << scale_bits {
-            let s = raw
-                .scale_bits
-                .as_ref()
-                .or(defaults.scale_bits.as_ref())
-                .map_or(span.clone(), |b| b.span());
-            return self.err(
-                s,
-                format!(
-                    "{} symbols do not fit in a table of 2^{scale_bits} slots: raise scale_bits to at least {}",
-                    symbols.len(),
-                    usize::BITS - (symbols.len() - 1).leading_zeros()
-                ),
-            );
-        }
-
-        let mut sources = Vec::new();
-        if let Some(c) = raw.counts.as_ref().or(defaults.counts.as_ref()) {
-            sources.push(Source::Counts(self.counts(kind, &symbols, c)?));
-        }
-        if let Some(t) = raw.text.as_ref().or(defaults.text.as_ref()) {
-            sources.push(Source::Text {
-                text: t.get_ref().clone(),
-                location: self.loc(t.span()),
-            });
-        }
-        if let Some(list) = raw.samples.as_ref().or(defaults.samples.as_ref()) {
-            if list.get_ref().is_empty() {
-                return self.err(
-                    list.span(),
-                    "`samples` is empty: list at least one file or remove the key",
+                fail(
+                    span.clone(),
+                    format!("missing key `kind` ({})", kind::names()),
                 );
+                None
             }
-            let folder = self.path.parent().unwrap_or(Path::new(""));
-            for item in list.get_ref() {
-                let declared = item.get_ref().clone();
-                if declared.is_empty() {
-                    return self.err(item.span(), "empty sample path");
+            Some(v) => match v.get_ref() {
+                DeValue::String(s) => match kind::find(s) {
+                    Some(entry) => Some(entry),
+                    None => {
+                        fail(
+                            v.span(),
+                            format!("unknown kind \"{s}\": expected {}", kind::names()),
+                        );
+                        None
+                    }
+                },
+                other => {
+                    fail(v.span(), type_error("kind", "a string", other));
+                    None
                 }
-                sources.push(Source::Sample {
-                    path: folder.join(&declared),
-                    declared,
-                    location: self.loc(item.span()),
-                });
-            }
-        }
-        if sources.is_empty() {
-            return self.err(
-                span,
-                "no training data: give at least one of `counts`, `text` or `samples`",
+            },
+        };
+        let method = self.choice::<Method>(keys, &mut fail);
+        let framing = self.choice::<Framing>(keys, &mut fail);
+        let lookup = self.choice::<Lookup>(keys, &mut fail);
+        if let (Some(Method::Tans), Some(Lookup::Search), Some(v)) =
+            (method, lookup, keys.get(Lookup::KEY))
+        {
+            fail(
+                v.span(),
+                "symbol_lookup = \"search\" applies to method = \"rans\"; a tANS decoder always reads its state table".to_string(),
             );
         }
+        let lanes = match keys.get("lanes") {
+            None => Some(1),
+            Some(v) => match integer(v.get_ref()) {
+                Ok(n) => match LANES.iter().find(|&&l| i128::from(l) == n) {
+                    Some(&l) => Some(l),
+                    None => {
+                        fail(
+                            v.span(),
+                            format!("lanes = {n} is not available: expected 1, 2, 4 or 8"),
+                        );
+                        None
+                    }
+                },
+                Err(found) => {
+                    fail(v.span(), type_error("lanes", "an integer", found));
+                    None
+                }
+            },
+        };
+        let table_bits = match keys.get("table_bits") {
+            None => Some(DEFAULT_TABLE_BITS),
+            Some(v) => match integer(v.get_ref()) {
+                Ok(n) if (i128::from(MIN_TABLE_BITS)..=i128::from(MAX_TABLE_BITS)).contains(&n) => {
+                    Some(n as u32)
+                }
+                Ok(n) => {
+                    fail(
+                        v.span(),
+                        format!("table_bits = {n} is out of range: expected {MIN_TABLE_BITS} to {MAX_TABLE_BITS}"),
+                    );
+                    None
+                }
+                Err(found) => {
+                    fail(v.span(), type_error("table_bits", "an integer", found));
+                    None
+                }
+            },
+        };
 
-        Ok(CodecSpec {
-            name: name.to_string(),
-            kind,
-            method,
-            scale_bits,
-            lanes,
-            lookup,
-            framing,
-            symbols,
-            sources,
-            location: self.loc(span),
-        })
-    }
-
-    fn symbols(&self, kind: Kind, raw: &Spanned<RawSymbols>) -> Result<Vec<SymbolName>> {
-        let mut out: Vec<SymbolName> = Vec::new();
-        let push = |name: SymbolName, span: Range<usize>, out: &mut Vec<SymbolName>| {
-            if let Some(first) = out.iter().position(|s| *s == name) {
-                return self.err(
-                    span,
+        let alphabet =
+            kind_entry.and_then(
+                |entry| match (entry.read)(keys.get("symbols"), span.clone()) {
+                    Ok(k) => Some(k),
+                    Err(list) => {
+                        for (s, m) in list {
+                            fail(s, m);
+                        }
+                        None
+                    }
+                },
+            );
+        if let (Some(k), Some(bits)) = (&alphabet, table_bits) {
+            if k.alphabet_len() > 1usize << bits {
+                let at = keys.get("table_bits").map_or(span.clone(), |v| v.span());
+                fail(
+                    at,
                     format!(
-                        "symbol {} is listed twice (first as entry {})",
-                        show(&name),
-                        first + 1
+                        "{} symbols do not fit in a table of 2^{bits} slots: raise table_bits to at least {}",
+                        k.alphabet_len(),
+                        usize::BITS - (k.alphabet_len() - 1).leading_zeros()
                     ),
                 );
             }
-            out.push(name);
-            Ok(())
-        };
-        match (kind, raw.get_ref()) {
-            (Kind::Bytes, RawSymbols::Text(s)) => {
-                for b in s.bytes() {
-                    push(SymbolName::Byte(b), raw.span(), &mut out)?;
-                }
-            }
-            (Kind::Tokens, RawSymbols::Text(_)) => {
-                return self.err(raw.span(), "a tokens codec lists its symbols as an array of names, e.g. [\"ok\", \"low_battery\"]");
-            }
-            (_, RawSymbols::List(items)) => {
-                for item in items {
-                    let name = match (kind, item.get_ref()) {
-                        (Kind::Bytes, RawSymbol::Int(v)) => match u8::try_from(*v) {
-                            Ok(b) => SymbolName::Byte(b),
-                            Err(_) => {
-                                return self.err(
-                                    item.span(),
-                                    format!("byte value {v} is out of range 0..=255"),
-                                )
-                            }
-                        },
-                        (Kind::Bytes, RawSymbol::Name(n)) => {
-                            let bytes = n.as_bytes();
-                            if bytes.len() != 1 {
-                                return self.err(item.span(), format!("\"{n}\" is not a single byte: list byte values as integers or one-byte strings"));
-                            }
-                            SymbolName::Byte(bytes[0])
+        }
+
+        let mut sources = Vec::new();
+        if let Some(v) = keys.get("counts") {
+            match (v.get_ref(), &alphabet) {
+                (DeValue::Table(t), Some(k)) => match self.counts(k.as_ref(), t) {
+                    Ok(c) => sources.push(Source::Counts(c)),
+                    Err(list) => {
+                        for (s, m) in list {
+                            fail(s, m);
                         }
-                        (Kind::Tokens, RawSymbol::Name(n)) => {
-                            check_token(n).or_else(|m| self.err(item.span(), m))?;
-                            SymbolName::Token(n.clone())
-                        }
-                        (Kind::Tokens, RawSymbol::Int(v)) => {
-                            return self.err(
-                                item.span(),
-                                format!("token names are strings, found the number {v}"),
-                            )
-                        }
-                    };
-                    push(name, item.span(), &mut out)?;
-                }
+                    }
+                },
+                (DeValue::Table(_), None) => {}
+                (other, _) => fail(
+                    v.span(),
+                    type_error("counts", "a table of symbol = count", other),
+                ),
             }
         }
-        if out.is_empty() {
-            return self.err(
-                raw.span(),
-                "the alphabet is empty: declare at least one symbol",
-            );
+        if let Some(v) = keys.get("text") {
+            match v.get_ref() {
+                DeValue::String(s) => sources.push(Source::Text {
+                    text: s.to_string(),
+                    location: Location::at(self.path, self.text, v.span().start),
+                }),
+                other => fail(v.span(), type_error("text", "a string", other)),
+            }
         }
-        if kind == Kind::Tokens {
-            let mut seen: BTreeMap<String, &str> = BTreeMap::new();
-            for s in &out {
-                if let SymbolName::Token(t) = s {
-                    let v = variant_name(t);
-                    if let Some(other) = seen.insert(v.clone(), t) {
-                        return self.err(
-                            raw.span(),
-                            format!("tokens \"{other}\" and \"{t}\" both become the variant `{v}`"),
-                        );
+        if let Some(v) = keys.get("samples") {
+            let folder = self.path.parent().unwrap_or(Path::new(""));
+            let mut one = |item: &Spanned<DeValue<'_>>,
+                           fail: &mut dyn FnMut(Range<usize>, String)| {
+                match item.get_ref() {
+                    DeValue::String(s) if s.is_empty() => {
+                        fail(item.span(), "empty sample path".to_string())
+                    }
+                    DeValue::String(s) => sources.push(Source::Sample {
+                        path: folder.join(s.as_ref()),
+                        declared: s.to_string(),
+                        location: Location::at(self.path, self.text, item.span().start),
+                    }),
+                    other => fail(item.span(), type_error("samples", "a path string", other)),
+                }
+            };
+            match v.get_ref() {
+                DeValue::String(_) => one(v, &mut fail),
+                DeValue::Array(items) if items.is_empty() => fail(
+                    v.span(),
+                    "`samples` is empty: list at least one file or remove the key".to_string(),
+                ),
+                DeValue::Array(items) => {
+                    for item in items.iter() {
+                        one(item, &mut fail);
                     }
                 }
+                other => fail(
+                    v.span(),
+                    type_error("samples", "a path or a list of paths", other),
+                ),
             }
         }
-        Ok(out)
+        let declared = ["counts", "text", "samples"]
+            .iter()
+            .any(|k| keys.get(k).is_some());
+        if !declared {
+            fail(
+                span.clone(),
+                "no training data: give at least one of `counts`, `text` or `samples`".to_string(),
+            );
+        }
+
+        match (alphabet, method, table_bits, lanes, lookup, framing) {
+            (
+                Some(kind),
+                Some(method),
+                Some(table_bits),
+                Some(lanes),
+                Some(lookup),
+                Some(framing),
+            ) if errors.is_empty() => Ok(CodecSpec {
+                name: name.to_string(),
+                kind,
+                method,
+                table_bits,
+                lanes,
+                lookup,
+                framing,
+                sources,
+                location: Location::at(self.path, self.text, span.start),
+            }),
+            _ => Err(errors),
+        }
+    }
+
+    /// The value of a choice key, its first option when absent.
+    fn choice<T: Choice>(
+        &self,
+        keys: &Merged<'_, '_>,
+        fail: &mut impl FnMut(Range<usize>, String),
+    ) -> Option<T> {
+        let Some(v) = keys.get(T::KEY) else {
+            return T::OPTIONS.first().map(|(_, c)| *c);
+        };
+        let expected = {
+            let names: Vec<String> = T::OPTIONS.iter().map(|(n, _)| format!("\"{n}\"")).collect();
+            names.join(" or ")
+        };
+        match v.get_ref() {
+            DeValue::String(s) => match T::OPTIONS.iter().find(|(n, _)| *n == s.as_ref()) {
+                Some((_, c)) => Some(*c),
+                None => {
+                    fail(
+                        v.span(),
+                        format!("unknown {} \"{s}\": expected {expected}", T::KEY),
+                    );
+                    None
+                }
+            },
+            other => {
+                fail(
+                    v.span(),
+                    type_error(T::KEY, &format!("one of {expected}"), other),
+                );
+                None
+            }
+        }
     }
 
     fn counts(
         &self,
-        kind: Kind,
-        symbols: &[SymbolName],
-        raw: &Spanned<BTreeMap<String, Spanned<i64>>>,
-    ) -> Result<Vec<u64>> {
-        let mut counts = vec![0u64; symbols.len()];
-        let mut entries: Vec<_> = raw.get_ref().iter().collect();
-        entries.sort_by_key(|(_, v)| v.span().start);
-        for (key, value) in entries {
-            let name = match kind {
-                Kind::Tokens => SymbolName::Token(key.clone()),
-                Kind::Bytes => match key.parse::<u8>() {
-                    Ok(b) => SymbolName::Byte(b),
-                    Err(_) => {
-                        return self.err(
-                            value.span(),
-                            format!("count key \"{key}\" is not a byte value: a bytes codec keys its counts by decimal byte value, e.g. 97 = 120"),
-                        )
-                    }
-                },
+        kind: &dyn Kind,
+        table: &DeTable<'_>,
+    ) -> std::result::Result<Vec<u64>, Vec<kind::Misplaced>> {
+        let mut counts = vec![0u64; kind.alphabet_len()];
+        let mut named: Vec<Option<usize>> = vec![None; kind.alphabet_len()];
+        let mut errors = Vec::new();
+        for (key, value) in table.iter() {
+            let k = key.get_ref().as_ref();
+            let index = match kind.count_key(k) {
+                Ok(i) => i,
+                Err(m) => {
+                    errors.push((value.span(), m));
+                    continue;
+                }
             };
-            let Some(index) = symbols.iter().position(|s| *s == name) else {
-                return self.err(
-                    value.span(),
-                    format!("count for {} which is not in the alphabet", show(&name)),
-                );
+            let v = match integer(value.get_ref()) {
+                Ok(v) => v,
+                Err(found) => {
+                    errors.push((value.span(), type_error("counts", "integer counts", found)));
+                    continue;
+                }
             };
-            let v = *value.get_ref();
             if v < 0 {
-                return self.err(
+                errors.push((
                     value.span(),
-                    format!("count {v} for {} is negative", show(&name)),
-                );
+                    format!("count {v} for {} is negative", kind.describe(index)),
+                ));
+                continue;
             }
-            counts[index] = v as u64;
+            let Ok(v) = u64::try_from(v) else {
+                errors.push((
+                    value.span(),
+                    format!("count {v} for {} is too large", kind.describe(index)),
+                ));
+                continue;
+            };
+            if let Some(first) = named[index] {
+                errors.push((
+                    value.span(),
+                    format!(
+                        "{} is counted twice (first at line {})",
+                        kind.describe(index),
+                        Location::at(self.path, self.text, first).line
+                    ),
+                ));
+                continue;
+            }
+            named[index] = Some(value.span().start);
+            counts[index] = v;
         }
-        Ok(counts)
+        if errors.is_empty() {
+            Ok(counts)
+        } else {
+            Err(errors)
+        }
     }
 }
 
-/// Human form of a symbol for messages: `"ok"`, or `byte 97 ('a')`.
-pub fn show(s: &SymbolName) -> String {
-    match s {
-        SymbolName::Token(t) => format!("\"{t}\""),
-        SymbolName::Byte(b) => show_byte(*b),
+/// The integer in `v`, or `v` itself when it is something else.
+fn integer<'v, 'i>(v: &'v DeValue<'i>) -> std::result::Result<i128, &'v DeValue<'i>> {
+    match v {
+        DeValue::Integer(i) => i128::from_str_radix(i.as_str(), i.radix()).map_err(|_| v),
+        other => Err(other),
     }
 }
 
-pub fn show_byte(b: u8) -> String {
-    if b.is_ascii_graphic() || b == b' ' {
-        format!("byte {b} ({:?})", b as char)
-    } else {
-        format!("byte {b} ({})", std::ascii::escape_default(b))
+fn type_error(key: &str, expected: &str, found: &DeValue<'_>) -> String {
+    let article = match found.type_str() {
+        t @ ("integer" | "array" | "inline table") => format!("an {t}"),
+        t => format!("a {t}"),
+    };
+    format!("`{key}` must be {expected}, found {article}")
+}
+
+/// "unknown key `knd`", with the closest known key when one is near.
+fn unknown_key(key: &str, known: &[&str]) -> String {
+    let near = known
+        .iter()
+        .map(|k| (edit_distance(key, k), *k))
+        .filter(|&(d, k)| d <= 2.max(k.len() / 3) && d < k.len())
+        .min();
+    match near {
+        Some((_, k)) => format!("unknown key `{key}`: did you mean `{k}`?"),
+        None => format!("unknown key `{key}`: expected one of {}", known.join(", ")),
     }
+}
+
+/// Levenshtein distance (common practice), over bytes; keys are short.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let (a, b) = (a.as_bytes(), b.as_bytes());
+    if a.len() > 64 {
+        return a.len();
+    }
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, &x) in a.iter().enumerate() {
+        let mut diagonal = row[0];
+        row[0] = i + 1;
+        for (j, &y) in b.iter().enumerate() {
+            let next = (diagonal + usize::from(x != y))
+                .min(row[j] + 1)
+                .min(row[j + 1] + 1);
+            diagonal = row[j + 1];
+            row[j + 1] = next;
+        }
+    }
+    row[b.len()]
 }
 
 const KEYWORDS: &[&str] = &[
@@ -574,38 +637,4 @@ fn check_identifier(name: &str) -> std::result::Result<(), String> {
         ));
     }
     Ok(())
-}
-
-fn check_token(name: &str) -> std::result::Result<(), String> {
-    let ok = !name.is_empty()
-        && name.bytes().all(|b| b.is_ascii_alphanumeric() || b == b'_')
-        && name.bytes().any(|b| b.is_ascii_alphabetic())
-        && !name.as_bytes()[0].is_ascii_digit();
-    if ok {
-        Ok(())
-    } else {
-        Err(format!(
-            "token name \"{name}\" must be ASCII letters, digits and _, starting with a letter or _ (it becomes an enum variant)"
-        ))
-    }
-}
-
-/// `low_battery` → `LowBattery`: the enum variant for a token.
-pub fn variant_name(token: &str) -> String {
-    let mut out = String::new();
-    for part in token.split('_').filter(|p| !p.is_empty()) {
-        let mut chars = part.chars();
-        if let Some(first) = chars.next() {
-            out.push(first.to_ascii_uppercase());
-            out.extend(chars);
-        }
-    }
-    if out.is_empty() || out.as_bytes()[0].is_ascii_digit() {
-        out.insert(0, 'T');
-    }
-    // `Self` is the one keyword an UpperCamelCase name can hit.
-    if out == "Self" {
-        out.push('_');
-    }
-    out
 }

@@ -6,9 +6,11 @@
 //! The generated code is tested against it byte for byte.
 
 use crate::error::{Error, Result};
+use crate::method::rans::{rans_bound, rans_code, rans_uncode, Rans, RANS_LOW};
+use crate::method::tans::Tans;
+use crate::method::Tables;
 use crate::model::Model;
 use crate::spec::Framing;
-use crate::tables::{rans_bound, rans_code, rans_uncode, Rans, Tables, Tans, RANS_LOW};
 
 /// Stream format version, in the high nibble of the first header byte.
 pub const FORMAT_VERSION: u8 = 2;
@@ -43,18 +45,15 @@ pub fn fnv1a(parts: &[&[u8]]) -> u64 {
 }
 
 /// The 16-bit fingerprint of a codec's tables, as carried in its streams: FNV-1a over the
-/// format version, the kind, the method, the lanes, the scale, the alphabet and the layout
-/// (the spread for tANS, the slots for rANS), folded to 16 bits.
+/// format version, the kind, the method, the lanes, the table size, the alphabet and the
+/// layout (the spread for tANS, the slots for rANS), folded to 16 bits.
 pub fn fingerprint(kind_tag: u8, alphabet: &[u8], tables: &Tables, lanes: u32) -> u16 {
-    let (method, layout): (u8, Vec<u8>) = match tables {
-        Tables::Tans(t) => (1, t.spread.iter().flat_map(|s| s.to_le_bytes()).collect()),
-        Tables::Rans(r) => (2, r.slots.iter().flat_map(|s| s.to_le_bytes()).collect()),
-    };
+    let (method, layout) = tables.identity();
     let h = fnv1a(&[
         &[
             FORMAT_VERSION,
             kind_tag,
-            tables.scale_bits() as u8,
+            tables.table_bits() as u8,
             method,
             lanes as u8,
         ],
@@ -147,7 +146,7 @@ impl<'a> Reference<'a> {
 
     /// tANS payload and its padding count. Symbol `i` belongs to lane `i % lanes`.
     fn encode_tans(&self, tans: &Tans, symbols: &[u16]) -> (Vec<u8>, u8) {
-        let r = tans.scale_bits;
+        let r = tans.table_bits;
         let l = 1u32 << r;
         // Chunks in the order the encoder produces them; the decoder reads them backwards.
         let mut chunks: Vec<(u32, u32)> = Vec::with_capacity(symbols.len() + self.lanes);
@@ -183,7 +182,7 @@ impl<'a> Reference<'a> {
 
     /// rANS payload: the lanes' final states, then the renormalisation words in read order.
     fn encode_rans(&self, rans: &Rans, symbols: &[u16]) -> Vec<u8> {
-        let n = rans.scale_bits;
+        let n = rans.table_bits;
         let mut x = vec![u64::from(RANS_LOW); self.lanes];
         let mut words: Vec<u16> = Vec::new();
         for (i, &s) in symbols.iter().enumerate().rev() {
@@ -279,7 +278,7 @@ impl<'a> Reference<'a> {
         pad: usize,
         count: usize,
     ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
-        let r = tans.scale_bits;
+        let r = tans.table_bits;
         let payload = &stream[pos..];
         let bit = |i: usize| -> bool {
             payload
@@ -331,7 +330,7 @@ impl<'a> Reference<'a> {
         pos: usize,
         count: usize,
     ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
-        let n = rans.scale_bits;
+        let n = rans.table_bits;
         let payload = &stream[pos..];
         let first = 4 * self.lanes;
         if payload.len() < first {

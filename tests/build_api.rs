@@ -40,22 +40,22 @@ fn builder_writes_once_and_leaves_an_unchanged_file_alone() {
 }
 
 #[test]
-fn a_large_excess_gets_a_scale_bits_suggestion() {
+fn a_large_excess_gets_a_table_bits_suggestion() {
     // Binary p = 0.99 (CHECKS.md): at 2^5 slots the rare symbol is over-weighted.
-    let spec = "[codec.rare]\nkind = \"tokens\"\nsymbols = [\"common\", \"rare\"]\ncounts = { common = 99, rare = 1 }\nscale_bits = 5\n";
+    let spec = "[codec.rare]\nkind = \"tokens\"\nsymbols = [\"common\", \"rare\"]\ncounts = { common = 99, rare = 1 }\ntable_bits = 5\n";
     let r = precast::render_str(spec, Path::new("codecs.toml")).unwrap();
     let advice = r.warnings.join("\n");
     assert!(advice.contains("codec `rare`"), "{advice}");
-    assert!(advice.contains("scale_bits = "), "{advice}");
+    assert!(advice.contains("table_bits = "), "{advice}");
     assert!(advice.contains("brings it under 0.5 %"), "{advice}");
     // The suggestion is real: that table size does bring the excess under 0.5 %.
     let bits: u32 = advice
-        .split("scale_bits = ")
+        .split("table_bits = ")
         .nth(2)
         .and_then(|t| t.split_whitespace().next())
         .and_then(|t| t.parse().ok())
         .expect("suggested size");
-    let spec = spec.replace("scale_bits = 5", &format!("scale_bits = {bits}"));
+    let spec = spec.replace("table_bits = 5", &format!("table_bits = {bits}"));
     let r = precast::render_str(&spec, Path::new("codecs.toml")).unwrap();
     assert!(r.reports[0].excess_percent().unwrap() <= 0.5);
     assert!(r.warnings.is_empty(), "{:?}", r.warnings);

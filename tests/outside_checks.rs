@@ -198,16 +198,16 @@ fn rans_streaming_bounds() {
     assert_eq!(rans_bound(23, 8, 12, 1), 524_288);
     assert_eq!(rans_bound(23, 8, 12, 3), 1_572_864);
     assert_eq!(rans_bound(23, 8, 12, 4096), 1 << 31);
-    // Ours, L = 2^16 and b = 2^16: the generated `limit` is that bound minus one.
-    for scale_bits in 1..=15u32 {
-        let m = 1u32 << scale_bits;
+    // Ours, L = 2^16 and b = 2^16: the generated `ceiling` is that bound minus one.
+    for table_bits in 1..=15u32 {
+        let m = 1u32 << table_bits;
         let slots = [1, m - 1];
-        let rans = Rans::new(&slots, scale_bits).unwrap();
+        let rans = Rans::new(&slots, table_bits).unwrap();
         for (s, &f) in slots.iter().enumerate() {
-            let rule = rans.rule(s);
+            let put = rans.put(s);
             assert_eq!(
-                u64::from(rule.limit) + 1,
-                rans_bound(16, 16, scale_bits, u64::from(f))
+                u64::from(put.ceiling) + 1,
+                rans_bound(16, 16, table_bits, u64::from(f))
             );
         }
     }

@@ -23,7 +23,7 @@ fn a_word_list_codes_within_one_percent_of_its_entropy_bound() {
     let dir = std::env::temp_dir().join(format!("precast-real-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let spec = format!(
-        "[codec.words]\nkind = \"bytes\"\nscale_bits = 12\nsymbols = [{}]\nsamples = [\"{WORDS}\"]\n",
+        "[codec.words]\nkind = \"bytes\"\ntable_bits = 12\nsymbols = [{}]\nsamples = [\"{WORDS}\"]\n",
         symbols.join(", ")
     );
     let path = dir.join("words.toml");

@@ -49,7 +49,7 @@ fn semantic_errors_name_the_codec_and_the_value() {
     let cases: &[(&str, &str, &str)] = &[
         ("[codec.a]\nkind = \"words\"\ntext = \"x\"\n", "codecs.toml:2:8: codec `a`:", "unknown kind"),
         ("[codec.a]\nkind = \"bytes\"\nmethod = \"zip\"\ntext = \"x\"\n", "codecs.toml:3:10: codec `a`:", "unknown method"),
-        ("[codec.a]\nkind = \"bytes\"\nscale_bits = 16\ntext = \"x\"\n", "codecs.toml:3:14: codec `a`:", "out of range"),
+        ("[codec.a]\nkind = \"bytes\"\ntable_bits = 16\ntext = \"x\"\n", "codecs.toml:3:14: codec `a`:", "out of range"),
         ("[codec.a]\nkind = \"bytes\"\nsymbols = \"abca\"\ntext = \"a\"\n", "codecs.toml:3:11: codec `a`:", "listed twice"),
         ("[codec.a]\nkind = \"bytes\"\nsymbols = [1, 300]\ntext = \"a\"\n", "codecs.toml:3:15: codec `a`:", "out of range"),
         ("[codec.a]\nkind = \"tokens\"\nsymbols = [\"ok\", \"no way\"]\ncounts = { ok = 1 }\n", "codecs.toml:3:18: codec `a`:", "token name"),
@@ -59,7 +59,7 @@ fn semantic_errors_name_the_codec_and_the_value() {
         ("[codec.a]\nkind = \"tokens\"\ncounts = { ok = 1 }\n", "codecs.toml:1:1: codec `a`:", "missing key `symbols`"),
         ("[codec.Bad]\nkind = \"bytes\"\ntext = \"x\"\n", "codecs.toml:1:1: codec `Bad`:", "snake_case"),
         ("[codec.match]\nkind = \"bytes\"\ntext = \"x\"\n", "codecs.toml:1:1: codec `match`:", "keyword"),
-        ("[codec.a]\nkind = \"bytes\"\nscale_bits = 3\ntext = \"x\"\n", "codecs.toml:3:14: codec `a`:", "do not fit"),
+        ("[codec.a]\nkind = \"bytes\"\ntable_bits = 3\ntext = \"x\"\n", "codecs.toml:3:14: codec `a`:", "do not fit"),
         ("[codec.a]\nkind = \"tokens\"\nsymbols = [\"low_battery\", \"lowBattery\"]\ncounts = {}\n", "codecs.toml:3:11: codec `a`:", "both become the variant `LowBattery`"),
         ("[codec.a]\nkind = \"bytes\"\nsymbols = \"ab\"\ntext = \"abc\"\n", "codecs.toml:4:8: codec `a`:", "byte 99 ('c') is not in the alphabet (at byte 2 of the inline text)"),
         ("[codec.a]\nkind = \"bytes\"\nsymbols = \"ab\"\ncounts = { a = 3 }\n", "codecs.toml:4:16: codec `a`:", "not a byte value"),
@@ -121,10 +121,10 @@ fn a_sample_symbol_outside_the_alphabet_names_file_line_and_offset() {
 
 #[test]
 fn defaults_apply_and_codec_keys_override_them() {
-    let spec = "[defaults]\nscale_bits = 9\nkind = \"tokens\"\n\n[codec.a]\nsymbols = [\"x\", \"y\"]\ncounts = { x = 3, y = 1 }\n\n[codec.b]\nkind = \"bytes\"\nscale_bits = 10\ntext = \"hello\"\nsymbols = \"helo\"\n";
+    let spec = "[defaults]\ntable_bits = 9\nkind = \"tokens\"\n\n[codec.a]\nsymbols = [\"x\", \"y\"]\ncounts = { x = 3, y = 1 }\n\n[codec.b]\nkind = \"bytes\"\ntable_bits = 10\ntext = \"hello\"\nsymbols = \"helo\"\n";
     let r = precast::render_str(spec, Path::new("codecs.toml")).unwrap();
-    assert_eq!(r.reports[0].scale_bits, 9);
-    assert_eq!(r.reports[1].scale_bits, 10);
+    assert_eq!(r.reports[0].table_bits, 9);
+    assert_eq!(r.reports[1].table_bits, 10);
     // Codecs keep the order of the file, not alphabetical order.
     let spec = "[codec.zeta]\nkind = \"bytes\"\ntext = \"a\"\nsymbols = \"a\"\n[codec.alpha]\nkind = \"bytes\"\ntext = \"b\"\nsymbols = \"b\"\n";
     let r = precast::render_str(spec, Path::new("codecs.toml")).unwrap();

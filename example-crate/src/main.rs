@@ -595,7 +595,7 @@ fn report(gauges: &[Gauge]) -> Result<(), String> {
             r.headers as f64 / r.streams as f64
         );
     }
-    println!("ratio: encoded / bound; per stream: header, final coder state (scale bits), padding");
+    println!("ratio: encoded / bound; per stream: header, final coder state (table bits), padding");
     Ok(())
 }
 

@@ -6,7 +6,7 @@ use precast::spec::Source;
 use std::path::Path;
 
 // Above 2^10 slots rendering gets slow enough to starve the fuzzer of executions.
-const MAX_RENDER_SCALE_BITS: u32 = 10;
+const MAX_RENDER_TABLE_BITS: u32 = 10;
 
 fuzz_target!(|data: &[u8]| {
     let Ok(text) = std::str::from_utf8(data) else {
@@ -18,7 +18,7 @@ fuzz_target!(|data: &[u8]| {
     };
     // Samples would read files relative to the working directory: keep it pure.
     let renderable = spec.codecs.iter().all(|c| {
-        c.scale_bits <= MAX_RENDER_SCALE_BITS
+        c.table_bits <= MAX_RENDER_TABLE_BITS
             && !c.sources.iter().any(|s| matches!(s, Source::Sample { .. }))
     });
     if renderable {

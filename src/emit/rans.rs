@@ -1,0 +1,319 @@
+//! The emitted rANS encoder and decoder (tables from `method/rans.rs`): a 32-bit state in
+//! `[2^16, 2^32)` that moves in 16-bit words, encoded without division (a reciprocal per
+//! symbol), decoded by a slot table or a search over the cumulative slots.
+
+use super::framing::{self, FramingTokens};
+use super::input::{self, InputTokens};
+use super::rows::{push_number, rows_of, RowSets};
+use crate::method::rans::Rans;
+use crate::plan::CodecPlan;
+use crate::spec::Lookup;
+use proc_macro2::{Literal, TokenStream};
+use quote::quote;
+
+pub fn body(
+    plan: &CodecPlan,
+    rans: &Rans,
+    framing: &FramingTokens,
+    input: &InputTokens,
+    rows: &mut RowSets,
+) -> TokenStream {
+    let kind = plan.spec.kind.as_ref();
+    let lanes = plan.spec.lanes as usize;
+    let state_bytes = Literal::usize_unsuffixed(4 * lanes);
+    let window = Literal::usize_unsuffixed(2 * lanes);
+    let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
+    let FramingTokens {
+        header_max,
+        header_len,
+        start,
+        ..
+    } = framing;
+    let InputTokens {
+        row,
+        declare,
+        check,
+        refuse,
+        field,
+        ..
+    } = input;
+    let finish = framing::write_header(plan.spec.framing, quote!(0));
+    let word = super::tail_word();
+    let put_rows = rows.add(input::put_rows(kind, &plan.input, |line, s| {
+        let p = rans.put(s);
+        line.push_str("reciprocal: ");
+        push_number(line, u64::from(p.reciprocal));
+        line.push_str(", ceiling: ");
+        push_number(line, u64::from(p.ceiling));
+        line.push_str(", start: ");
+        push_number(line, u64::from(p.start));
+        line.push_str(", gap: ");
+        push_number(line, u64::from(p.gap));
+        line.push_str(", shift: ");
+        push_number(line, u64::from(p.shift));
+    }));
+    let all = kind.all_symbols();
+    let lookup = match plan.spec.lookup {
+        Lookup::Table => {
+            let slots: Vec<u32> = (0..1u32 << rans.table_bits).collect();
+            let decode_rows = rows.add(rows_of(&slots, 8, |line, &slot| {
+                let s = rans.symbol_at(slot);
+                line.push_str("Step(");
+                line.push_str(&kind.row_literal(s));
+                line.push_str(", ");
+                push_number(line, u64::from(slot - rans.cum[s]));
+                line.push_str(", ");
+                push_number(line, u64::from(rans.slots[s]));
+                line.push_str("), ");
+            }));
+            quote! {
+                /// What slot `i` decodes to, `Step(symbol, i - c, f)`: the symbol owning the
+                /// slot, the slot's place in the symbol's range and the symbol's slot count
+                /// (a `u32`, so that an entry is 8 bytes and its index scales by a shift).
+                struct Step(Symbol, u16, u32);
+
+                /// Decode steps by slot.
+                static DECODE: [Step; TABLE_LEN] = #decode_rows;
+
+                /// The symbol owning `slot`, its slots and the slot's offset in its range.
+                #[inline(always)]
+                fn lookup(slot: usize) -> (Symbol, u32, u32) {
+                    let step = &DECODE[slot & MASK];
+                    (step.0, step.2, u32::from(step.1))
+                }
+            }
+        }
+        Lookup::Search => {
+            let cum_rows = rows.add(rows_of(&rans.cum, 16, |line, &c| {
+                push_number(line, u64::from(c));
+                line.push_str(", ");
+            }));
+            quote! {
+                /// Cumulative slots: symbol `s` owns slots `CUM[s] .. CUM[s + 1]`.
+                static CUM: [u16; ALPHABET_LEN + 1] = #cum_rows;
+
+                /// The symbol owning `slot`, its slots and the slot's offset in its range,
+                /// by a binary search of fixed length over `CUM` (small tables, slower).
+                #[inline(always)]
+                fn lookup(slot: usize) -> (Symbol, u32, u32) {
+                    let slot = (slot & MASK) as u32;
+                    let mut low = 0usize;
+                    let mut len = ALPHABET_LEN;
+                    while len > 1 {
+                        let half = len / 2;
+                        let c = CUM.get(low + half).copied().unwrap_or(u16::MAX);
+                        low += if u32::from(c) <= slot { half } else { 0 };
+                        len -= half;
+                    }
+                    match (#all.get(low), CUM.get(low), CUM.get(low + 1)) {
+                        (Some(&symbol), Some(&c), Some(&next)) => {
+                            (symbol, u32::from(next - c), slot - u32::from(c))
+                        }
+                        // Unreachable: `low < ALPHABET_LEN`.
+                        _ => (#all[0], 1, 0),
+                    }
+                }
+            }
+        }
+    };
+
+    quote! {
+        /// Lower end of the state interval `[LOW, 2^32)`; states move in 16-bit words.
+        const LOW: u32 = 1 << 16;
+
+        /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
+        pub const fn max_encoded_len(symbols: usize) -> usize {
+            (#header_max)
+                .saturating_add(4 * LANES)
+                .saturating_add(symbols.saturating_mul(2))
+        }
+
+        /// One encoder step after renormalisation: `C(s, x) = M floor(x / f) + c + x mod f`,
+        /// written `x + start + floor(x / f) * gap`, with the quotient by the reciprocal.
+        #[inline(always)]
+        fn put_symbol(x: u32, put: &Put) -> u32 {
+            let wide = u64::from(x);
+            let q = (wide + ((wide * u64::from(put.reciprocal)) >> 32)) >> put.shift;
+            x.wrapping_add(u32::from(put.start))
+                .wrapping_add((q as u32).wrapping_mul(u32::from(put.gap)))
+        }
+
+        /// Renormalises `x` for `put` the careful way, storing a word in front of `pos`.
+        #[inline(always)]
+        fn shed(x: u32, put: &Put, out: &mut [u8], pos: &mut usize) -> Result<u32, Error> {
+            if x <= put.ceiling {
+                return Ok(x);
+            }
+            let Some(start) = pos.checked_sub(2) else {
+                return Err(Error::OutputTooSmall);
+            };
+            let Some(dst) = out.get_mut(start..*pos) else {
+                return Err(Error::OutputTooSmall);
+            };
+            dst.copy_from_slice(&(x as u16).to_le_bytes());
+            *pos = start;
+            Ok(x >> 16)
+        }
+
+        /// Encodes `input` into `out` as one stream; returns its length.
+        ///
+        /// The stream is written back to front at the end of `out`, then moved to the
+        /// front; `out` beyond the returned length is left unspecified.
+        #[allow(clippy::modulo_one)]
+        pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
+            let header = #header_len;
+            let end = out.len();
+            let mut pos = end;
+            let mut state = [LOW; LANES];
+            #declare
+            // Symbols go in backwards, so the last, partial round comes first.
+            let (rounds, rest) = input.as_chunks::<LANES>();
+            for (lane, &symbol) in rest.iter().enumerate().rev() {
+                let put = &PUTS[#row];
+                #check
+                let x = shed(state[lane % LANES], put, out, &mut pos)?;
+                state[lane % LANES] = put_symbol(x, put);
+            }
+            for round in rounds.iter().rev() {
+                let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<#window>);
+                if let Some(window) = window {
+                    // Fast path: every store lands in `window`; the word is always stored
+                    // and kept only when the state sheds it.
+                    let top = pos;
+                    for lane in (0..LANES).rev() {
+                        let symbol = round[lane];
+                        let put = &PUTS[#row];
+                        #check
+                        let x = state[lane];
+                        let shed = u32::from(x > put.ceiling);
+                        let at = (2 * LANES - 2).saturating_sub(top.wrapping_sub(pos));
+                        window[at..at + 2].copy_from_slice(&(x as u16).to_le_bytes());
+                        pos -= (shed as usize) << 1;
+                        // Branch-free: the word goes when the state is over the ceiling.
+                        state[lane] = put_symbol(x >> (shed << 4), put);
+                    }
+                } else {
+                    for lane in (0..LANES).rev() {
+                        let symbol = round[lane];
+                        let put = &PUTS[#row];
+                        #check
+                        let x = shed(state[lane], put, out, &mut pos)?;
+                        state[lane] = put_symbol(x, put);
+                    }
+                }
+            }
+            #refuse
+            // The final states, lane 0 in front.
+            for &x in state.iter().rev() {
+                let Some(start) = pos.checked_sub(4) else {
+                    return Err(Error::OutputTooSmall);
+                };
+                let Some(dst) = out.get_mut(start..pos) else {
+                    return Err(Error::OutputTooSmall);
+                };
+                dst.copy_from_slice(&x.to_le_bytes());
+                pos = start;
+            }
+            if pos < header {
+                return Err(Error::OutputTooSmall);
+            }
+            out.copy_within(pos..end, header);
+            let len = header + (end - pos);
+            #finish
+            Ok(len)
+        }
+
+        /// Decodes the stream at the front of `stream` (more may follow it); returns the
+        /// number of symbols and the number of bytes the stream took.
+        #[allow(clippy::modulo_one)]
+        pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
+            #start
+            // rANS streams carry no padding.
+            if pad != 0 {
+                return Err(Error::Corrupt);
+            }
+            let payload = stream.get(header..).unwrap_or(&[]);
+            let Some(head) = payload.first_chunk::<#state_bytes>() else {
+                return Err(Error::Truncated);
+            };
+            let mut state = [0u32; LANES];
+            for (x, bytes) in state.iter_mut().zip(head.chunks_exact(4)) {
+                let mut w = [0u8; 4];
+                w.copy_from_slice(bytes);
+                *x = u32::from_le_bytes(w);
+            }
+            if state.iter().any(|&x| x < LOW) {
+                return Err(Error::Corrupt);
+            }
+            let mut at = 4 * LANES;
+            let (rounds, _) = out.as_chunks_mut::<LANES>();
+            let mut done = 0;
+            for round in rounds.iter_mut() {
+                let Some(window) = payload.get(at..).and_then(<[u8]>::first_chunk::<#window>) else {
+                    break;
+                };
+                // Fast path: every read lands in `window`; the word is always read and
+                // taken only when the state needs it.
+                let first = at;
+                for lane in 0..LANES {
+                    let x = state[lane];
+                    let (symbol, f, offset) = lookup(x as usize);
+                    round[lane] = symbol;
+                    let x = f.wrapping_mul(x >> TABLE_BITS).wrapping_add(offset);
+                    let w = window_half(window, at.wrapping_sub(first));
+                    // Branch-free refill: shift in the word when the state fell below LOW.
+                    let need = u32::from(x < LOW);
+                    state[lane] = (x << (need << 4)) | (w & need.wrapping_neg());
+                    at += (need as usize) << 1;
+                }
+                done += LANES;
+            }
+            for (i, slot) in out.iter_mut().enumerate().skip(done) {
+                let x = &mut state[i % LANES];
+                let (symbol, f, offset) = lookup(*x as usize);
+                *slot = symbol;
+                let y = f.wrapping_mul(*x >> TABLE_BITS).wrapping_add(offset);
+                *x = if y < LOW {
+                    at += 2;
+                    (y << 16) | (word(payload, at - 2) as u32 & 0xffff)
+                } else {
+                    y
+                };
+            }
+            if at > payload.len() {
+                return Err(Error::Truncated);
+            }
+            if state.iter().any(|&x| x != LOW) {
+                return Err(Error::Corrupt);
+            }
+            Ok((count, header + at))
+        }
+
+        #word
+
+        /// Two bytes of `window` from `at` on, little-endian. The rounds never read past
+        /// `N - 2`; the `min` only lets the compiler see it and drop the bounds check.
+        #[inline(always)]
+        fn window_half<const N: usize>(window: &[u8; N], at: usize) -> u32 {
+            let at = if at < N - 2 { at } else { N - 2 };
+            u32::from(u16::from_le_bytes([window[at], window[at + 1]]))
+        }
+
+        #lookup
+
+        /// How to put a symbol into the state: write a word first when `x > ceiling`, then
+        /// `x + start + floor(x / f) * gap`, where `gap = M - f` and
+        /// `floor(x / f) = (x + (x * reciprocal >> 32)) >> shift`.
+        struct Put {
+            reciprocal: u32,
+            ceiling: u32,
+            start: u16,
+            gap: u16,
+            shift: u8,
+            #field
+        }
+
+        /// Encoding records, indexed by input value.
+        static PUTS: [Put; #put_len] = #put_rows;
+    }
+}

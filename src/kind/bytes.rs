@@ -1,0 +1,214 @@
+//! `kind = "bytes"`: symbols are byte values, `Symbol = u8`.
+
+use super::{InputMap, Kind, KindEntry, Misfit, Misplaced};
+use proc_macro2::{Literal, TokenStream};
+use quote::quote;
+use std::ops::Range;
+use std::sync::Arc;
+use toml::de::DeValue;
+use toml::Spanned;
+
+pub const ENTRY: KindEntry = KindEntry {
+    name: "bytes",
+    read,
+};
+
+/// A byte alphabet, in spec order.
+#[derive(Debug, Clone)]
+pub struct Bytes {
+    values: Vec<u8>,
+    /// Symbol index of each byte value.
+    index: [Option<u16>; 256],
+}
+
+/// `symbols` is a string (its bytes) or a list of byte values and one-byte strings; absent,
+/// it is all 256 byte values.
+fn read(
+    symbols: Option<&Spanned<DeValue<'_>>>,
+    _codec: Range<usize>,
+) -> Result<Arc<dyn Kind>, Vec<Misplaced>> {
+    let mut values: Vec<(u8, Range<usize>)> = Vec::new();
+    let mut errors = Vec::new();
+    match symbols {
+        None => values.extend((0..=255u8).map(|b| (b, 0..0))),
+        Some(raw) => match raw.get_ref() {
+            DeValue::String(s) => values.extend(s.bytes().map(|b| (b, raw.span()))),
+            DeValue::Array(items) => {
+                for item in items.iter() {
+                    match item.get_ref() {
+                        DeValue::Integer(i) => {
+                            match i128::from_str_radix(i.as_str(), i.radix())
+                                .ok()
+                                .and_then(|v| u8::try_from(v).ok())
+                            {
+                                Some(b) => values.push((b, item.span())),
+                                None => errors.push((
+                                    item.span(),
+                                    format!("byte value {} is out of range 0..=255", i.as_str()),
+                                )),
+                            }
+                        }
+                        DeValue::String(s) if s.len() == 1 => {
+                            values.push((s.as_bytes()[0], item.span()));
+                        }
+                        DeValue::String(s) => errors.push((
+                            item.span(),
+                            format!("\"{s}\" is not a single byte: list byte values as integers or one-byte strings"),
+                        )),
+                        other => errors.push((
+                            item.span(),
+                            format!("a byte symbol is an integer or a one-byte string, found {}", other.type_str()),
+                        )),
+                    }
+                }
+            }
+            other => errors.push((
+                raw.span(),
+                format!(
+                    "`symbols` of a bytes codec is a string or a list of byte values, found {}",
+                    other.type_str()
+                ),
+            )),
+        },
+    }
+    let mut index = [None; 256];
+    let mut kept = Vec::with_capacity(values.len());
+    for (b, span) in values {
+        match index[usize::from(b)] {
+            Some(first) => errors.push((
+                span,
+                format!(
+                    "symbol {} is listed twice (first as entry {})",
+                    show_byte(b),
+                    usize::from(first) + 1
+                ),
+            )),
+            None => {
+                index[usize::from(b)] = Some(kept.len() as u16);
+                kept.push(b);
+            }
+        }
+    }
+    if kept.is_empty() && errors.is_empty() {
+        if let Some(raw) = symbols {
+            errors.push((
+                raw.span(),
+                "the alphabet is empty: declare at least one symbol".to_string(),
+            ));
+        }
+    }
+    if errors.is_empty() {
+        Ok(Arc::new(Bytes {
+            values: kept,
+            index,
+        }))
+    } else {
+        Err(errors)
+    }
+}
+
+impl Kind for Bytes {
+    fn name(&self) -> &'static str {
+        ENTRY.name
+    }
+
+    fn tag(&self) -> u8 {
+        1
+    }
+
+    fn alphabet_len(&self) -> usize {
+        self.values.len()
+    }
+
+    fn symbol_bytes(&self) -> usize {
+        1
+    }
+
+    fn identity(&self) -> Vec<u8> {
+        self.values.clone()
+    }
+
+    fn label(&self, symbol: usize) -> String {
+        show_byte(self.values[symbol])
+    }
+
+    fn describe(&self, symbol: usize) -> String {
+        show_byte(self.values[symbol])
+    }
+
+    fn count_key(&self, key: &str) -> Result<usize, String> {
+        // Canonical decimal only, so that `97`, `"097"` and `"+97"` cannot name one byte twice.
+        let canonical = !key.is_empty()
+            && key.bytes().all(|b| b.is_ascii_digit())
+            && (key == "0" || !key.starts_with('0'));
+        let byte = canonical.then(|| key.parse::<u8>().ok()).flatten();
+        let Some(b) = byte else {
+            return Err(format!(
+                "count key \"{key}\" is not a byte value: a bytes codec keys its counts by decimal byte value, e.g. 97 = 120"
+            ));
+        };
+        self.index[usize::from(b)]
+            .map(usize::from)
+            .ok_or_else(|| format!("count for {} which is not in the alphabet", show_byte(b)))
+    }
+
+    fn scan(&self, data: &[u8]) -> Result<Vec<u16>, Misfit> {
+        let mut out = Vec::with_capacity(data.len());
+        for (offset, &b) in data.iter().enumerate() {
+            match self.index[usize::from(b)] {
+                Some(i) => out.push(i),
+                None => {
+                    return Err(Misfit {
+                        offset,
+                        message: format!("{} is not in the alphabet", show_byte(b)),
+                    })
+                }
+            }
+        }
+        Ok(out)
+    }
+
+    fn input(&self) -> InputMap {
+        InputMap::Rows(self.index.to_vec())
+    }
+
+    fn symbol_items(&self) -> TokenStream {
+        let values = self.values.iter().map(|&b| Literal::u8_unsuffixed(b));
+        quote! {
+            /// A symbol of this codec: one of the byte values in [`ALPHABET`].
+            pub type Symbol = u8;
+            /// The alphabet, in spec order.
+            pub const ALPHABET: [Symbol; ALPHABET_LEN] = [#(#values),*];
+        }
+    }
+
+    fn all_symbols(&self) -> TokenStream {
+        quote!(ALPHABET)
+    }
+
+    fn row_literal(&self, symbol: usize) -> String {
+        byte_literal(self.values[symbol])
+    }
+}
+
+/// A byte for messages: `byte 97 ('a')`, `byte 255 (\xff)`.
+pub fn show_byte(b: u8) -> String {
+    if b.is_ascii_graphic() || b == b' ' {
+        format!("byte {b} ({:?})", b as char)
+    } else {
+        format!("byte {b} ({})", std::ascii::escape_default(b))
+    }
+}
+
+/// A byte as a Rust literal in table rows.
+pub fn byte_literal(b: u8) -> String {
+    match b {
+        b'\'' => "b'\\''".to_string(),
+        b'\\' => "b'\\\\'".to_string(),
+        b' '..=b'~' => format!("b'{}'", b as char),
+        b'\n' => "b'\\n'".to_string(),
+        b'\t' => "b'\\t'".to_string(),
+        b'\r' => "b'\\r'".to_string(),
+        _ => format!("0x{b:02x}"),
+    }
+}

@@ -1,0 +1,99 @@
+//! Codec kinds: what a symbol is. Each kind lives in one file behind [`Kind`] and is
+//! registered in [`KINDS`] with one line. A kind owns how `symbols` is read and checked, how
+//! training data and count keys become symbol indices, its fingerprint tag, the generated
+//! `Symbol` items, the labels of table rows and report lines, and how an input value of the
+//! generated `encode` finds its table row ([`InputMap`]).
+
+mod bytes;
+mod tokens;
+
+use proc_macro2::TokenStream;
+use std::fmt;
+use std::ops::Range;
+use std::sync::Arc;
+use toml::de::DeValue;
+use toml::Spanned;
+
+/// A problem with the spec at a byte span of its text; the spec stage adds file and codec.
+pub type Misplaced = (Range<usize>, String);
+
+/// Reads a kind's alphabet from its `symbols` value (absent: the kind's default, if any).
+/// `codec` is the span of the whole codec table, for errors about a missing key.
+pub type ReadSymbols = fn(
+    symbols: Option<&Spanned<DeValue<'_>>>,
+    codec: Range<usize>,
+) -> Result<Arc<dyn Kind>, Vec<Misplaced>>;
+
+/// One registered kind: its name in specs and its reader.
+pub struct KindEntry {
+    pub name: &'static str,
+    pub read: ReadSymbols,
+}
+
+/// Every kind a spec may name, in the order messages list them.
+pub const KINDS: &[KindEntry] = &[bytes::ENTRY, tokens::ENTRY];
+
+/// The kind named `name`, if registered.
+pub fn find(name: &str) -> Option<&'static KindEntry> {
+    KINDS.iter().find(|k| k.name == name)
+}
+
+/// `"bytes" or "tokens"`, for messages.
+pub fn names() -> String {
+    let quoted: Vec<String> = KINDS.iter().map(|k| format!("\"{}\"", k.name)).collect();
+    match quoted.split_last() {
+        Some((last, [])) => last.clone(),
+        Some((last, rest)) => format!("{} or {last}", rest.join(", ")),
+        None => String::new(),
+    }
+}
+
+/// A symbol of the training data that is not in the alphabet: where and what.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Misfit {
+    /// Byte offset into the scanned data.
+    pub offset: usize,
+    pub message: String,
+}
+
+/// How a value handed to the generated `encode` finds its row of the encoding table.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum InputMap {
+    /// The input type is the symbol enum: `value as usize` is the symbol index.
+    Index,
+    /// The input is a raw value that indexes one row each; a row holds its symbol, or `None`
+    /// for values outside the alphabet (the encoder refuses them). Kinds that code part of
+    /// a value as raw extra bits after the symbol (integer bins, escapes) will add those bits
+    /// to this variant's rows.
+    Rows(Vec<Option<u16>>),
+}
+
+/// One validated alphabet of a given kind.
+pub trait Kind: fmt::Debug + Send + Sync {
+    /// The kind's name in specs, e.g. `"bytes"`.
+    fn name(&self) -> &'static str;
+    /// The kind's byte in the fingerprint; never reuse one.
+    fn tag(&self) -> u8;
+    /// Number of symbols.
+    fn alphabet_len(&self) -> usize;
+    /// Bytes of one generated `Symbol`.
+    fn symbol_bytes(&self) -> usize;
+    /// The alphabet as bytes, for the fingerprint.
+    fn identity(&self) -> Vec<u8>;
+    /// A symbol in report lines: `ok`, `byte 97 ('a')`.
+    fn label(&self, symbol: usize) -> String;
+    /// A symbol in messages: `"ok"`, `byte 97 ('a')`.
+    fn describe(&self, symbol: usize) -> String;
+    /// The symbol a key of `counts` names.
+    fn count_key(&self, key: &str) -> Result<usize, String>;
+    /// Training data (a sample file or inline text) as symbol indices.
+    fn scan(&self, data: &[u8]) -> Result<Vec<u16>, Misfit>;
+    /// How encoder input finds its table row.
+    fn input(&self) -> InputMap;
+    /// The generated `Symbol` type and its companions (`ALPHABET`, `ALL`, ...).
+    fn symbol_items(&self) -> TokenStream;
+    /// The name of the generated array holding every symbol in alphabet order.
+    fn all_symbols(&self) -> TokenStream;
+    /// A symbol as a Rust expression in table rows (`b'a'`, `Symbol::Ok`).
+    fn row_literal(&self, symbol: usize) -> String;
+}

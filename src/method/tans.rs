@@ -1,0 +1,289 @@
+//! tANS, table-driven ANS (Duda, "Asymmetric numeral systems", arXiv:0902.0271, and
+//! arXiv:1311.2540). States are `x` in `[L, 2L)`, `L = 2^table_bits`; table position `i` is
+//! state `L + i`. The spread puts `q_s` copies of each symbol `s` in the table; the copies of
+//! `s`, left to right, are numbered `q_s .. 2q_s - 1` (the symbol's own small states).
+//!
+//! Decoding at position `i` (symbol `s`, number `o`): emit `s`, read `k = table_bits -
+//! floor(log2 o)` bits `b`, go to state `(o << k) + b`. Encoding `s` from state `x` is the
+//! inverse: write the low `k` bits of `x` where `x >> k` lands in `[q_s, 2q_s)`, then go to the
+//! position of copy number `x >> k` of `s`.
+//!
+//! This file owns the tables, the spreads, the encoding record and the table layout; the
+//! exact rate is in `rate.rs`, the emitted functions in `emit/tans.rs`.
+
+use super::rate::Chain;
+use super::{LayoutEntry, TableLayout};
+use crate::error::{Error, Result};
+use crate::quantize::ln;
+
+/// How the symbols were laid out in the table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SpreadRule {
+    /// Copy `j` of `s` sorted by `(j + 1/2) / q_s`: evenly spaced by the slots.
+    Even,
+    /// Copy number `o` of `s` sorted by `1 / (p_s · ln(1 + 1/o))`, the state at which `o`
+    /// is the ideal successor for the symbol's true probability `p_s` (not the rounded one).
+    Tuned,
+    /// Walk the table with a fixed odd step `L/2 + L/8 + 3`, the scattering rule of Duda's
+    /// arXiv:1311.2540 section on tANS (from memory).
+    Stride,
+    /// Given explicitly (tests, and anyone reproducing a published table).
+    Given,
+}
+
+impl SpreadRule {
+    pub fn describe(self) -> &'static str {
+        match self {
+            SpreadRule::Even => "even (copies spaced by their slot share)",
+            SpreadRule::Tuned => "tuned (copies placed for the true probabilities)",
+            SpreadRule::Stride => "stride (fixed odd step through the table)",
+            SpreadRule::Given => "given",
+        }
+    }
+}
+
+/// One decode table entry: what position `i` emits and where it goes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct DecodeEntry {
+    /// Symbol index in alphabet order.
+    pub symbol: u16,
+    /// Bits to read after emitting.
+    pub bits: u8,
+    /// Next position before the read bits are added: `(o << bits) - L`.
+    pub base: u16,
+}
+
+/// How the encoder puts one symbol into the state: a record per symbol. The arithmetic is
+/// Duda's tANS encoding step (arXiv:1311.2540, from memory): the bit count is the top of
+/// `x + spend`, and the next state is found in the symbol's run of `next_state`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Put {
+    /// Bits written from state `x`: `(x + spend) >> (table_bits + 1)`, wrapping u32 arithmetic.
+    pub spend: u32,
+    /// Copy number `o` of this symbol sits at `next_state[(o + run) mod L]`: the start of the
+    /// symbol's run, less its slot count.
+    pub run: u16,
+}
+
+/// A finished tANS table set.
+#[derive(Debug, Clone)]
+pub struct Tans {
+    pub table_bits: u32,
+    pub slots: Vec<u32>,
+    pub spread_rule: SpreadRule,
+    /// Symbol index at each table position.
+    pub spread: Vec<u16>,
+    pub decode: Vec<DecodeEntry>,
+    pub puts: Vec<Put>,
+    /// For each symbol in turn, the states `L + i` of its copies in order: `L` entries in all.
+    pub next_state: Vec<u16>,
+}
+
+impl Tans {
+    pub fn table_len(&self) -> usize {
+        1usize << self.table_bits
+    }
+
+    /// Bits the encoder writes for `symbol` from state `x` in `[L, 2L)`.
+    pub fn encode_bits(&self, symbol: usize, x: u32) -> u32 {
+        x.wrapping_add(self.puts[symbol].spend) >> (self.table_bits + 1)
+    }
+
+    /// State after encoding `symbol` from state `x`, with the bit count written.
+    pub fn encode_step(&self, symbol: usize, x: u32) -> (u32, u32) {
+        let k = self.encode_bits(symbol, x);
+        let o = x >> k;
+        let mask = (1u32 << self.table_bits) - 1;
+        let index = (o + u32::from(self.puts[symbol].run)) & mask;
+        (u32::from(self.next_state[index as usize]), k)
+    }
+}
+
+/// Largest table whose decode entries carry their mask (8-byte entries, 16 KiB at most): one
+/// load instead of a shift on the decoder's critical path. Larger tables keep 4-byte entries
+/// so that the table stays in L1 cache and flash.
+pub const MASKED_TABLE_BITS: u32 = 11;
+
+/// Largest table whose [`Put::spend`] fits 16 bits (`spend < (table_bits + 1) << (table_bits + 1)`).
+pub const NARROW_SPEND_TABLE_BITS: u32 = 11;
+
+impl Tans {
+    /// Whether decode entries carry their mask.
+    pub fn stored_mask(&self) -> bool {
+        self.table_bits <= MASKED_TABLE_BITS
+    }
+
+    /// Whether [`Put::spend`] is stored in 16 bits.
+    pub fn narrow_spend(&self) -> bool {
+        self.table_bits <= NARROW_SPEND_TABLE_BITS
+    }
+
+    /// The emitted tables: `symbol_bytes` is the size of the generated `Symbol`, `put_rows`
+    /// the rows of the encoding table, `absent` whether those rows carry an absent flag.
+    pub fn layout(&self, symbol_bytes: usize, put_rows: usize, absent: bool) -> TableLayout {
+        let l = self.table_len();
+        let mut step = vec![symbol_bytes, 1, 2];
+        if self.stored_mask() {
+            step.push(4);
+        }
+        let mut put = vec![if self.narrow_spend() { 2 } else { 4 }, 2];
+        if absent {
+            put.push(1);
+        }
+        TableLayout {
+            tables: vec![
+                LayoutEntry::new("DECODE", "Step", l, &step),
+                LayoutEntry::new("PUTS", "Put", put_rows, &put),
+                LayoutEntry::new("NEXT_STATE", "u16", l, &[2]),
+            ],
+        }
+    }
+}
+
+/// Builds the tables for `slots` (summing to `2^table_bits`) and the training probabilities,
+/// trying every spread rule and keeping the one with the lowest rate (ranked after a few
+/// rounds of the chain; the winner's rate is then solved exactly).
+pub fn build(slots: &[u32], probabilities: &[f64], table_bits: u32) -> Result<(Tans, f64)> {
+    let mut best: Option<(Tans, Chain, f64)> = None;
+    for rule in [SpreadRule::Tuned, SpreadRule::Even, SpreadRule::Stride] {
+        let spread = spread(rule, slots, probabilities, table_bits);
+        let tans = from_spread(slots, spread, rule, table_bits)?;
+        let mut chain = Chain::new(&tans, probabilities);
+        chain.settle(super::rate::WARM_ROUNDS);
+        let rate = chain.rate();
+        // Strictly lower only: ties keep the earlier rule, so the choice is deterministic.
+        if best.as_ref().is_none_or(|(_, _, r)| rate < *r) {
+            best = Some((tans, chain, rate));
+        }
+    }
+    let (tans, mut chain, _) =
+        best.ok_or_else(|| Error::internal("no spread rule produced a table"))?;
+    chain.refine();
+    let rate = chain.rate();
+    Ok((tans, rate))
+}
+
+/// Lays out the symbols by `rule`.
+pub fn spread(rule: SpreadRule, slots: &[u32], p: &[f64], table_bits: u32) -> Vec<u16> {
+    let l = 1usize << table_bits;
+    match rule {
+        SpreadRule::Stride => {
+            let step = (l >> 1) + (l >> 3) + 3;
+            let mask = l - 1;
+            let mut table = vec![0u16; l];
+            let mut pos = 0usize;
+            for (s, &q) in slots.iter().enumerate() {
+                for _ in 0..q {
+                    table[pos] = s as u16;
+                    pos = (pos + step) & mask;
+                }
+            }
+            table
+        }
+        SpreadRule::Even => {
+            // Sort copies by (2j+1)/q_s, compared exactly as (2j+1)·q_t against (2k+1)·q_s.
+            let mut copies: Vec<(u64, u64, u16)> = Vec::with_capacity(l);
+            for (s, &q) in slots.iter().enumerate() {
+                for j in 0..q {
+                    copies.push((2 * u64::from(j) + 1, u64::from(q), s as u16));
+                }
+            }
+            copies.sort_by(|a, b| (a.0 * b.1).cmp(&(b.0 * a.1)).then(a.2.cmp(&b.2)));
+            copies.into_iter().map(|c| c.2).collect()
+        }
+        SpreadRule::Tuned => {
+            let mut copies: Vec<(f64, u16)> = Vec::with_capacity(l);
+            for (s, &q) in slots.iter().enumerate() {
+                // A symbol never seen in training keeps its rounded share.
+                let ps = if p[s] > 0.0 {
+                    p[s]
+                } else {
+                    f64::from(q) / l as f64
+                };
+                for o in q..2 * q {
+                    let o = f64::from(o);
+                    copies.push((1.0 / (ps * ln(1.0 + 1.0 / o)), s as u16));
+                }
+            }
+            copies.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+            copies.into_iter().map(|c| c.1).collect()
+        }
+        // A given spread comes from the caller (`from_spread`); there is nothing to lay out.
+        SpreadRule::Given => Vec::new(),
+    }
+}
+
+/// Builds decode and encode tables from a finished spread.
+pub fn from_spread(
+    slots: &[u32],
+    spread: Vec<u16>,
+    rule: SpreadRule,
+    table_bits: u32,
+) -> Result<Tans> {
+    let l = 1usize << table_bits;
+    let total: u64 = slots.iter().map(|&q| u64::from(q)).sum();
+    if spread.len() != l || total != l as u64 || slots.contains(&0) {
+        return Err(Error::internal(format!(
+            "tables: {} positions and {total} slots for a table of {l}",
+            spread.len()
+        )));
+    }
+    let mut seen = vec![0u32; slots.len()];
+    for &s in &spread {
+        match seen.get_mut(usize::from(s)) {
+            Some(c) => *c += 1,
+            None => return Err(Error::internal(format!("tables: spread holds symbol {s}"))),
+        }
+    }
+    if seen != slots {
+        return Err(Error::internal("tables: spread does not match the slots"));
+    }
+
+    let mut first = vec![0u32; slots.len()];
+    let mut acc = 0u32;
+    for (f, &q) in first.iter_mut().zip(slots) {
+        *f = acc;
+        acc += q;
+    }
+    let mut number: Vec<u32> = slots.to_vec();
+    let mut decode = Vec::with_capacity(l);
+    let mut next_state = vec![0u16; l];
+    for (i, &s) in spread.iter().enumerate() {
+        let s_ix = usize::from(s);
+        let o = number[s_ix];
+        number[s_ix] += 1;
+        let bits = table_bits - (31 - o.leading_zeros());
+        decode.push(DecodeEntry {
+            symbol: s,
+            bits: bits as u8,
+            base: ((o << bits) - l as u32) as u16,
+        });
+        next_state[(first[s_ix] + o - slots[s_ix]) as usize] = (l + i) as u16;
+    }
+    let puts = slots
+        .iter()
+        .zip(&first)
+        .map(|(&q, &f)| {
+            let top = 31 - q.leading_zeros(); // floor(log2 q)
+            let k0 = table_bits - top;
+            // A symbol owning the whole table writes no bits: spend 0 gives that for every
+            // state, and keeps `spend` small (the formula would give -L).
+            let spend = if k0 == 0 {
+                0
+            } else {
+                (k0 << (table_bits + 1)) - (q << k0)
+            };
+            let run = (f.wrapping_sub(q) & (l as u32 - 1)) as u16;
+            Put { spend, run }
+        })
+        .collect();
+    Ok(Tans {
+        table_bits,
+        slots: slots.to_vec(),
+        spread_rule: rule,
+        spread,
+        decode,
+        puts,
+        next_state,
+    })
+}

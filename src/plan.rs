@@ -1,0 +1,118 @@
+//! One typed plan per codec, carried from the validated spec to emission: the spec's choices
+//! (kind, method, framing, lanes), the training model, and one or more table sets, each
+//! with its slots, tables, rate and layout. A codec has exactly one table set today;
+//! contexts will give it several, so everything downstream iterates over `sets`.
+
+use crate::error::{Error, Result};
+use crate::kind::InputMap;
+use crate::method::{TableLayout, Tables};
+use crate::model::{self, Model};
+use crate::quantize;
+use crate::report::{self, Report};
+use crate::spec::CodecSpec;
+use crate::verify::{self, Verified};
+
+/// One set of tables and what it costs.
+#[derive(Debug, Clone)]
+pub struct TableSet {
+    pub slots: Vec<u32>,
+    pub tables: Tables,
+    /// Bits per symbol for the training distribution (tANS: exact; rANS: the slots' cost).
+    pub rate: f64,
+    pub layout: TableLayout,
+}
+
+/// A codec ready to emit.
+#[derive(Debug, Clone)]
+pub struct CodecPlan {
+    pub spec: CodecSpec,
+    pub model: Model,
+    pub sets: Vec<TableSet>,
+    /// Ties streams to these tables (FORMAT.md).
+    pub fingerprint: u16,
+    pub input: InputMap,
+    pub verified: Verified,
+    pub report: Report,
+}
+
+impl CodecPlan {
+    /// Rows of the encoding table and whether they carry an absent flag.
+    pub fn put_rows(&self) -> (usize, bool) {
+        put_rows(&self.input, self.spec.kind.alphabet_len())
+    }
+}
+
+fn put_rows(input: &InputMap, symbols: usize) -> (usize, bool) {
+    match input {
+        InputMap::Index => (symbols, false),
+        InputMap::Rows(rows) => (rows.len(), true),
+    }
+}
+
+/// Plans one codec: counts, slots, tables, verification against the reference coder, report.
+/// `samples` are the bytes of its sample files, in the order of its sources.
+pub fn plan(spec: &CodecSpec, samples: Vec<Vec<u8>>) -> Result<CodecPlan> {
+    let in_codec = |e: Error| e.in_codec(&spec.name);
+    let model = model::build(spec, samples)?;
+    let input = spec.kind.input();
+    let (rows, absent) = put_rows(&input, spec.kind.alphabet_len());
+    let set = table_set(
+        spec,
+        &model.counts,
+        &model.probabilities(),
+        spec.table_bits,
+        rows,
+        absent,
+    )
+    .map_err(in_codec)?;
+    let fingerprint = verify::fingerprint(
+        spec.kind.tag(),
+        &spec.kind.identity(),
+        &set.tables,
+        spec.lanes,
+    );
+    let verified = verify::verify(&set.tables, fingerprint, spec.framing, spec.lanes, &model)
+        .map_err(in_codec)?;
+    let report = report::build(spec, &model.counts, &set, verified.clone());
+    Ok(CodecPlan {
+        spec: spec.clone(),
+        model,
+        sets: vec![set],
+        fingerprint,
+        input,
+        verified,
+        report,
+    })
+}
+
+/// The table set for `counts` at `table_bits`, by the codec's method.
+pub fn table_set(
+    spec: &CodecSpec,
+    counts: &[u64],
+    probabilities: &[f64],
+    table_bits: u32,
+    rows: usize,
+    absent: bool,
+) -> Result<TableSet> {
+    let slots = quantize::quantize(counts, table_bits)?;
+    let (tables, rate) = Tables::build(spec.method, &slots, counts, probabilities, table_bits)?;
+    let layout = tables.layout(spec.lookup, spec.kind.symbol_bytes(), rows, absent);
+    Ok(TableSet {
+        slots,
+        tables,
+        rate,
+        layout,
+    })
+}
+
+/// The table size (if any, up to the largest) that brings `plan`'s excess under `percent`,
+/// built with the codec's own method.
+pub fn table_bits_for_excess(plan: &CodecPlan, percent: f64) -> Option<u32> {
+    let entropy = plan.report.entropy;
+    let p = plan.model.probabilities();
+    let (rows, absent) = plan.put_rows();
+    (plan.spec.table_bits + 1..=crate::spec::MAX_TABLE_BITS).find(|&bits| {
+        table_set(&plan.spec, &plan.model.counts, &p, bits, rows, absent)
+            .is_ok_and(|set| 100.0 * (set.rate - entropy) / entropy <= percent)
+    })
+}
