@@ -188,3 +188,127 @@ fn lanes_and_lookup_are_checked() {
         assert!(precast::render_str(&format!("{base}{ok}"), Path::new("c.toml")).is_ok());
     }
 }
+
+#[test]
+fn every_mistake_of_a_spec_is_reported_at_once() {
+    let spec =
+        "[codec.a]\nkind = \"tokens\"\nsymbols = [\"x\"]\ncounts = { x = 1 }\ntable_bits = 99\n\n\
+                [codec.b]\nknd = \"bytes\"\ntext = \"x\"\n\n\
+                [codec.c]\nkind = \"bytes\"\ntable_bits = \"11\"\ntext = \"x\"\n";
+    let e = precast::render_str(spec, Path::new("codecs.toml")).unwrap_err();
+    let lines: Vec<String> = e.all().map(|e| e.to_string()).collect();
+    assert_eq!(lines.len(), 4, "{lines:#?}");
+    assert_eq!(e.to_string().lines().count(), 4);
+    assert!(
+        lines[0].starts_with("codecs.toml:5:14: codec `a`: table_bits = 99 is out of range"),
+        "{lines:#?}"
+    );
+    assert!(
+        lines[1].starts_with("codecs.toml:7:1: codec `b`: missing key `kind`"),
+        "{lines:#?}"
+    );
+    assert!(
+        lines[2].starts_with("codecs.toml:8:1: codec `b`: unknown key `knd`: did you mean `kind`?"),
+        "{lines:#?}"
+    );
+    assert!(
+        lines[3].starts_with(
+            "codecs.toml:13:14: codec `c`: `table_bits` must be an integer, found a string"
+        ),
+        "{lines:#?}"
+    );
+}
+
+#[test]
+fn the_old_key_name_is_refused_with_the_new_one() {
+    let msg = err("[codec.a]\nkind = \"bytes\"\ntext = \"x\"\nscale_bits = 9\n");
+    assert!(
+        msg.starts_with("codecs.toml:4:1: codec `a`: unknown key `scale_bits`"),
+        "{msg}"
+    );
+    assert!(msg.contains("`table_bits`"), "{msg}");
+    let msg = err("[defaults]\nscale_bits = 9\n[codec.a]\nkind = \"bytes\"\ntext = \"x\"\n");
+    assert!(
+        msg.starts_with("codecs.toml:2:1:") && msg.contains("`table_bits`"),
+        "{msg}"
+    );
+}
+
+#[test]
+fn type_errors_name_the_codec_and_the_key() {
+    let base = "[codec.a]\nkind = \"tokens\"\nsymbols = [\"x\", \"y\"]\ncounts = { x = 1 }\n";
+    let cases: &[(&str, &str)] = &[
+        ("lanes = \"4\"\n", "codecs.toml:5:9: codec `a`: `lanes` must be an integer, found a string"),
+        ("method = 2\n", "codecs.toml:5:10: codec `a`: `method` must be one of \"tans\" or \"rans\", found an integer"),
+        ("framing = [\"bare\"]\n", "codecs.toml:5:11: codec `a`: `framing` must be one of \"tagged\" or \"bare\", found an array"),
+        ("text = 5\n", "codecs.toml:5:8: codec `a`: `text` must be a string, found an integer"),
+        ("samples = [3]\n", "codecs.toml:5:12: codec `a`: `samples` must be a path string, found an integer"),
+    ];
+    for (extra, want) in cases {
+        let msg = err(&format!("{base}{extra}"));
+        assert!(msg.starts_with(want), "want {want:?}, got {msg:?}");
+    }
+    let msg = err("[codec.a]\nkind = \"tokens\"\nsymbols = [\"x\"]\ncounts = { x = \"many\" }\n");
+    assert!(
+        msg.starts_with(
+            "codecs.toml:4:16: codec `a`: `counts` must be integer counts, found a string"
+        ),
+        "{msg}"
+    );
+}
+
+#[test]
+fn a_spec_that_is_not_utf8_is_located() {
+    let dir = scratch("utf8");
+    let path = dir.join("codecs.toml");
+    std::fs::write(&path, b"[codec.a]\nkind = \"bytes\"\ntext = \"ab\xffc\"\n").unwrap();
+    let e = precast::render(&path).unwrap_err();
+    let loc = e.location.clone().expect("located");
+    assert_eq!((loc.line, loc.column), (3, 11), "{e}");
+    assert!(e.to_string().contains("not UTF-8"), "{e}");
+}
+
+#[test]
+fn one_sample_may_be_given_as_a_string() {
+    let dir = scratch("one-sample");
+    std::fs::write(dir.join("log.txt"), "ok ok low_battery ok\n").unwrap();
+    std::fs::write(
+        dir.join("codecs.toml"),
+        "[codec.status]\nkind = \"tokens\"\nsymbols = [\"ok\", \"low_battery\"]\nsamples = \"log.txt\"\n",
+    )
+    .unwrap();
+    let r = precast::render(dir.join("codecs.toml")).unwrap();
+    assert_eq!(r.reports[0].training_symbols, 4);
+    assert!(r.inputs.iter().any(|p| p.ends_with("log.txt")));
+}
+
+#[test]
+fn a_count_key_names_a_byte_once() {
+    // Aliases of one byte value must not overwrite each other silently.
+    let msg =
+        err("[codec.a]\nkind = \"bytes\"\nsymbols = \"ab\"\ncounts = { 97 = 1, \"097\" = 1000 }\n");
+    assert!(
+        msg.contains("count key \"097\" is not a byte value"),
+        "{msg}"
+    );
+    let msg = err("[codec.a]\nkind = \"bytes\"\nsymbols = \"ab\"\ncounts = { \"+97\" = 5 }\n");
+    assert!(msg.contains("count key \"+97\""), "{msg}");
+}
+
+#[test]
+fn only_regular_files_are_read() {
+    let dir = scratch("regular");
+    std::fs::create_dir_all(dir.join("folder.txt")).unwrap();
+    std::fs::write(
+        dir.join("codecs.toml"),
+        "[codec.notes]\nkind = \"bytes\"\nsamples = [\"folder.txt\"]\n",
+    )
+    .unwrap();
+    let msg = precast::render(dir.join("codecs.toml"))
+        .unwrap_err()
+        .to_string();
+    assert!(
+        msg.contains("codecs.toml:3:12: codec `notes`: cannot read sample \"folder.txt\": not a regular file"),
+        "{msg}"
+    );
+}
