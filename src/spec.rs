@@ -311,44 +311,21 @@ impl Checker<'_> {
                 "symbol_lookup = \"search\" applies to method = \"rans\"; a tANS decoder always reads its state table".to_string(),
             );
         }
-        let lanes = match keys.get("lanes") {
-            None => Some(1),
-            Some(v) => match integer(v.get_ref()) {
-                Ok(n) => match LANES.iter().find(|&&l| i128::from(l) == n) {
-                    Some(&l) => Some(l),
-                    None => {
-                        fail(
-                            v.span(),
-                            format!("lanes = {n} is not available: expected 1, 2, 4 or 8"),
-                        );
-                        None
-                    }
-                },
-                Err(found) => {
-                    fail(v.span(), type_error("lanes", "an integer", found));
-                    None
-                }
-            },
-        };
-        let table_bits = match keys.get("table_bits") {
-            None => Some(DEFAULT_TABLE_BITS),
-            Some(v) => match integer(v.get_ref()) {
-                Ok(n) if (i128::from(MIN_TABLE_BITS)..=i128::from(MAX_TABLE_BITS)).contains(&n) => {
-                    Some(n as u32)
-                }
-                Ok(n) => {
-                    fail(
-                        v.span(),
-                        format!("table_bits = {n} is out of range: expected {MIN_TABLE_BITS} to {MAX_TABLE_BITS}"),
-                    );
-                    None
-                }
-                Err(found) => {
-                    fail(v.span(), type_error("table_bits", "an integer", found));
-                    None
-                }
-            },
-        };
+        let lanes = self.number(keys, "lanes", 1, &mut fail, |n| {
+            LANES
+                .into_iter()
+                .find(|&l| i128::from(l) == n)
+                .ok_or_else(|| format!("lanes = {n} is not available: expected 1, 2, 4 or 8"))
+        });
+        let table_bits = self.number(keys, "table_bits", DEFAULT_TABLE_BITS, &mut fail, |n| {
+            if (i128::from(MIN_TABLE_BITS)..=i128::from(MAX_TABLE_BITS)).contains(&n) {
+                Ok(n as u32)
+            } else {
+                Err(format!(
+                    "table_bits = {n} is out of range: expected {MIN_TABLE_BITS} to {MAX_TABLE_BITS}"
+                ))
+            }
+        });
 
         let alphabet =
             kind_entry.and_then(
@@ -376,10 +353,51 @@ impl Checker<'_> {
             }
         }
 
+        let sources = self.sources(keys, alphabet.as_deref(), &mut fail);
+        let declared = ["counts", "text", "samples"]
+            .iter()
+            .any(|k| keys.get(k).is_some());
+        if !declared {
+            fail(
+                span.clone(),
+                "no training data: give at least one of `counts`, `text` or `samples`".to_string(),
+            );
+        }
+
+        match (alphabet, method, table_bits, lanes, lookup, framing) {
+            (
+                Some(kind),
+                Some(method),
+                Some(table_bits),
+                Some(lanes),
+                Some(lookup),
+                Some(framing),
+            ) if errors.is_empty() => Ok(CodecSpec {
+                name: name.to_string(),
+                kind,
+                method,
+                table_bits,
+                lanes,
+                lookup,
+                framing,
+                sources,
+                location: Location::at(self.path, self.text, span.start),
+            }),
+            _ => Err(errors),
+        }
+    }
+
+    /// The training data: `counts` (read by the alphabet's kind), `text` and `samples`.
+    fn sources(
+        &self,
+        keys: &Merged<'_, '_>,
+        alphabet: Option<&dyn Kind>,
+        fail: &mut impl FnMut(Range<usize>, String),
+    ) -> Vec<Source> {
         let mut sources = Vec::new();
         if let Some(v) = keys.get("counts") {
-            match (v.get_ref(), &alphabet) {
-                (DeValue::Table(t), Some(k)) => match self.counts(k.as_ref(), t) {
+            match (v.get_ref(), alphabet) {
+                (DeValue::Table(t), Some(k)) => match self.counts(k, t) {
                     Ok(c) => sources.push(Source::Counts(c)),
                     Err(list) => {
                         for (s, m) in list {
@@ -420,14 +438,14 @@ impl Checker<'_> {
                 }
             };
             match v.get_ref() {
-                DeValue::String(_) => one(v, &mut fail),
+                DeValue::String(_) => one(v, fail),
                 DeValue::Array(items) if items.is_empty() => fail(
                     v.span(),
                     "`samples` is empty: list at least one file or remove the key".to_string(),
                 ),
                 DeValue::Array(items) => {
                     for item in items.iter() {
-                        one(item, &mut fail);
+                        one(item, fail);
                     }
                 }
                 other => fail(
@@ -436,36 +454,30 @@ impl Checker<'_> {
                 ),
             }
         }
-        let declared = ["counts", "text", "samples"]
-            .iter()
-            .any(|k| keys.get(k).is_some());
-        if !declared {
-            fail(
-                span.clone(),
-                "no training data: give at least one of `counts`, `text` or `samples`".to_string(),
-            );
-        }
+        sources
+    }
 
-        match (alphabet, method, table_bits, lanes, lookup, framing) {
-            (
-                Some(kind),
-                Some(method),
-                Some(table_bits),
-                Some(lanes),
-                Some(lookup),
-                Some(framing),
-            ) if errors.is_empty() => Ok(CodecSpec {
-                name: name.to_string(),
-                kind,
-                method,
-                table_bits,
-                lanes,
-                lookup,
-                framing,
-                sources,
-                location: Location::at(self.path, self.text, span.start),
-            }),
-            _ => Err(errors),
+    /// An integer key, `default` when absent, checked by `accept`.
+    fn number(
+        &self,
+        keys: &Merged<'_, '_>,
+        key: &str,
+        default: u32,
+        fail: &mut impl FnMut(Range<usize>, String),
+        accept: impl Fn(i128) -> std::result::Result<u32, String>,
+    ) -> Option<u32> {
+        let Some(v) = keys.get(key) else {
+            return Some(default);
+        };
+        let checked = integer(v.get_ref())
+            .map_err(|found| type_error(key, "an integer", found))
+            .and_then(accept);
+        match checked {
+            Ok(n) => Some(n),
+            Err(m) => {
+                fail(v.span(), m);
+                None
+            }
         }
     }
 
