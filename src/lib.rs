@@ -68,7 +68,9 @@ pub mod tables {
         divide, rans_bound, rans_code, rans_uncode, reciprocal, Rans, RANS_LOW,
     };
     pub use crate::method::rate::exact_rate;
-    pub use crate::method::tans::{build, from_spread, spread, DecodeEntry, SpreadRule, Tans};
+    pub use crate::method::tans::{
+        build, from_spread, spread, stride_step, DecodeEntry, SpreadRule, Tans,
+    };
     pub use crate::method::Tables;
 }
 
@@ -116,7 +118,8 @@ pub struct Built {
 /// Runs one codec from its validated spec to its tables, verified, and its report (reading
 /// its sample files).
 pub fn build_codec(codec: &spec::CodecSpec) -> Result<Built> {
-    let plan = plan::plan(codec, load::samples(codec)?)?;
+    let samples = load::samples(codec, &mut verify::Fnv::default())?;
+    let plan = plan::plan(codec, samples)?;
     let Some(set) = plan.sets.into_iter().next() else {
         return Err(Error::internal("a plan without a table set"));
     };
@@ -132,8 +135,13 @@ fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
     let mut plans = Vec::with_capacity(spec.codecs.len());
     let mut inputs = Vec::new();
     let mut warnings = Vec::new();
+    // The header's hash covers the spec (line endings normalised, so that a CRLF checkout
+    // renders the same) and every sample, hashed as they are read.
+    let mut hash = verify::Fnv::default();
+    hash.write(text.replace("\r\n", "\n").as_bytes());
+    hash.end_part();
     for codec in &spec.codecs {
-        let samples = load::samples(codec)?;
+        let samples = load::samples(codec, &mut hash)?;
         let plan = plan::plan(codec, samples)?;
         for source in &codec.sources {
             if let spec::Source::Sample { path, .. } = source {
@@ -143,14 +151,7 @@ fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
         warnings.extend(advice(&plan));
         plans.push(plan);
     }
-    // The spec (line endings normalised, so a CRLF checkout renders the same header) and
-    // every sample, hashed in place rather than copied.
-    let spec_text = text.replace("\r\n", "\n");
-    let mut refs: Vec<&[u8]> = vec![spec_text.as_bytes()];
-    for p in &plans {
-        refs.extend(p.model.sample_bytes.iter().map(Vec::as_slice));
-    }
-    let source = emit::file(&plans, verify::fnv1a(&refs))?;
+    let source = emit::file(&plans, hash.finish())?;
     Ok(Rendered {
         source,
         reports: plans.into_iter().map(|p| p.report).collect(),

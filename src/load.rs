@@ -3,7 +3,10 @@
 //! build script may read anything (README, "What a spec may read").
 
 use crate::error::{Error, Location, Result};
+use crate::kind::Misfit;
 use crate::spec::{CodecSpec, Source};
+use crate::verify::Fnv;
+use std::io::Read;
 use std::path::Path;
 
 /// The spec file's text; a byte that is not UTF-8 is reported at its line and column.
@@ -25,8 +28,12 @@ pub fn spec_text(path: &Path) -> Result<String> {
     })
 }
 
-/// The bytes of every sample file of `codec`, in the order of its sources.
-pub fn samples(codec: &CodecSpec) -> Result<Vec<Vec<u8>>> {
+/// Bytes read from a sample at a time: memory follows the symbols, not the file.
+const BLOCK: usize = 1 << 20;
+
+/// The symbols of every sample file of `codec`, in the order of its sources. Each file is
+/// read in blocks through the kind's scanner and into `hash` (the spec hash of the output).
+pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Vec<u16>>> {
     let mut out = Vec::new();
     for source in &codec.sources {
         if let Source::Sample {
@@ -35,24 +42,86 @@ pub fn samples(codec: &CodecSpec) -> Result<Vec<Vec<u8>>> {
             location,
         } = source
         {
-            let bytes = regular_file(path).map_err(|message| {
+            let cannot = |message: String| {
                 Error::input(
                     Some(location.clone()),
                     format!("cannot read sample \"{declared}\": {message}"),
                 )
                 .in_codec(&codec.name)
-            })?;
-            out.push(bytes);
+            };
+            let mut file = open_regular(path).map_err(cannot)?;
+            let mut scanner = codec.kind.scanner();
+            let mut symbols = Vec::new();
+            let mut block = vec![0u8; BLOCK];
+            let misfit = loop {
+                let n = match file.read(&mut block) {
+                    Ok(0) => break scanner.finish(&mut symbols).err(),
+                    Ok(n) => n,
+                    Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
+                    Err(e) => return Err(cannot(e.to_string())),
+                };
+                hash.write(&block[..n]);
+                if let Err(m) = scanner.feed(&block[..n], &mut symbols) {
+                    break Some(m);
+                }
+            };
+            if let Some(Misfit { offset, message }) = misfit {
+                let at = locate(path, offset).map_err(cannot)?;
+                return Err(
+                    Error::input(Some(at), format!("{message} (byte offset {offset})"))
+                        .in_codec(&codec.name),
+                );
+            }
+            hash.end_part();
+            out.push(symbols);
         }
     }
     Ok(out)
 }
 
-/// Reads `path` if it is a regular file (after following links).
-fn regular_file(path: &Path) -> std::result::Result<Vec<u8>, String> {
+/// Line and column of byte `offset` of the file at `path`, read again in blocks (only on the
+/// way to an error). Columns count characters; a byte that is not UTF-8 counts as one.
+fn locate(path: &Path, offset: usize) -> std::result::Result<Location, String> {
+    let mut file = open_regular(path)?;
+    let mut block = vec![0u8; BLOCK];
+    let (mut line, mut column, mut seen) = (1usize, 1usize, 0usize);
+    while seen < offset {
+        let n = file.read(&mut block).map_err(|e| e.to_string())?;
+        if n == 0 {
+            break;
+        }
+        for &b in &block[..n.min(offset - seen)] {
+            if b == b'\n' {
+                line += 1;
+                column = 1;
+            } else if b & 0xc0 != 0x80 {
+                column += 1;
+            }
+        }
+        seen += n;
+    }
+    Ok(Location {
+        path: path.to_path_buf(),
+        line,
+        column,
+    })
+}
+
+/// Opens `path` for reading if it is a regular file (after following links). Checked before
+/// opening: opening a FIFO would block.
+fn open_regular(path: &Path) -> std::result::Result<std::fs::File, String> {
     let meta = std::fs::metadata(path).map_err(|e| e.to_string())?;
     if !meta.is_file() {
         return Err("not a regular file (precast reads only regular files)".to_string());
     }
-    std::fs::read(path).map_err(|e| e.to_string())
+    std::fs::File::open(path).map_err(|e| e.to_string())
+}
+
+/// Reads `path` whole if it is a regular file.
+fn regular_file(path: &Path) -> std::result::Result<Vec<u8>, String> {
+    let mut bytes = Vec::new();
+    open_regular(path)?
+        .read_to_end(&mut bytes)
+        .map_err(|e| e.to_string())?;
+    Ok(bytes)
 }

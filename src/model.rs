@@ -2,8 +2,8 @@
 //! sequences are kept so that the verify stage can round-trip them. One table set's counts
 //! today; contexts will give a codec several.
 
-use crate::error::{Error, Location, Result};
-use crate::kind::Misfit;
+use crate::error::{Error, Result};
+use crate::kind::{self, Misfit};
 use crate::spec::{CodecSpec, Source};
 
 /// One piece of training data as symbol indices, and where it came from (for messages).
@@ -18,8 +18,6 @@ pub struct Sequence {
 pub struct Model {
     pub counts: Vec<u64>,
     pub sequences: Vec<Sequence>,
-    /// Contents of every sample file, in order: they feed the spec hash.
-    pub sample_bytes: Vec<Vec<u8>>,
 }
 
 impl Model {
@@ -38,14 +36,13 @@ impl Model {
     }
 }
 
-/// Counts the training data of `codec`; `samples` holds the bytes of its sample files, in
+/// Counts the training data of `codec`; `samples` holds the symbols of its sample files, in
 /// the order of its sources (read by [`crate::load::samples`]).
-pub fn build(codec: &CodecSpec, samples: Vec<Vec<u8>>) -> Result<Model> {
+pub fn build(codec: &CodecSpec, samples: Vec<Vec<u16>>) -> Result<Model> {
     let kind = codec.kind.as_ref();
     let mut counts = vec![0u64; kind.alphabet_len()];
     let mut sequences = Vec::new();
     let mut files = samples.into_iter();
-    let mut sample_bytes = Vec::new();
     for source in &codec.sources {
         match source {
             Source::Counts(c) => {
@@ -55,37 +52,28 @@ pub fn build(codec: &CodecSpec, samples: Vec<Vec<u8>>) -> Result<Model> {
             }
             Source::Text { text, location } => {
                 let symbols =
-                    kind.scan(text.as_bytes())
-                        .map_err(|Misfit { offset, message }| {
-                            Error::input(
-                                Some(location.clone()),
-                                format!("{message} (at byte {offset} of the inline text)"),
-                            )
-                            .in_codec(&codec.name)
-                        })?;
+                    kind::scan(kind, text.as_bytes()).map_err(|Misfit { offset, message }| {
+                        Error::input(
+                            Some(location.clone()),
+                            format!("{message} (at byte {offset} of the inline text)"),
+                        )
+                        .in_codec(&codec.name)
+                    })?;
                 sequences.push(Sequence {
                     origin: "inline text".to_string(),
                     symbols,
                 });
             }
-            Source::Sample { declared, path, .. } => {
-                let Some(bytes) = files.next() else {
+            Source::Sample { declared, .. } => {
+                let Some(symbols) = files.next() else {
                     return Err(Error::internal(format!(
                         "sample \"{declared}\" was not loaded"
                     )));
                 };
-                let symbols = kind.scan(&bytes).map_err(|Misfit { offset, message }| {
-                    Error::input(
-                        Some(Location::in_bytes(path, &bytes, offset)),
-                        format!("{message} (byte offset {offset})"),
-                    )
-                    .in_codec(&codec.name)
-                })?;
                 sequences.push(Sequence {
                     origin: format!("sample \"{declared}\""),
                     symbols,
                 });
-                sample_bytes.push(bytes);
             }
         }
     }
@@ -94,9 +82,5 @@ pub fn build(codec: &CodecSpec, samples: Vec<Vec<u8>>) -> Result<Model> {
             counts[usize::from(s)] = counts[usize::from(s)].saturating_add(1);
         }
     }
-    Ok(Model {
-        counts,
-        sequences,
-        sample_bytes,
-    })
+    Ok(Model { counts, sequences })
 }

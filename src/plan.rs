@@ -50,8 +50,8 @@ fn put_rows(input: &InputMap, symbols: usize) -> (usize, bool) {
 }
 
 /// Plans one codec: counts, slots, tables, verification against the reference coder, report.
-/// `samples` are the bytes of its sample files, in the order of its sources.
-pub fn plan(spec: &CodecSpec, samples: Vec<Vec<u8>>) -> Result<CodecPlan> {
+/// `samples` are the symbols of its sample files, in the order of its sources.
+pub fn plan(spec: &CodecSpec, samples: Vec<Vec<u16>>) -> Result<CodecPlan> {
     let in_codec = |e: Error| e.in_codec(&spec.name);
     let model = model::build(spec, samples)?;
     let input = spec.kind.input();

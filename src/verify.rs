@@ -29,19 +29,45 @@ pub enum StreamError {
     TrailingBytes,
 }
 
-/// FNV-1a, 64 bits (Fowler, Noll, Vo; common practice): small, fixed, and the same everywhere.
-pub fn fnv1a(parts: &[&[u8]]) -> u64 {
-    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
-    for part in parts {
-        for &b in part.iter() {
+/// FNV-1a, 64 bits (Fowler, Noll, Vo; common practice): small, fixed, and the same
+/// everywhere. Fed a piece at a time, so that a large sample is hashed as it is read.
+#[derive(Debug, Clone)]
+pub struct Fnv(u64);
+
+impl Default for Fnv {
+    fn default() -> Self {
+        Fnv(0xcbf2_9ce4_8422_2325)
+    }
+}
+
+impl Fnv {
+    pub fn write(&mut self, bytes: &[u8]) {
+        let mut h = self.0;
+        for &b in bytes {
             h ^= u64::from(b);
             h = h.wrapping_mul(0x0000_0100_0000_01b3);
         }
-        // Separate the parts so that ("ab", "c") and ("a", "bc") differ.
-        h ^= 0xff;
-        h = h.wrapping_mul(0x0000_0100_0000_01b3);
+        self.0 = h;
     }
-    h
+
+    /// Ends one part, so that ("ab", "c") and ("a", "bc") differ.
+    pub fn end_part(&mut self) {
+        self.write(&[0xff]);
+    }
+
+    pub fn finish(&self) -> u64 {
+        self.0
+    }
+}
+
+/// FNV-1a of `parts`, each followed by a separator.
+pub fn fnv1a(parts: &[&[u8]]) -> u64 {
+    let mut h = Fnv::default();
+    for part in parts {
+        h.write(part);
+        h.end_part();
+    }
+    h.finish()
 }
 
 /// The 16-bit fingerprint of a codec's tables, as carried in its streams: FNV-1a over the
@@ -380,6 +406,10 @@ pub struct Verified {
     pub payload_bits: u64,
 }
 
+/// Symbols of training data round-tripped as one stream: longer sequences go in several,
+/// so that the reference coder's memory stays bounded whatever the sample's size.
+pub const VERIFY_STREAM: usize = 1 << 20;
+
 /// Round-trips every training sequence through the reference coder.
 pub fn verify(
     tables: &Tables,
@@ -391,30 +421,39 @@ pub fn verify(
     let coder = Reference::framed(tables, fingerprint, framing, lanes);
     let mut v = Verified::default();
     for seq in &model.sequences {
-        let stream = coder.encode(&seq.symbols);
-        let decoded = coder.decode(&stream, seq.symbols.len());
-        match decoded {
-            Ok((symbols, used)) if symbols == seq.symbols && used == stream.len() => {}
-            other => {
-                return Err(Error::internal(format!(
-                    "the tables failed to round-trip {} ({} symbols): {:?}",
-                    seq.origin,
-                    seq.symbols.len(),
-                    other.map(|(s, used)| (s.len(), used))
-                )))
-            }
-        }
-        let (header, pad) = match framing {
-            Framing::Tagged => (
-                3 + leb128(seq.symbols.len() as u64).len(),
-                u64::from(stream[0] & 7),
-            ),
-            Framing::Bare => (0, 0),
+        let empty: &[u16] = &[];
+        let pieces = seq.symbols.chunks(VERIFY_STREAM);
+        let pieces: Vec<&[u16]> = if seq.symbols.is_empty() {
+            vec![empty]
+        } else {
+            pieces.collect()
         };
+        for piece in pieces {
+            let stream = coder.encode(piece);
+            let decoded = coder.decode(&stream, piece.len());
+            match decoded {
+                Ok((symbols, used)) if symbols == piece && used == stream.len() => {}
+                other => {
+                    return Err(Error::internal(format!(
+                        "the tables failed to round-trip {} ({} symbols): {:?}",
+                        seq.origin,
+                        piece.len(),
+                        other.map(|(s, used)| (s.len(), used))
+                    )))
+                }
+            }
+            let (header, pad) = match framing {
+                Framing::Tagged => (
+                    3 + leb128(piece.len() as u64).len(),
+                    u64::from(stream[0] & 7),
+                ),
+                Framing::Bare => (0, 0),
+            };
+            v.symbols += piece.len() as u64;
+            v.stream_bytes += stream.len() as u64;
+            v.payload_bits += (stream.len() - header) as u64 * 8 - pad;
+        }
         v.sequences += 1;
-        v.symbols += seq.symbols.len() as u64;
-        v.stream_bytes += stream.len() as u64;
-        v.payload_bits += (stream.len() - header) as u64 * 8 - pad;
     }
     Ok(v)
 }

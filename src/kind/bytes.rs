@@ -1,6 +1,6 @@
 //! `kind = "bytes"`: symbols are byte values, `Symbol = u8`.
 
-use super::{InputMap, Kind, KindEntry, Misfit, Misplaced};
+use super::{InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
 use proc_macro2::{Literal, TokenStream};
 use quote::quote;
 use std::ops::Range;
@@ -152,20 +152,11 @@ impl Kind for Bytes {
             .ok_or_else(|| format!("count for {} which is not in the alphabet", show_byte(b)))
     }
 
-    fn scan(&self, data: &[u8]) -> Result<Vec<u16>, Misfit> {
-        let mut out = Vec::with_capacity(data.len());
-        for (offset, &b) in data.iter().enumerate() {
-            match self.index[usize::from(b)] {
-                Some(i) => out.push(i),
-                None => {
-                    return Err(Misfit {
-                        offset,
-                        message: format!("{} is not in the alphabet", show_byte(b)),
-                    })
-                }
-            }
-        }
-        Ok(out)
+    fn scanner(&self) -> Box<dyn Scanner + '_> {
+        Box::new(ByteScanner {
+            alphabet: self,
+            offset: 0,
+        })
     }
 
     fn input(&self) -> InputMap {
@@ -188,6 +179,36 @@ impl Kind for Bytes {
 
     fn row_literal(&self, symbol: usize) -> String {
         byte_literal(self.values[symbol])
+    }
+}
+
+/// Every byte is a symbol.
+struct ByteScanner<'a> {
+    alphabet: &'a Bytes,
+    /// Bytes scanned so far.
+    offset: usize,
+}
+
+impl Scanner for ByteScanner<'_> {
+    fn feed(&mut self, piece: &[u8], out: &mut Vec<u16>) -> Result<(), Misfit> {
+        out.reserve(piece.len());
+        for (i, &b) in piece.iter().enumerate() {
+            match self.alphabet.index[usize::from(b)] {
+                Some(s) => out.push(s),
+                None => {
+                    return Err(Misfit {
+                        offset: self.offset + i,
+                        message: format!("{} is not in the alphabet", show_byte(b)),
+                    })
+                }
+            }
+        }
+        self.offset += piece.len();
+        Ok(())
+    }
+
+    fn finish(&mut self, _out: &mut Vec<u16>) -> Result<(), Misfit> {
+        Ok(())
     }
 }
 

@@ -56,6 +56,24 @@ pub struct Misfit {
     pub message: String,
 }
 
+/// Turns training data into symbol indices a piece at a time, so that a large sample is never
+/// held whole. Offsets in a [`Misfit`] count from the start of the data.
+pub trait Scanner {
+    /// Scans the next piece; `out` receives the symbols completed so far.
+    fn feed(&mut self, piece: &[u8], out: &mut Vec<u16>) -> Result<(), Misfit>;
+    /// Ends the data.
+    fn finish(&mut self, out: &mut Vec<u16>) -> Result<(), Misfit>;
+}
+
+/// All of `data` through one scanner of `kind`.
+pub fn scan(kind: &dyn Kind, data: &[u8]) -> Result<Vec<u16>, Misfit> {
+    let mut scanner = kind.scanner();
+    let mut out = Vec::new();
+    scanner.feed(data, &mut out)?;
+    scanner.finish(&mut out)?;
+    Ok(out)
+}
+
 /// How a value handed to the generated `encode` finds its row of the encoding table.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub enum InputMap {
@@ -86,8 +104,9 @@ pub trait Kind: fmt::Debug + Send + Sync {
     fn describe(&self, symbol: usize) -> String;
     /// The symbol a key of `counts` names.
     fn count_key(&self, key: &str) -> Result<usize, String>;
-    /// Training data (a sample file or inline text) as symbol indices.
-    fn scan(&self, data: &[u8]) -> Result<Vec<u16>, Misfit>;
+    /// A scanner that turns training data (a sample file, read in blocks, or inline text)
+    /// into symbol indices.
+    fn scanner(&self) -> Box<dyn Scanner + '_>;
     /// How encoder input finds its table row.
     fn input(&self) -> InputMap;
     /// The generated `Symbol` type and its companions (`ALPHABET`, `ALL`, ...).

@@ -1,7 +1,7 @@
 //! `kind = "tokens"`: symbols are named tokens; `Symbol` is a generated enum with one
 //! UpperCamelCase variant per token, in spec order.
 
-use super::{InputMap, Kind, KindEntry, Misfit, Misplaced};
+use super::{InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
 use proc_macro2::{Ident, Span, TokenStream};
 use quote::quote;
 use std::collections::BTreeMap;
@@ -176,36 +176,14 @@ impl Kind for Tokens {
     }
 
     /// Whitespace-separated token names.
-    fn scan(&self, data: &[u8]) -> Result<Vec<u16>, Misfit> {
-        let mut out = Vec::new();
-        let mut i = 0;
-        while i < data.len() {
-            if data[i].is_ascii_whitespace() {
-                i += 1;
-                continue;
-            }
-            let start = i;
-            while i < data.len() && !data[i].is_ascii_whitespace() {
-                i += 1;
-            }
-            let word = &data[start..i];
-            match std::str::from_utf8(word)
-                .ok()
-                .and_then(|w| self.index_of(w))
-            {
-                Some(index) => out.push(index),
-                None => {
-                    return Err(Misfit {
-                        offset: start,
-                        message: format!(
-                            "token \"{}\" is not in the alphabet",
-                            String::from_utf8_lossy(word)
-                        ),
-                    })
-                }
-            }
-        }
-        Ok(out)
+    fn scanner(&self) -> Box<dyn Scanner + '_> {
+        Box::new(TokenScanner {
+            alphabet: self,
+            longest: self.names.iter().map(String::len).max().unwrap_or(0),
+            word: Vec::new(),
+            word_start: 0,
+            offset: 0,
+        })
     }
 
     fn input(&self) -> InputMap {
@@ -259,6 +237,71 @@ impl Kind for Tokens {
 
     fn row_literal(&self, symbol: usize) -> String {
         format!("Symbol::{}", variant_name(&self.names[symbol]))
+    }
+}
+
+/// Splits the data at ASCII whitespace; a word may span pieces.
+struct TokenScanner<'a> {
+    alphabet: &'a Tokens,
+    /// The longest token name: a longer word is refused before it is read whole.
+    longest: usize,
+    /// The word being read, and where it started.
+    word: Vec<u8>,
+    word_start: usize,
+    /// Bytes scanned so far.
+    offset: usize,
+}
+
+impl TokenScanner<'_> {
+    fn end_word(&mut self, out: &mut Vec<u16>) -> Result<(), Misfit> {
+        if self.word.is_empty() {
+            return Ok(());
+        }
+        let found = std::str::from_utf8(&self.word)
+            .ok()
+            .filter(|_| self.word.len() <= self.longest)
+            .and_then(|w| self.alphabet.index_of(w));
+        match found {
+            Some(index) => {
+                out.push(index);
+                self.word.clear();
+                Ok(())
+            }
+            None => Err(Misfit {
+                offset: self.word_start,
+                message: format!(
+                    "token \"{}\" is not in the alphabet",
+                    String::from_utf8_lossy(&self.word)
+                ),
+            }),
+        }
+    }
+}
+
+impl Scanner for TokenScanner<'_> {
+    fn feed(&mut self, piece: &[u8], out: &mut Vec<u16>) -> Result<(), Misfit> {
+        for (i, &b) in piece.iter().enumerate() {
+            if b.is_ascii_whitespace() {
+                self.end_word(out)?;
+            } else {
+                if self.word.is_empty() {
+                    self.word_start = self.offset + i;
+                }
+                // Past the longest name the word cannot be a token: keep only enough of it
+                // for the message.
+                if self.word.len() <= self.longest.max(64) {
+                    self.word.push(b);
+                } else if self.word.len() > self.longest {
+                    return self.end_word(out);
+                }
+            }
+        }
+        self.offset += piece.len();
+        Ok(())
+    }
+
+    fn finish(&mut self, out: &mut Vec<u16>) -> Result<(), Misfit> {
+        self.end_word(out)
     }
 }
 
