@@ -31,9 +31,24 @@ pub fn spec_text(path: &Path) -> Result<String> {
 /// Bytes read from a sample at a time: memory follows the symbols, not the file.
 const BLOCK: usize = 1 << 20;
 
-/// The symbols of every sample file of `codec`, in the order of its sources. Each file is
-/// read in blocks through the kind's scanner and into `hash` (the spec hash of the output).
-pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Vec<u16>>> {
+/// Symbols of a sample kept for the round trip at generation time; the rest is counted and
+/// dropped, so that memory is bounded whatever the sample's size.
+pub const KEPT_SYMBOLS: usize = 1 << 22;
+
+/// One sample file, counted.
+#[derive(Debug, Clone)]
+pub struct Sample {
+    /// Occurrences of each symbol in the whole file.
+    pub counts: Vec<u64>,
+    /// The file's first [`KEPT_SYMBOLS`] symbols.
+    pub kept: Vec<u16>,
+    /// Symbols in the whole file.
+    pub total: u64,
+}
+
+/// Every sample file of `codec`, in the order of its sources. Each file is read in blocks
+/// through the kind's scanner and into `hash` (the spec hash of the output).
+pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Sample>> {
     let mut out = Vec::new();
     for source in &codec.sources {
         if let Source::Sample {
@@ -51,18 +66,34 @@ pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Vec<u16>>> {
             };
             let mut file = open_regular(path).map_err(cannot)?;
             let mut scanner = codec.kind.scanner();
+            let mut sample = Sample {
+                counts: vec![0; codec.kind.alphabet_len()],
+                kept: Vec::new(),
+                total: 0,
+            };
             let mut symbols = Vec::new();
             let mut block = vec![0u8; BLOCK];
             let misfit = loop {
-                let n = match file.read(&mut block) {
-                    Ok(0) => break scanner.finish(&mut symbols).err(),
-                    Ok(n) => n,
+                symbols.clear();
+                let (n, result) = match file.read(&mut block) {
+                    Ok(0) => (0, scanner.finish(&mut symbols)),
+                    Ok(n) => (n, scanner.feed(&block[..n], &mut symbols)),
                     Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
                     Err(e) => return Err(cannot(e.to_string())),
                 };
                 hash.write(&block[..n]);
-                if let Err(m) = scanner.feed(&block[..n], &mut symbols) {
-                    break Some(m);
+                for &s in &symbols {
+                    sample.counts[usize::from(s)] += 1;
+                }
+                sample.total += symbols.len() as u64;
+                let room = KEPT_SYMBOLS - sample.kept.len();
+                sample
+                    .kept
+                    .extend_from_slice(&symbols[..symbols.len().min(room)]);
+                match result {
+                    Err(m) => break Some(m),
+                    Ok(()) if n == 0 => break None,
+                    Ok(()) => {}
                 }
             };
             if let Some(Misfit { offset, message }) = misfit {
@@ -73,7 +104,7 @@ pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Vec<u16>>> {
                 );
             }
             hash.end_part();
-            out.push(symbols);
+            out.push(sample);
         }
     }
     Ok(out)

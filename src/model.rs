@@ -4,9 +4,11 @@
 
 use crate::error::{Error, Result};
 use crate::kind::{self, Misfit};
+use crate::load::Sample;
 use crate::spec::{CodecSpec, Source};
 
 /// One piece of training data as symbol indices, and where it came from (for messages).
+/// A large sample keeps only its first [`crate::load::KEPT_SYMBOLS`] symbols.
 #[derive(Debug, Clone)]
 pub struct Sequence {
     pub origin: String,
@@ -18,6 +20,8 @@ pub struct Sequence {
 pub struct Model {
     pub counts: Vec<u64>,
     pub sequences: Vec<Sequence>,
+    /// Symbols of samples and inline text in all, including any a large sample did not keep.
+    pub sequence_symbols: u64,
 }
 
 impl Model {
@@ -36,13 +40,14 @@ impl Model {
     }
 }
 
-/// Counts the training data of `codec`; `samples` holds the symbols of its sample files, in
-/// the order of its sources (read by [`crate::load::samples`]).
-pub fn build(codec: &CodecSpec, samples: Vec<Vec<u16>>) -> Result<Model> {
+/// Counts the training data of `codec`; `samples` are its sample files, counted, in the
+/// order of its sources (read by [`crate::load::samples`]).
+pub fn build(codec: &CodecSpec, samples: Vec<Sample>) -> Result<Model> {
     let kind = codec.kind.as_ref();
     let mut counts = vec![0u64; kind.alphabet_len()];
     let mut sequences = Vec::new();
     let mut files = samples.into_iter();
+    let mut sequence_symbols = 0u64;
     for source in &codec.sources {
         match source {
             Source::Counts(c) => {
@@ -59,28 +64,35 @@ pub fn build(codec: &CodecSpec, samples: Vec<Vec<u16>>) -> Result<Model> {
                         )
                         .in_codec(&codec.name)
                     })?;
+                for &s in &symbols {
+                    counts[usize::from(s)] = counts[usize::from(s)].saturating_add(1);
+                }
+                sequence_symbols = sequence_symbols.saturating_add(symbols.len() as u64);
                 sequences.push(Sequence {
                     origin: "inline text".to_string(),
                     symbols,
                 });
             }
             Source::Sample { declared, .. } => {
-                let Some(symbols) = files.next() else {
+                let Some(sample) = files.next() else {
                     return Err(Error::internal(format!(
                         "sample \"{declared}\" was not loaded"
                     )));
                 };
+                sequence_symbols = sequence_symbols.saturating_add(sample.total);
+                for (slot, c) in counts.iter_mut().zip(&sample.counts) {
+                    *slot = slot.saturating_add(*c);
+                }
                 sequences.push(Sequence {
                     origin: format!("sample \"{declared}\""),
-                    symbols,
+                    symbols: sample.kept,
                 });
             }
         }
     }
-    for seq in &sequences {
-        for &s in &seq.symbols {
-            counts[usize::from(s)] = counts[usize::from(s)].saturating_add(1);
-        }
-    }
-    Ok(Model { counts, sequences })
+    Ok(Model {
+        counts,
+        sequences,
+        sequence_symbols,
+    })
 }

@@ -50,10 +50,17 @@ fn put_rows(input: &InputMap, symbols: usize) -> (usize, bool) {
 }
 
 /// Plans one codec: counts, slots, tables, verification against the reference coder, report.
-/// `samples` are the symbols of its sample files, in the order of its sources.
-pub fn plan(spec: &CodecSpec, samples: Vec<Vec<u16>>) -> Result<CodecPlan> {
-    let in_codec = |e: Error| e.in_codec(&spec.name);
-    let model = model::build(spec, samples)?;
+/// `samples` are its sample files, counted, in the order of its sources.
+pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<CodecPlan> {
+    // Later stages' errors carry the codec's name, and its place in the spec when they
+    // have none of their own.
+    let in_codec = |mut e: Error| {
+        if e.location.is_none() {
+            e.location = Some(spec.location.clone());
+        }
+        e.in_codec(&spec.name)
+    };
+    let model = model::build(spec, samples).map_err(in_codec)?;
     let input = spec.kind.input();
     let (rows, absent) = put_rows(&input, spec.kind.alphabet_len());
     let set = table_set(
@@ -73,7 +80,7 @@ pub fn plan(spec: &CodecSpec, samples: Vec<Vec<u16>>) -> Result<CodecPlan> {
     );
     let verified = verify::verify(&set.tables, fingerprint, spec.framing, spec.lanes, &model)
         .map_err(in_codec)?;
-    let report = report::build(spec, &model.counts, &set, verified.clone());
+    let report = report::build(spec, &model, &set, verified.clone());
     Ok(CodecPlan {
         spec: spec.clone(),
         model,

@@ -1,7 +1,7 @@
 //! The last stage: what a codec costs, in words a reviewer reads in the generated module docs
 //! and the build log: entropy, exact rate, excess, table bytes, and a line per symbol.
 
-use crate::method::Tables;
+use crate::model::Model;
 use crate::plan::TableSet;
 use crate::quantize::{cross_entropy, entropy, log2};
 use crate::spec::CodecSpec;
@@ -30,6 +30,9 @@ pub struct Report {
     pub method: &'static str,
     pub lanes: u32,
     pub verified: Verified,
+    /// Symbols of samples and inline text; the round trip covers at most the first
+    /// `load::KEPT_SYMBOLS` of each sample.
+    pub sequence_symbols: u64,
     /// Per symbol: name, count, slots.
     pub lines: Vec<(String, u64, u32)>,
 }
@@ -103,10 +106,17 @@ impl Report {
                 self.spread
             ),
         });
-        d.push(format!(
-            "Trained on {} symbols; {} training sequence(s) round-tripped at generation time into {} bytes.",
-            self.training_symbols, self.verified.sequences, self.verified.stream_bytes
-        ));
+        d.push(if self.verified.symbols < self.sequence_symbols {
+            format!(
+                "Trained on {} symbols; {} training sequence(s), {} of their symbols, round-tripped at generation time into {} bytes.",
+                self.training_symbols, self.verified.sequences, self.verified.symbols, self.verified.stream_bytes
+            )
+        } else {
+            format!(
+                "Trained on {} symbols; {} training sequence(s) round-tripped at generation time into {} bytes.",
+                self.training_symbols, self.verified.sequences, self.verified.stream_bytes
+            )
+        });
         d.push(String::new());
         d.push("| symbol | count | slots | ideal bits | coded bits |".to_string());
         d.push("|---|---|---|---|---|".to_string());
@@ -147,7 +157,9 @@ fn unsigned(x: f64) -> f64 {
 }
 
 /// Assembles the report of one codec (its one table set).
-pub fn build(codec: &CodecSpec, counts: &[u64], set: &TableSet, verified: Verified) -> Report {
+pub fn build(codec: &CodecSpec, model: &Model, set: &TableSet, verified: Verified) -> Report {
+    let counts = &model.counts[..];
+    let sequence_symbols = model.sequence_symbols;
     let kind = codec.kind.as_ref();
     let lines = (0..kind.alphabet_len())
         .zip(counts)
@@ -166,12 +178,10 @@ pub fn build(codec: &CodecSpec, counts: &[u64], set: &TableSet, verified: Verifi
             .then(|| verified.payload_bits as f64 / verified.symbols as f64),
         table_bytes: set.layout.bytes(),
         spread: set.tables.spread_description(),
-        method: match set.tables {
-            Tables::Tans(_) => "tANS",
-            Tables::Rans(_) => "rANS",
-        },
+        method: set.tables.method_name(),
         lanes: codec.lanes,
         verified,
+        sequence_symbols,
         lines,
     }
 }

@@ -18,6 +18,10 @@ pub const MIN_TABLE_BITS: u32 = 1;
 /// Default table size, 2^11 slots: a few KiB of tables, excess well under 1 % for most data.
 pub const DEFAULT_TABLE_BITS: u32 = 11;
 
+/// Most codecs one spec may declare. Generation time grows linearly with them; the compiler's
+/// memory does too, at about 3.5 MB per small codec (rustc 1.95, debug).
+pub const MAX_CODECS: usize = 1024;
+
 /// Interleaved states a codec may use (FORMAT.md).
 pub const LANES: [u32; 4] = [1, 2, 4, 8];
 
@@ -172,7 +176,17 @@ pub fn parse(text: &str, path: &Path) -> Result<Spec> {
         }
     }
     let mut codecs: Vec<(usize, CodecSpec)> = Vec::new();
-    for (name, table) in tables.into_iter().flat_map(|t| t.iter()) {
+    let mut declared: Vec<_> = tables.into_iter().flat_map(|t| t.iter()).collect();
+    declared.sort_by_key(|(_, table)| table.span().start);
+    if let Some((name, _)) = declared.get(MAX_CODECS) {
+        errors.push(checker.error(
+            name.span(),
+            Some(name.get_ref().as_ref()),
+            format!("a spec may declare at most {MAX_CODECS} codecs: split it into several specs"),
+        ));
+        declared.truncate(MAX_CODECS);
+    }
+    for (name, table) in declared {
         let name_text = name.get_ref().as_ref();
         let DeValue::Table(t) = table.get_ref() else {
             errors.push(checker.error(

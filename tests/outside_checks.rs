@@ -1,7 +1,6 @@
 //! The core checked against published values. Each check names its source.
 
 use precast::quantize::{cross_entropy, entropy, quantize};
-use precast::tables::{exact_rate, from_spread, SpreadRule};
 
 fn close(a: f64, b: f64, tol: f64) -> bool {
     (a - b).abs() <= tol
@@ -61,51 +60,6 @@ fn kl_optimal_slots_for_the_sixteen_state_example() {
     // KL(p‖q) = 0.016516 bits (CHECKS.md, recomputed).
     let kl = cross_entropy(&C16, &slots, 4) - entropy(&C16);
     assert!(close(kl, 0.016516, 5e-7), "KL {kl}");
-}
-
-#[test]
-fn exact_rates_of_the_three_published_spreads() {
-    // State 16+i holds the i-th character; rates from CHECKS.md (exact, recomputed).
-    let cases = [
-        ("0233233133133133", 1.472406),
-        ("3313233103332133", 1.466026),
-        ("3233321333313310", 1.450464),
-    ];
-    for (spread, rate) in cases {
-        let spread: Vec<u16> = spread.bytes().map(|b| u16::from(b - b'0')).collect();
-        let tans = from_spread(&[1, 3, 2, 10], spread, SpreadRule::Given, 4).unwrap();
-        let got = exact_rate(&tans, &P16);
-        assert!(close(got, rate, 5e-7), "spread rate {got} against {rate}");
-        let h = entropy(&C16);
-        let relative = (got - h) / h;
-        assert!(relative > 0.0);
-    }
-}
-
-#[test]
-fn our_spread_for_the_sixteen_state_example_is_near_the_best_published_one() {
-    let slots = quantize(&C16, 4).unwrap();
-    let (tans, rate) = precast::tables::build(&slots, &P16, 4).unwrap();
-    assert!(close(rate, exact_rate(&tans, &P16), 1e-12));
-    // The best of the three published spreads codes at 1.450464 bits/symbol (CHECKS.md).
-    assert!(rate <= 1.450464 + 5e-3, "our rate {rate}");
-}
-
-#[test]
-fn a_dyadic_source_codes_at_its_entropy_with_any_spread() {
-    // p = (1/2, 1/4, 1/8, 1/8), L = 16, q = (8, 4, 2, 2): every state costs 1, 2, 3, 3 bits,
-    // so the rate is H = 1.75 for any spread (Pieprzyk, Duda et al., "The Compression
-    // Optimality of Asymmetric Numeral Systems", Entropy 25(4):672, 2023).
-    let p = [0.5, 0.25, 0.125, 0.125];
-    let counts = [8u64, 4, 2, 2];
-    let slots = quantize(&counts, 4).unwrap();
-    assert_eq!(slots, [8, 4, 2, 2]);
-    for rule in [SpreadRule::Tuned, SpreadRule::Even, SpreadRule::Stride] {
-        let spread = precast::tables::spread(rule, &slots, &p, 4);
-        let tans = from_spread(&slots, spread, rule, 4).unwrap();
-        let rate = exact_rate(&tans, &p);
-        assert!(close(rate, 1.75, 1e-9), "{rule:?}: {rate}");
-    }
 }
 
 #[test]

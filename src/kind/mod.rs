@@ -7,6 +7,8 @@
 mod bytes;
 mod tokens;
 
+pub use tokens::MAX_TOKENS;
+
 use proc_macro2::TokenStream;
 use std::fmt;
 use std::ops::Range;

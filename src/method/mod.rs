@@ -85,6 +85,14 @@ impl Tables {
         }
     }
 
+    /// The method's name in reports.
+    pub fn method_name(&self) -> &'static str {
+        match self {
+            Tables::Tans(_) => "tANS",
+            Tables::Rans(_) => "rANS",
+        }
+    }
+
     /// What the report says about the layout of symbols in the table.
     pub fn spread_description(&self) -> &'static str {
         match self {
