@@ -45,9 +45,8 @@ fn the_deterministic_logarithm_matches_the_platform_one() {
     }
 }
 
-/// p = (0.04, 0.16, 0.16, 0.64), L = 16 (Duda, encode.su forum post on tANS tuning, 2014;
-/// figures recomputed with rational arithmetic in CHECKS.md).
-const P16: [f64; 4] = [0.04, 0.16, 0.16, 0.64];
+/// Counts for p = (0.04, 0.16, 0.16, 0.64), L = 16 (Duda, encode.su forum post on tANS
+/// tuning, 2014; figures recomputed with rational arithmetic in CHECKS.md).
 const C16: [u64; 4] = [4, 16, 16, 64];
 
 #[test]
