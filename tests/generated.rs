@@ -461,3 +461,73 @@ fn zz_debug() {
         eprintln!("gen {:02x?} ref {:02x?}", &buf[..n], reference.encode(&idx));
     }
 }
+
+#[test]
+fn a_header_claiming_more_symbols_than_its_payload_holds_is_refused() {
+    // A tagged header claims `count` symbols over a few payload bytes; the caller's buffer
+    // holds them all. The stream is truncated, and the decoder says so (before decoding,
+    // for codecs whose symbols cost at least a bit every few symbols: FORMAT.md).
+    let claim = |fingerprint: u16, count: u64, payload: &[u8]| {
+        let mut s = vec![precast::verify::TAG];
+        s.extend_from_slice(&fingerprint.to_le_bytes());
+        s.extend(precast::verify::leb128(count));
+        s.extend_from_slice(payload);
+        s
+    };
+    let payload = [0x5au8; 9];
+    for count in [1u64 << 12, 1 << 16, 1 << 22] {
+        let n = count as usize;
+        let stream = claim(mit_text::FINGERPRINT, count, &payload);
+        let mut out = vec![0u8; n];
+        assert_eq!(
+            mit_text::decode(&stream, &mut out),
+            Err(mit_text::Error::Truncated)
+        );
+        let stream = claim(five::FINGERPRINT, count, &payload);
+        let mut out = vec![five::Symbol::A; n];
+        assert_eq!(five::decode(&stream, &mut out), Err(five::Error::Truncated));
+        let stream = claim(skewed::FINGERPRINT, count, &payload);
+        let mut out = vec![skewed::Symbol::Likely; n];
+        assert_eq!(
+            skewed::decode(&stream, &mut out),
+            Err(skewed::Error::Truncated)
+        );
+        let stream = claim(golden::five_rans::FINGERPRINT, count, &[0x5a; 24]);
+        let mut out = vec![golden::five_rans::Symbol::A; n];
+        assert_eq!(
+            golden::five_rans::decode(&stream, &mut out),
+            Err(golden::five_rans::Error::Truncated)
+        );
+    }
+}
+
+#[test]
+fn the_cheapest_streams_are_never_refused() {
+    // The likeliest symbol repeated costs the fewest bits a symbol: the decoder's bound on
+    // what a symbol costs must still accept it, at every length around its run limits.
+    for len in (0..40).chain([63, 64, 65, 1000, 100_000]) {
+        let input = vec![skewed::Symbol::Likely; len];
+        let mut buf = vec![0u8; skewed::max_encoded_len(len)];
+        let n = skewed::encode(&input, &mut buf).unwrap();
+        let mut back = vec![skewed::Symbol::Unlikely; len];
+        assert_eq!(skewed::decode(&buf[..n], &mut back), Ok(len), "len {len}");
+        let input = vec![golden::skewed_l8::Symbol::Likely; len];
+        let mut buf = vec![0u8; golden::skewed_l8::max_encoded_len(len)];
+        let n = golden::skewed_l8::encode(&input, &mut buf).unwrap();
+        let mut back = vec![golden::skewed_l8::Symbol::Unlikely; len];
+        assert_eq!(
+            golden::skewed_l8::decode(&buf[..n], &mut back),
+            Ok(len),
+            "len {len}"
+        );
+        let input = vec![golden::five_rans::Symbol::A; len];
+        let mut buf = vec![0u8; golden::five_rans::max_encoded_len(len)];
+        let n = golden::five_rans::encode(&input, &mut buf).unwrap();
+        let mut back = vec![golden::five_rans::Symbol::E; len];
+        assert_eq!(
+            golden::five_rans::decode(&buf[..n], &mut back),
+            Ok(len),
+            "len {len}"
+        );
+    }
+}

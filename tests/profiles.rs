@@ -42,8 +42,13 @@ fn other_profile_cli() -> PathBuf {
         cargo.arg(flag);
     }
     let status = cargo.status().expect("cargo runs");
-    assert!(status.success(), "building the command line in the other profile");
-    target.join(folder).join(format!("precast{}", std::env::consts::EXE_SUFFIX))
+    assert!(
+        status.success(),
+        "building the command line in the other profile"
+    );
+    target
+        .join(folder)
+        .join(format!("precast{}", std::env::consts::EXE_SUFFIX))
 }
 
 #[test]
@@ -51,8 +56,16 @@ fn debug_and_release_builds_render_the_same_bytes() {
     let cli = other_profile_cli();
     for spec in specs() {
         let here = precast::render(&spec).expect("renders").source;
-        let out = Command::new(&cli).arg("render").arg(&spec).output().unwrap();
-        assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+        let out = Command::new(&cli)
+            .arg("render")
+            .arg(&spec)
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
         assert!(
             out.stdout == here.as_bytes(),
             "{} renders differently in the two profiles",

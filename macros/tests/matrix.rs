@@ -148,6 +148,24 @@ fn check<E: std::fmt::Debug + PartialEq + Copy>(c: Codec<E>) {
         assert_eq!((c.decode)(&buf[..n], &mut back), Ok(len));
         assert_eq!(back, input);
     }
+    // The cheapest input: the likeliest symbol, repeated; the decoder's early refusal of
+    // counts a payload cannot hold must never refuse it.
+    let likeliest = (0..slots.len())
+        .max_by_key(|&s| (slots[s], usize::MAX - s))
+        .unwrap();
+    for len in [1usize, 2, 7, 8, 9, 64, 1000, 65_537] {
+        let input = vec![c.alphabet[likeliest]; len];
+        let mut buf = vec![0u8; (c.max_encoded_len)(len)];
+        let n = (c.encode)(&input, &mut buf).unwrap();
+        let mut back = vec![0u8; len];
+        assert_eq!(
+            (c.decode)(&buf[..n], &mut back),
+            Ok(len),
+            "{} len {len}",
+            c.name
+        );
+        assert_eq!(back, input);
+    }
     // The training text: within 1 % of the order-0 entropy bound N·H/8 (Shannon), plus the
     // fixed cost of each lane's final state (4 bytes at most).
     let text = mit_text();
@@ -241,6 +259,15 @@ fn token_codecs_round_trip_and_match_the_reference() {
         if len == 20_000 {
             assert!(((n * 8) as f64 / len as f64) < 0.49);
         }
+    }
+    // The cheapest input, where the decoder's bound on what a symbol costs is tightest.
+    for len in [1usize, 100, 100_000] {
+        let input = vec![skewed_rans_l2::Symbol::Likely; len];
+        let mut buf = vec![0u8; skewed_rans_l2::max_encoded_len(len)];
+        let n = skewed_rans_l2::encode(&input, &mut buf).unwrap();
+        let mut back = vec![skewed_rans_l2::Symbol::Unlikely; len];
+        assert_eq!(skewed_rans_l2::decode(&buf[..n], &mut back), Ok(len));
+        assert_eq!(back, input);
     }
     let (b, framing, lanes) = built("five_rans_search");
     let reference = Reference::framed(&b.tables, b.fingerprint, framing, lanes);

@@ -53,6 +53,23 @@ pub fn body(
         push_number(line, u64::from(p.shift));
     }));
     let all = kind.all_symbols();
+    let count_check = match rans.min_cost_1024() {
+        0 => quote!(),
+        cost => {
+            let cost = Literal::u64_unsuffixed(cost);
+            quote! {
+                // Each symbol costs at least `MIN_COST / 1024` bits of state and each word
+                // read gives back at most 17: a count the payload cannot hold is refused
+                // before any decoding.
+                const MIN_COST: u64 = #cost;
+                let words = (payload.len() - 4 * LANES) as u64 / 2;
+                let room = words.saturating_mul(17).saturating_add(16 * LANES as u64);
+                if (count as u64).saturating_mul(MIN_COST) >> 10 > room {
+                    return Err(Error::Truncated);
+                }
+            }
+        }
+    };
     let lookup = match plan.spec.lookup {
         Lookup::Table => {
             let slots: Vec<u32> = (0..1u32 << rans.table_bits).collect();
@@ -236,6 +253,7 @@ pub fn body(
             let Some(head) = payload.first_chunk::<#state_bytes>() else {
                 return Err(Error::Truncated);
             };
+            #count_check
             let mut state = [0u32; LANES];
             for (x, bytes) in state.iter_mut().zip(head.chunks_exact(4)) {
                 let mut w = [0u8; 4];

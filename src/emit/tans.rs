@@ -127,6 +127,24 @@ pub fn body(
         )
     };
     let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
+    let count_check = match tans.zero_run() {
+        Some(run) => {
+            let run = Literal::usize_unsuffixed(run);
+            quote! {
+                // An honest stream reads a bit at least every `ZERO_RUN + 1` symbols of a
+                // lane: a count its payload cannot hold is refused before any decoding.
+                const ZERO_RUN: usize = #run;
+                let room = payload
+                    .len()
+                    .saturating_mul(8)
+                    .saturating_sub(pad + LANES * TABLE_BITS as usize);
+                if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+                    return Err(Error::Truncated);
+                }
+            }
+        }
+        None => quote!(),
+    };
     let word = super::tail_word();
     let spend = if tans.narrow_spend() {
         quote!(u16)
@@ -307,6 +325,7 @@ pub fn body(
         pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
             #start
             let payload = stream.get(header..).unwrap_or(&[]);
+            #count_check
             if bits_at(payload, 0) & !(u64::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }

@@ -111,6 +111,23 @@ impl Rans {
         }
     }
 
+    /// A lower bound on what one symbol costs, in 1/1024 bits, for refusing a count the
+    /// payload cannot hold (0: none). A decode step shrinks `log2 x` by at least
+    /// `log2(M / f_max) - log2(1 + M / L)` (the step is `x' < f (x / M + 1)` and `x >= L`);
+    /// floored and less one, so that rounding never makes it too large.
+    pub fn min_cost_1024(&self) -> u64 {
+        let m = f64::from(1u32 << self.table_bits);
+        let f_max = self.slots.iter().copied().max().unwrap_or(1);
+        let bits = crate::quantize::log2(m / f64::from(f_max))
+            - crate::quantize::log2(1.0 + m / f64::from(RANS_LOW));
+        let cost = (bits * 1024.0).floor() - 1.0;
+        if cost >= 1.0 {
+            cost as u64
+        } else {
+            0
+        }
+    }
+
     /// The emitted tables: `symbol_bytes` is the size of the generated `Symbol`, `put_rows`
     /// the rows of the encoding table, `absent` whether those rows carry an absent flag.
     pub fn layout(

@@ -119,6 +119,47 @@ impl Tans {
         self.table_bits <= NARROW_SPEND_TABLE_BITS
     }
 
+    /// The longest run of symbols one lane can decode without reading a bit, or `None` when
+    /// some run never ends (a cycle of zero-bit steps: a symbol owning more than half the
+    /// table can be that cheap for ever). With it, a decoder refuses a count its payload
+    /// cannot hold before decoding anything.
+    pub fn zero_run(&self) -> Option<usize> {
+        // run(i) = 0 if position i reads bits, else 1 + run(next(i)), where a zero-bit step
+        // goes to position `base`. Resolved along each chain; a chain that comes back to a
+        // position still being resolved is a cycle.
+        const OPEN: usize = usize::MAX;
+        let l = self.decode.len();
+        let mut run: Vec<Option<usize>> = vec![None; l];
+        let mut marks = vec![0usize; l];
+        let mut longest = 0;
+        for start in 0..l {
+            let mut chain = Vec::new();
+            let mut i = start;
+            let mut tail = loop {
+                if let Some(r) = run[i] {
+                    break r;
+                }
+                if self.decode[i].bits > 0 {
+                    run[i] = Some(0);
+                    break 0;
+                }
+                if marks[i] == OPEN {
+                    return None;
+                }
+                marks[i] = OPEN;
+                chain.push(i);
+                i = usize::from(self.decode[i].base);
+            };
+            for &j in chain.iter().rev() {
+                tail += 1;
+                run[j] = Some(tail);
+                marks[j] = 0;
+            }
+            longest = longest.max(tail);
+        }
+        Some(longest)
+    }
+
     /// The emitted tables: `symbol_bytes` is the size of the generated `Symbol`, `put_rows`
     /// the rows of the encoding table, `absent` whether those rows carry an absent flag.
     pub fn layout(&self, symbol_bytes: usize, put_rows: usize, absent: bool) -> TableLayout {

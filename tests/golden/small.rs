@@ -302,6 +302,14 @@ pub mod mit_text {
             return Err(Error::OutputTooSmall);
         };
         let payload = stream.get(header..).unwrap_or(&[]);
+        const ZERO_RUN: usize = 0;
+        let room = payload
+            .len()
+            .saturating_mul(8)
+            .saturating_sub(pad + LANES * TABLE_BITS as usize);
+        if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+            return Err(Error::Truncated);
+        }
         if bits_at(payload, 0) & !(u64::MAX << pad) != 0 {
             return Err(Error::Corrupt);
         }
@@ -1095,6 +1103,14 @@ pub mod five {
             return Err(Error::OutputTooSmall);
         };
         let payload = stream.get(header..).unwrap_or(&[]);
+        const ZERO_RUN: usize = 0;
+        let room = payload
+            .len()
+            .saturating_mul(8)
+            .saturating_sub(pad + LANES * TABLE_BITS as usize);
+        if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+            return Err(Error::Truncated);
+        }
         if bits_at(payload, 0) & !(u64::MAX << pad) != 0 {
             return Err(Error::Corrupt);
         }
@@ -1530,6 +1546,14 @@ pub mod skewed {
             return Err(Error::OutputTooSmall);
         };
         let payload = stream.get(header..).unwrap_or(&[]);
+        const ZERO_RUN: usize = 6;
+        let room = payload
+            .len()
+            .saturating_mul(8)
+            .saturating_sub(pad + LANES * TABLE_BITS as usize);
+        if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+            return Err(Error::Truncated);
+        }
         if bits_at(payload, 0) & !(u64::MAX << pad) != 0 {
             return Err(Error::Corrupt);
         }
@@ -2421,6 +2445,14 @@ pub mod five_bare {
     ) -> Result<(usize, usize), Error> {
         let (count, header, pad) = (out.len(), 0usize, 0usize);
         let payload = stream.get(header..).unwrap_or(&[]);
+        const ZERO_RUN: usize = 0;
+        let room = payload
+            .len()
+            .saturating_mul(8)
+            .saturating_sub(pad + LANES * TABLE_BITS as usize);
+        if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+            return Err(Error::Truncated);
+        }
         if bits_at(payload, 0) & !(u64::MAX << pad) != 0 {
             return Err(Error::Corrupt);
         }
@@ -2782,6 +2814,12 @@ pub mod five_rans {
         let Some(head) = payload.first_chunk::<16>() else {
             return Err(Error::Truncated);
         };
+        const MIN_COST: u64 = 2045;
+        let words = (payload.len() - 4 * LANES) as u64 / 2;
+        let room = words.saturating_mul(17).saturating_add(16 * LANES as u64);
+        if (count as u64).saturating_mul(MIN_COST) >> 10 > room {
+            return Err(Error::Truncated);
+        }
         let mut state = [0u32; LANES];
         for (x, bytes) in state.iter_mut().zip(head.chunks_exact(4)) {
             let mut w = [0u8; 4];
@@ -3206,6 +3244,14 @@ pub mod skewed_l8 {
             return Err(Error::OutputTooSmall);
         };
         let payload = stream.get(header..).unwrap_or(&[]);
+        const ZERO_RUN: usize = 6;
+        let room = payload
+            .len()
+            .saturating_mul(8)
+            .saturating_sub(pad + LANES * TABLE_BITS as usize);
+        if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+            return Err(Error::Truncated);
+        }
         if bits_at(payload, 0) & !(u64::MAX << pad) != 0 {
             return Err(Error::Corrupt);
         }
