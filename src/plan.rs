@@ -43,10 +43,8 @@ impl CodecPlan {
 }
 
 fn put_rows(input: &InputMap, symbols: usize) -> (usize, bool) {
-    match input {
-        InputMap::Index => (symbols, false),
-        InputMap::Rows(rows) => (rows.len(), true),
-    }
+    let rows = crate::emit::input::row_count(input, symbols);
+    (rows, matches!(input, InputMap::Rows(_)))
 }
 
 /// Plans one codec: counts, slots, tables, verification against the reference coder, report.

@@ -35,36 +35,54 @@ pub fn tokens(input: &InputMap) -> InputTokens {
             error_variant: quote!(),
             error_display: quote!(),
         },
-        InputMap::Rows(_) => InputTokens {
-            row: quote!(usize::from(symbol)),
-            declare: quote!(let mut absent: u8 = 0;),
-            check: quote!(absent |= put.absent;),
-            refuse: quote! {
-                if absent != 0 {
-                    let position = input
-                        .iter()
-                        .position(|&symbol| PUTS[usize::from(symbol)].absent != 0)
-                        .unwrap_or(0);
-                    return Err(Error::UnknownSymbol { position });
-                }
-            },
-            field: quote! {
-                /// 1 for a value outside the alphabet (its other fields are harmless).
-                absent: u8,
-            },
-            error_variant: quote! {
-                /// `input[position]` is not in the alphabet.
-                UnknownSymbol {
-                    /// Index of the first such symbol in the input.
-                    position: usize,
+        InputMap::Rows(rows) => {
+            // Values past the rows land on one more row, an absent one (`put_rows`).
+            let row = if rows.len() >= 256 {
+                quote!(usize::from(symbol))
+            } else {
+                let last = proc_macro2::Literal::usize_unsuffixed(rows.len());
+                quote!(usize::from(symbol).min(#last))
+            };
+            InputTokens {
+                row: row.clone(),
+                declare: quote!(let mut absent: u8 = 0;),
+                check: quote!(absent |= put.absent;),
+                refuse: quote! {
+                    if absent != 0 {
+                        let position = input
+                            .iter()
+                            .position(|&symbol| PUTS[#row].absent != 0)
+                            .unwrap_or(0);
+                        return Err(Error::UnknownSymbol { position });
+                    }
                 },
-            },
-            error_display: quote! {
-                Error::UnknownSymbol { position } => {
-                    ::core::write!(f, "the symbol at position {} is not in the alphabet", position)
-                }
-            },
-        },
+                field: quote! {
+                    /// 1 for a value outside the alphabet (its other fields are harmless).
+                    absent: u8,
+                },
+                error_variant: quote! {
+                    /// `input[position]` is not in the alphabet.
+                    UnknownSymbol {
+                        /// Index of the first such symbol in the input.
+                        position: usize,
+                    },
+                },
+                error_display: quote! {
+                    Error::UnknownSymbol { position } => {
+                        ::core::write!(f, "the symbol at position {} is not in the alphabet", position)
+                    }
+                },
+            }
+        }
+    }
+}
+
+/// Rows of the encoding table for `input`, with the sentinel row of [`tokens`].
+pub fn row_count(input: &InputMap, symbols: usize) -> usize {
+    match input {
+        InputMap::Index => symbols,
+        InputMap::Rows(rows) if rows.len() >= 256 => rows.len(),
+        InputMap::Rows(rows) => rows.len() + 1,
     }
 }
 
@@ -88,6 +106,7 @@ pub fn put_rows(
             .collect(),
         InputMap::Rows(rows) => rows
             .iter()
+            .chain((rows.len() < 256).then_some(&None))
             .enumerate()
             .map(|(value, symbol)| {
                 let mut row = String::from("Put { ");
@@ -103,6 +122,7 @@ pub fn put_rows(
                         row.push_str(": ");
                         row.push_str(&kind.row_literal(usize::from(*s)));
                     }
+                    None if value == rows.len() => row.push_str(" and above: not in the alphabet"),
                     None => row.push_str(": not in the alphabet"),
                 }
                 row

@@ -177,22 +177,54 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     })
 }
 
-/// Reads of the payload that may fall past its end, for the decoders' last symbols.
+/// Helpers both methods' encoders and decoders use: the target's word and a read of the
+/// payload that may fall past its end, and the panic-free move of a finished stream.
 pub(crate) fn tail_word() -> TokenStream {
     quote! {
-        /// Eight bytes of `data` from `at` on, little-endian, zeros past the end.
+        /// The bit buffer's word: the target's register.
+        #[cfg(target_pointer_width = "64")]
+        type Word = u64;
+        /// The bit buffer's word: the target's register.
+        #[cfg(not(target_pointer_width = "64"))]
+        type Word = u32;
+
+        /// A word of `data` from byte `at` on, little-endian, zeros past the end.
         #[inline(always)]
-        fn word(data: &[u8], at: usize) -> u64 {
-            match data.get(at..).and_then(<[u8]>::first_chunk::<8>) {
-                Some(w) => u64::from_le_bytes(*w),
+        fn word(data: &[u8], at: usize) -> Word {
+            const N: usize = ::core::mem::size_of::<Word>();
+            match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
+                Some(w) => Word::from_le_bytes(*w),
                 None => {
-                    let mut w = [0u8; 8];
+                    let mut w = [0u8; N];
                     for (k, dst) in w.iter_mut().enumerate() {
                         *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
                     }
-                    u64::from_le_bytes(w)
+                    Word::from_le_bytes(w)
                 }
             }
+        }
+
+        /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
+        /// returns its length. Copies in pieces no longer than the distance moved, so that
+        /// source and destination never overlap and no index can fail.
+        fn move_to_front(out: &mut [u8], from: usize, to: usize) -> Result<usize, Error> {
+            let (Some(gap), Some(len)) = (from.checked_sub(to), out.len().checked_sub(from)) else {
+                return Err(Error::OutputTooSmall);
+            };
+            let mut done = 0;
+            while gap > 0 && done < len {
+                let step = if len - done < gap { len - done } else { gap };
+                let Some((front, back)) = out.split_at_mut_checked(from + done) else {
+                    break;
+                };
+                if let (Some(dst), Some(src)) = (front.get_mut(to + done..), back.get(..step)) {
+                    for (d, s) in dst.iter_mut().zip(src) {
+                        *d = *s;
+                    }
+                }
+                done += step;
+            }
+            Ok(to + len)
         }
     }
 }

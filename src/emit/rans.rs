@@ -161,14 +161,11 @@ pub fn body(
             if x <= put.ceiling {
                 return Ok(x);
             }
-            let Some(start) = pos.checked_sub(2) else {
+            let Some(dst) = out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<2>) else {
                 return Err(Error::OutputTooSmall);
             };
-            let Some(dst) = out.get_mut(start..*pos) else {
-                return Err(Error::OutputTooSmall);
-            };
-            dst.copy_from_slice(&(x as u16).to_le_bytes());
-            *pos = start;
+            *dst = (x as u16).to_le_bytes();
+            *pos -= 2;
             Ok(x >> 16)
         }
 
@@ -179,8 +176,7 @@ pub fn body(
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = #header_len;
-            let end = out.len();
-            let mut pos = end;
+            let mut pos = out.len();
             let mut state = [LOW; LANES];
             #declare
             // Symbols go in backwards, so the last, partial round comes first.
@@ -204,8 +200,10 @@ pub fn body(
                         let x = state[lane];
                         let shed = u32::from(x > put.ceiling);
                         let at = (2 * LANES - 2).saturating_sub(top.wrapping_sub(pos));
-                        window[at..at + 2].copy_from_slice(&(x as u16).to_le_bytes());
-                        pos -= (shed as usize) << 1;
+                        if let Some(dst) = window.get_mut(at..).and_then(<[u8]>::first_chunk_mut::<2>) {
+                            *dst = (x as u16).to_le_bytes();
+                        }
+                        pos = pos.wrapping_sub((shed as usize) << 1);
                         // Branch-free: the word goes when the state is over the ceiling.
                         state[lane] = put_symbol(x >> (shed << 4), put);
                     }
@@ -222,20 +220,13 @@ pub fn body(
             #refuse
             // The final states, lane 0 in front.
             for &x in state.iter().rev() {
-                let Some(start) = pos.checked_sub(4) else {
+                let Some(dst) = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<4>) else {
                     return Err(Error::OutputTooSmall);
                 };
-                let Some(dst) = out.get_mut(start..pos) else {
-                    return Err(Error::OutputTooSmall);
-                };
-                dst.copy_from_slice(&x.to_le_bytes());
-                pos = start;
+                *dst = x.to_le_bytes();
+                pos -= 4;
             }
-            if pos < header {
-                return Err(Error::OutputTooSmall);
-            }
-            out.copy_within(pos..end, header);
-            let len = header + (end - pos);
+            let len = move_to_front(out, pos, header)?;
             #finish
             Ok(len)
         }
@@ -255,10 +246,8 @@ pub fn body(
             };
             #count_check
             let mut state = [0u32; LANES];
-            for (x, bytes) in state.iter_mut().zip(head.chunks_exact(4)) {
-                let mut w = [0u8; 4];
-                w.copy_from_slice(bytes);
-                *x = u32::from_le_bytes(w);
+            for (x, bytes) in state.iter_mut().zip(head.as_chunks::<4>().0) {
+                *x = u32::from_le_bytes(*bytes);
             }
             if state.iter().any(|&x| x < LOW) {
                 return Err(Error::Corrupt);

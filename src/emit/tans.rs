@@ -1,8 +1,17 @@
 //! The emitted tANS encoder and decoder (tables from `method/tans.rs`).
 //!
-//! Both run in rounds: a fixed number of symbols (a multiple of `LANES`), unrolled by the
-//! compiler, with one bounds check per round that takes a fixed-size window of the stream;
-//! near the ends of the buffers a plain loop with checked, zero-filled reads takes over.
+//! One generated file serves every target; the bit I/O is chosen by the target's word size:
+//!
+//! - 64-bit targets (`wide`): rounds of a fixed number of symbols (a multiple of `LANES`),
+//!   unrolled by the compiler, with one bounds check per round that takes a fixed-size window
+//!   of the stream and loads or stores at fixed points, so that no branch depends on the
+//!   data; a short loop takes the last symbols.
+//! - 32-bit targets (`narrow`, microcontrollers): one loop for every symbol of any stream,
+//!   with a 32-bit bit buffer refilled (decoder) or flushed (encoder) only when it needs to
+//!   be; that costs the fewest instructions a symbol on an in-order core, and a short frame
+//!   runs the same loop as a long stream.
+//!
+//! Both write and read the same streams (FORMAT.md).
 
 use super::framing::{self, FramingTokens};
 use super::input::{self, InputTokens};
@@ -13,9 +22,9 @@ use crate::spec::Framing;
 use proc_macro2::{Literal, TokenStream};
 use quote::quote;
 
-/// Round sizes: one 64-bit load holds at least 57 unread bits; flushing keeps fewer than 64
-/// pending. A round is a whole number of symbols per lane: as many as one load (one store)
-/// covers, or one per lane when that is more.
+/// Round sizes of the 64-bit path: one 64-bit load holds at least 57 unread bits; flushing
+/// keeps fewer than 64 pending. A round is a whole number of symbols per lane: as many as one
+/// load (one store) covers, or one per lane when that is more.
 struct Rounds {
     max_bits: usize,
     per_load: usize,
@@ -46,6 +55,15 @@ impl Rounds {
     }
 }
 
+/// The pieces both paths share.
+struct Parts<'a> {
+    framing: &'a FramingTokens,
+    input: &'a InputTokens,
+    finish: TokenStream,
+    count_check: TokenStream,
+    end_check: TokenStream,
+}
+
 pub fn body(
     plan: &CodecPlan,
     tans: &Tans,
@@ -55,33 +73,10 @@ pub fn body(
 ) -> TokenStream {
     let kind = plan.spec.kind.as_ref();
     let r = Rounds::new(tans, plan.spec.lanes as usize);
-    let [max_bits, per_load, per_flush, decode_round, encode_round, decode_window, encode_window] =
-        [
-            r.max_bits,
-            r.per_load,
-            r.per_flush,
-            r.decode_round,
-            r.encode_round,
-            r.decode_window,
-            r.encode_window,
-        ]
-        .map(Literal::usize_unsuffixed);
-    let FramingTokens {
-        header_max,
-        header_len,
-        start,
-        ..
-    } = framing;
-    let InputTokens {
-        row,
-        declare,
-        check,
-        refuse,
-        field,
-        ..
-    } = input;
+    let max_bits = Literal::usize_unsuffixed(r.max_bits);
+    let header_max = &framing.header_max;
+    let field = &input.field;
 
-    let stored_mask = tans.stored_mask();
     let decode_rows = rows.add(rows_of(&tans.decode, 8, |line, e| {
         line.push_str("Step(");
         line.push_str(&kind.row_literal(usize::from(e.symbol)));
@@ -89,10 +84,6 @@ pub fn body(
         push_number(line, u64::from(e.bits));
         line.push_str(", ");
         push_number(line, u64::from(e.base));
-        if stored_mask {
-            line.push_str(", ");
-            push_number(line, (1u64 << e.bits) - 1);
-        }
         line.push_str("), ");
     }));
     let put_rows = rows.add(input::put_rows(kind, &plan.input, |line, s| {
@@ -106,97 +97,31 @@ pub fn body(
         push_number(line, u64::from(v));
         line.push_str(", ");
     }));
-    let (step_struct, step_mask) = if stored_mask {
-        (
-            quote! {
-                /// One decode step, `Step(symbol, bits, base, mask)`: at table position `i` the
-                /// decoder emits `symbol`, reads `bits` bits `b` (`mask` is `2^bits - 1`, stored
-                /// to keep a shift off the critical path), and goes to position `base + b`.
-                struct Step(Symbol, u8, u16, u32);
-            },
-            quote!(u64::from(step.3)),
-        )
-    } else {
-        (
-            quote! {
-                /// One decode step, `Step(symbol, bits, base)`: at table position `i` the
-                /// decoder emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-                struct Step(Symbol, u8, u16);
-            },
-            quote!(!(u64::MAX << step.1)),
-        )
-    };
     let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
-    let count_check = match tans.zero_run() {
-        Some(run) => {
-            let run = Literal::usize_unsuffixed(run);
-            quote! {
-                // An honest stream reads a bit at least every `ZERO_RUN + 1` symbols of a
-                // lane: a count its payload cannot hold is refused before any decoding.
-                const ZERO_RUN: usize = #run;
-                let room = payload
-                    .len()
-                    .saturating_mul(8)
-                    .saturating_sub(pad + LANES * TABLE_BITS as usize);
-                if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
-                    return Err(Error::Truncated);
-                }
-            }
-        }
-        None => quote!(),
-    };
-    let word = super::tail_word();
     let spend = if tans.narrow_spend() {
         quote!(u16)
     } else {
         quote!(u32)
     };
-    let finish = match plan.spec.framing {
-        Framing::Tagged => framing::write_header(Framing::Tagged, quote!(pad as u8)),
-        Framing::Bare => quote! {
-            // Bare: move the padding from the front to the end of the payload.
-            if pad != 0 {
-                let mut i = 0;
-                while i < len {
-                    let next = if i + 1 < len { out.get(i + 1).copied().unwrap_or(0) } else { 0 };
-                    if let Some(b) = out.get_mut(i) {
-                        *b = (*b >> pad) | (next << (8 - pad));
-                    }
-                    i += 1;
-                }
-            }
-        },
+    let state = if tans.next_bytes() == 1 {
+        quote!(u8)
+    } else {
+        quote!(u16)
     };
-    let end_check = match plan.spec.framing {
-        // The padding count must make the stream end on a byte boundary: one stream, one
-        // encoding.
-        Framing::Tagged => quote! {
-            if !at.is_multiple_of(8) {
-                return Err(Error::Corrupt);
-            }
-        },
-        Framing::Bare => quote! {
-            if bits_at(payload, at) & !(u64::MAX << ((8 - at % 8) % 8)) != 0 {
-                return Err(Error::Corrupt);
-            }
-        },
+    let parts = Parts {
+        framing,
+        input,
+        finish: finish(plan.spec.framing),
+        count_check: count_check(tans),
+        end_check: end_check(plan.spec.framing),
     };
+    let wide = wide(&r, &parts);
+    let narrow = narrow(&parts);
+    let word = super::tail_word();
 
     quote! {
         /// Most bits any one symbol costs.
         pub const MAX_SYMBOL_BITS: u32 = #max_bits;
-        /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
-        const PER_LOAD: usize = #per_load;
-        /// Symbols encoded between two stores (fewer than 64 bits stay pending).
-        const PER_FLUSH: usize = #per_flush;
-        /// Symbols in one decoder round (a multiple of `LANES`).
-        const DECODE_ROUND: usize = #decode_round;
-        /// Symbols in one encoder round (a multiple of `LANES`).
-        const ENCODE_ROUND: usize = #encode_round;
-        /// Stream bytes one decoder round may touch.
-        const DECODE_WINDOW: usize = #decode_window;
-        /// Output bytes one encoder round may touch.
-        const ENCODE_WINDOW: usize = #encode_window;
 
         /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
         pub const fn max_encoded_len(symbols: usize) -> usize {
@@ -206,195 +131,31 @@ pub fn body(
             (#header_max).saturating_add(bits / 8)
         }
 
-        /// One encoder step: shifts the low `k` bits of `x` in under the pending bits (the
-        /// stream is built back to front, so they come first) and returns the next state and `k`.
+        /// One encoder step from state `x`: the bit count, the bits above them (`x >> bits`,
+        /// the copy number whose state comes next) and the next state.
         #[inline(always)]
         #[allow(clippy::useless_conversion)]
-        fn put_symbol(x: u32, put: &Put, acc: &mut u64) -> (u32, u32) {
+        fn put_symbol(x: u32, put: &Put) -> (u32, u32, u32) {
             let bits = x.wrapping_add(u32::from(put.spend)) >> (TABLE_BITS + 1);
             let high = x >> bits;
-            // The low bits as `x` minus its high part: no mask to build.
-            *acc = (*acc << bits) | u64::from(x ^ (high << bits));
             let next = NEXT_STATE[(high as usize + usize::from(put.run)) & MASK];
-            (u32::from(next), bits)
+            (bits, high, u32::from(next))
         }
 
-        /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
-        /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
-        /// bits already stored, which this shifts out.
-        #[inline(always)]
-        fn aligned(acc: u64, pending: u32) -> u64 {
-            acc.wrapping_shl(64u32.wrapping_sub(pending))
-        }
+        #[cfg(target_pointer_width = "64")]
+        pub use wide::{decode_prefix, encode};
+        #[cfg(not(target_pointer_width = "64"))]
+        pub use narrow::{decode_prefix, encode};
 
-        /// Stores the whole bytes of the pending bits in front of `pos`.
-        #[inline(always)]
-        fn store(out: &mut [u8], pos: &mut usize, acc: u64, pending: &mut u32) -> Result<(), Error> {
-            let whole = (*pending >> 3) as usize;
-            let bytes = aligned(acc, *pending).to_le_bytes();
-            let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..)) else {
-                return Err(Error::OutputTooSmall);
-            };
-            let Some(dst) = out.get_mut(start..*pos) else {
-                return Err(Error::OutputTooSmall);
-            };
-            dst.copy_from_slice(top);
-            *pos = start;
-            *pending &= 7;
-            Ok(())
-        }
+        #wide
 
-        /// Encodes `input` into `out` as one stream; returns its length.
-        ///
-        /// The stream is written back to front at the end of `out`, then moved to the
-        /// front; `out` beyond the returned length is left unspecified.
-        #[allow(clippy::modulo_one)]
-        pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
-            let header = #header_len;
-            let end = out.len();
-            let mut pos = end;
-            let mut state = [TABLE_LEN as u32; LANES];
-            // Bits not yet stored, the low `pending` of `acc`; fewer than 8 between stores.
-            let mut acc: u64 = 0;
-            let mut pending: u32 = 0;
-            #declare
-            // Symbols go in backwards, so the last, partial round comes first.
-            let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
-            for (i, &symbol) in rest.iter().enumerate().rev() {
-                let put = &PUTS[#row];
-                #check
-                let (next, bits) = put_symbol(state[i % LANES], put, &mut acc);
-                state[i % LANES] = next;
-                pending += bits;
-                store(out, &mut pos, acc, &mut pending)?;
-            }
-            for round in rounds.iter().rev() {
-                let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
-                if let Some(window) = window {
-                    // Fast path: every store lands in `window`, no other check needed.
-                    let top = pos;
-                    for i in (0..ENCODE_ROUND).rev() {
-                        let symbol = round[i];
-                        let put = &PUTS[#row];
-                        #check
-                        let (next, bits) = put_symbol(state[i % LANES], put, &mut acc);
-                        state[i % LANES] = next;
-                        pending += bits;
-                        if i % PER_FLUSH == 0 {
-                            let at = (ENCODE_WINDOW - 8).saturating_sub(top.wrapping_sub(pos));
-                            window[at..at + 8].copy_from_slice(&aligned(acc, pending).to_le_bytes());
-                            pos -= (pending >> 3) as usize;
-                            pending &= 7;
-                        }
-                    }
-                } else {
-                    for i in (0..ENCODE_ROUND).rev() {
-                        let symbol = round[i];
-                        let put = &PUTS[#row];
-                        #check
-                        let (next, bits) = put_symbol(state[i % LANES], put, &mut acc);
-                        state[i % LANES] = next;
-                        pending += bits;
-                        store(out, &mut pos, acc, &mut pending)?;
-                    }
-                }
-            }
-            #refuse
-            // The final states, lane 0 in front, then zero padding to a whole byte.
-            for &x in state.iter().rev() {
-                acc = (acc << TABLE_BITS) | (u64::from(x) - TABLE_LEN as u64);
-                pending += TABLE_BITS;
-                store(out, &mut pos, acc, &mut pending)?;
-            }
-            let pad = (8 - pending % 8) % 8;
-            acc <<= pad;
-            pending += pad;
-            store(out, &mut pos, acc, &mut pending)?;
-            if pos < header {
-                return Err(Error::OutputTooSmall);
-            }
-            out.copy_within(pos..end, header);
-            let len = header + (end - pos);
-            #finish
-            Ok(len)
-        }
-
-        /// Decodes the stream at the front of `stream` (more may follow it); returns the
-        /// number of symbols and the number of bytes the stream took.
-        #[allow(clippy::modulo_one)]
-        pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
-            #start
-            let payload = stream.get(header..).unwrap_or(&[]);
-            #count_check
-            if bits_at(payload, 0) & !(u64::MAX << pad) != 0 {
-                return Err(Error::Corrupt);
-            }
-            let mut at = pad;
-            let mut state = [0usize; LANES];
-            for x in state.iter_mut() {
-                *x = bits_at(payload, at) as usize & MASK;
-                at += TABLE_BITS as usize;
-            }
-            let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
-            let mut done = 0;
-            for round in rounds.iter_mut() {
-                let Some(window) = payload.get(at >> 3..).and_then(<[u8]>::first_chunk::<DECODE_WINDOW>) else {
-                    break;
-                };
-                // Fast path: every read lands in `window`, no other check needed.
-                let first = at >> 3;
-                let mut buf = 0u64;
-                for (i, slot) in round.iter_mut().enumerate() {
-                    if i % PER_LOAD == 0 {
-                        buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
-                    }
-                    let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & #step_mask) as usize;
-                    buf >>= bits;
-                    at += bits as usize;
-                }
-                done += DECODE_ROUND;
-            }
-            for (i, slot) in out.iter_mut().enumerate().skip(done) {
-                let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2) + (bits_at(payload, at) & !(u64::MAX << bits)) as usize;
-                at += bits as usize;
-            }
-            if at.div_ceil(8) > payload.len() {
-                return Err(Error::Truncated);
-            }
-            if state.iter().any(|&x| x != 0) {
-                return Err(Error::Corrupt);
-            }
-            #end_check
-            Ok((count, header + at.div_ceil(8)))
-        }
-
-        /// Eight bytes of `window` from `at` on, little-endian. The rounds never read past
-        /// `N - 8`; the `min` only lets the compiler see it and drop the bounds check.
-        #[inline(always)]
-        fn window_word<const N: usize>(window: &[u8; N], at: usize) -> u64 {
-            let at = if at < N - 8 { at } else { N - 8 };
-            let mut w = [0u8; 8];
-            w.copy_from_slice(&window[at..at + 8]);
-            u64::from_le_bytes(w)
-        }
+        #narrow
 
         #word
 
-        /// The stream bits from bit `at` on, least significant first (57 or more valid).
-        #[inline(always)]
-        fn bits_at(data: &[u8], at: usize) -> u64 {
-            word(data, at >> 3) >> (at & 7)
-        }
-
-        #step_struct
+        /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
+        /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
+        struct Step(Symbol, u8, u16);
 
         /// How to put a symbol into the state: from state `x` the encoder writes
         /// `k = (x + spend) >> (TABLE_BITS + 1)` bits, then goes to state
@@ -413,6 +174,440 @@ pub fn body(
 
         /// For each symbol in alphabet order, the states of its copies in the table, left
         /// to right (a state is `TABLE_LEN` + position).
-        static NEXT_STATE: [u16; TABLE_LEN] = #next_rows;
+        static NEXT_STATE: [#state; TABLE_LEN] = #next_rows;
+    }
+}
+
+/// The end of `encode`: the header, or for bare streams the padding moved to the end.
+fn finish(framing: Framing) -> TokenStream {
+    match framing {
+        Framing::Tagged => framing::write_header(Framing::Tagged, quote!(pad as u8)),
+        Framing::Bare => quote! {
+            // Bare: move the padding from the front to the end of the payload.
+            if pad != 0 {
+                let mut i = 0;
+                while i < len {
+                    let next = if i + 1 < len { out.get(i + 1).copied().unwrap_or(0) } else { 0 };
+                    if let Some(b) = out.get_mut(i) {
+                        *b = (*b >> pad) | (next << (8 - pad));
+                    }
+                    i += 1;
+                }
+            }
+        },
+    }
+}
+
+/// The decoder's last check: the stream ends on a byte boundary (tagged: one stream, one
+/// encoding) or in zero padding (bare).
+fn end_check(framing: Framing) -> TokenStream {
+    match framing {
+        Framing::Tagged => quote! {
+            if !at.is_multiple_of(8) {
+                return Err(Error::Corrupt);
+            }
+        },
+        Framing::Bare => quote! {
+            if peek(payload, at) as u8 & !(u8::MAX << ((8 - at % 8) % 8)) != 0 {
+                return Err(Error::Corrupt);
+            }
+        },
+    }
+}
+
+/// Refuses a count the payload cannot hold, before decoding (FORMAT.md).
+fn count_check(tans: &Tans) -> TokenStream {
+    let Some(run) = tans.zero_run() else {
+        return TokenStream::new();
+    };
+    let run = Literal::usize_unsuffixed(run);
+    quote! {
+        // An honest stream reads a bit at least every `ZERO_RUN + 1` symbols of a lane: a
+        // count its payload cannot hold is refused before any decoding.
+        const ZERO_RUN: usize = #run;
+        let room = payload
+            .len()
+            .saturating_mul(8)
+            .saturating_sub(pad + LANES * TABLE_BITS as usize);
+        if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+            return Err(Error::Truncated);
+        }
+    }
+}
+
+/// The 64-bit path: rounds with one bounds check each, loads and stores at fixed points.
+fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
+    let [per_load, per_flush, decode_round, encode_round, decode_window, encode_window] = [
+        r.per_load,
+        r.per_flush,
+        r.decode_round,
+        r.encode_round,
+        r.decode_window,
+        r.encode_window,
+    ]
+    .map(Literal::usize_unsuffixed);
+    let FramingTokens {
+        header_len, start, ..
+    } = parts.framing;
+    let InputTokens {
+        row,
+        declare,
+        check,
+        refuse,
+        ..
+    } = parts.input;
+    let (finish, count_check, end_check) = (&parts.finish, &parts.count_check, &parts.end_check);
+    quote! {
+        /// The 64-bit path: a 64-bit bit buffer, rounds of symbols with one bounds check.
+        #[cfg(target_pointer_width = "64")]
+        mod wide {
+            use super::*;
+
+            /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
+            const PER_LOAD: usize = #per_load;
+            /// Symbols encoded between two stores (fewer than 64 bits stay pending).
+            const PER_FLUSH: usize = #per_flush;
+            /// Symbols in one decoder round (a multiple of `LANES`).
+            const DECODE_ROUND: usize = #decode_round;
+            /// Symbols in one encoder round (a multiple of `LANES`).
+            const ENCODE_ROUND: usize = #encode_round;
+            /// Stream bytes one decoder round may touch.
+            const DECODE_WINDOW: usize = #decode_window;
+            /// Output bytes one encoder round may touch.
+            const ENCODE_WINDOW: usize = #encode_window;
+
+            /// Shifts the low `bits` bits of `x` in under the pending bits of `acc` (the
+            /// stream is built back to front, so they come first): `high` is `x >> bits`.
+            #[inline(always)]
+            fn push(acc: u64, x: u32, high: u32, bits: u32) -> u64 {
+                (acc << bits) | u64::from(x ^ (high << bits))
+            }
+
+            /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
+            /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
+            /// bits already stored, which this shifts out.
+            #[inline(always)]
+            fn aligned(acc: u64, pending: u32) -> u64 {
+                acc.wrapping_shl(64u32.wrapping_sub(pending))
+            }
+
+            /// Stores the whole bytes of the pending bits in front of `pos`.
+            #[inline(always)]
+            fn store(out: &mut [u8], pos: &mut usize, acc: u64, pending: &mut u32) -> Result<(), Error> {
+                let whole = (*pending >> 3) as usize;
+                let bytes = aligned(acc, *pending).to_le_bytes();
+                let (Some(start), Some(top)) = (pos.checked_sub(whole), bytes.get(8 - whole..)) else {
+                    return Err(Error::OutputTooSmall);
+                };
+                let Some(dst) = out.get_mut(start..*pos) else {
+                    return Err(Error::OutputTooSmall);
+                };
+                for (d, s) in dst.iter_mut().zip(top) {
+                    *d = *s;
+                }
+                *pos = start;
+                *pending &= 7;
+                Ok(())
+            }
+
+            /// Encodes `input` into `out` as one stream; returns its length.
+            ///
+            /// The stream is written back to front at the end of `out`, then moved to the
+            /// front; `out` beyond the returned length is left unspecified.
+            #[allow(clippy::modulo_one)]
+            pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
+                let header = #header_len;
+                let mut pos = out.len();
+                let mut state = [TABLE_LEN as u32; LANES];
+                // Bits not yet stored, the low `pending` of `acc`; fewer than 8 between stores.
+                let mut acc: u64 = 0;
+                let mut pending: u32 = 0;
+                #declare
+                // Symbols go in backwards, so the last, partial round comes first.
+                let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
+                for (i, &symbol) in rest.iter().enumerate().rev() {
+                    let put = &PUTS[#row];
+                    #check
+                    let x = state[i % LANES];
+                    let (bits, high, next) = put_symbol(x, put);
+                    acc = push(acc, x, high, bits);
+                    state[i % LANES] = next;
+                    pending += bits;
+                    store(out, &mut pos, acc, &mut pending)?;
+                }
+                for round in rounds.iter().rev() {
+                    let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
+                    if let Some(window) = window {
+                        // Fast path: every store lands in `window`, no other check needed.
+                        let top = pos;
+                        for i in (0..ENCODE_ROUND).rev() {
+                            let symbol = round[i];
+                            let put = &PUTS[#row];
+                            #check
+                            let x = state[i % LANES];
+                            let (bits, high, next) = put_symbol(x, put);
+                            acc = push(acc, x, high, bits);
+                            state[i % LANES] = next;
+                            pending += bits;
+                            if i % PER_FLUSH == 0 {
+                                let at = (ENCODE_WINDOW - 8).saturating_sub(top.wrapping_sub(pos));
+                                if let Some(dst) = window.get_mut(at..).and_then(<[u8]>::first_chunk_mut::<8>) {
+                                    *dst = aligned(acc, pending).to_le_bytes();
+                                }
+                                pos = pos.wrapping_sub((pending >> 3) as usize);
+                                pending &= 7;
+                            }
+                        }
+                    } else {
+                        for i in (0..ENCODE_ROUND).rev() {
+                            let symbol = round[i];
+                            let put = &PUTS[#row];
+                            #check
+                            let x = state[i % LANES];
+                            let (bits, high, next) = put_symbol(x, put);
+                            acc = push(acc, x, high, bits);
+                            state[i % LANES] = next;
+                            pending += bits;
+                            store(out, &mut pos, acc, &mut pending)?;
+                        }
+                    }
+                }
+                #refuse
+                // The final states, lane 0 in front, then zero padding to a whole byte.
+                for &x in state.iter().rev() {
+                    acc = (acc << TABLE_BITS) | u64::from(x).wrapping_sub(TABLE_LEN as u64);
+                    pending += TABLE_BITS;
+                    store(out, &mut pos, acc, &mut pending)?;
+                }
+                let pad = (8 - pending % 8) % 8;
+                acc <<= pad;
+                pending += pad;
+                store(out, &mut pos, acc, &mut pending)?;
+                let len = move_to_front(out, pos, header)?;
+                #finish
+                Ok(len)
+            }
+
+            /// Decodes the stream at the front of `stream` (more may follow it); returns the
+            /// number of symbols and the number of bytes the stream took.
+            #[allow(clippy::modulo_one)]
+            pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
+                #start
+                let payload = stream.get(header..).unwrap_or(&[]);
+                #count_check
+                if peek(payload, 0) & !(u64::MAX << pad) != 0 {
+                    return Err(Error::Corrupt);
+                }
+                let mut at = pad;
+                let mut state = [0usize; LANES];
+                for x in state.iter_mut() {
+                    *x = peek(payload, at) as usize & MASK;
+                    at += TABLE_BITS as usize;
+                }
+                let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
+                let mut done = 0;
+                for round in rounds.iter_mut() {
+                    let Some(window) = payload.get(at >> 3..).and_then(<[u8]>::first_chunk::<DECODE_WINDOW>) else {
+                        break;
+                    };
+                    // Fast path: every read lands in `window`, no other check needed.
+                    let first = at >> 3;
+                    let mut buf = 0u64;
+                    for (i, slot) in round.iter_mut().enumerate() {
+                        if i % PER_LOAD == 0 {
+                            buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
+                        }
+                        let x = &mut state[i % LANES];
+                        let step = &DECODE[*x & MASK];
+                        *slot = step.0;
+                        let bits = u32::from(step.1);
+                        *x = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                        buf >>= bits;
+                        at += bits as usize;
+                    }
+                    done += DECODE_ROUND;
+                }
+                for (i, slot) in out.iter_mut().enumerate().skip(done) {
+                    let x = &mut state[i % LANES];
+                    let step = &DECODE[*x & MASK];
+                    *slot = step.0;
+                    let bits = u32::from(step.1);
+                    *x = usize::from(step.2) + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                    at += bits as usize;
+                }
+                if at.div_ceil(8) > payload.len() {
+                    return Err(Error::Truncated);
+                }
+                if state.iter().any(|&x| x != 0) {
+                    return Err(Error::Corrupt);
+                }
+                #end_check
+                Ok((count, header + at.div_ceil(8)))
+            }
+
+            /// Eight bytes of `window` from `at` on, little-endian. The rounds never read past
+            /// `N - 8`; the `min` only lets the compiler see it and drop the bounds check.
+            #[inline(always)]
+            fn window_word<const N: usize>(window: &[u8; N], at: usize) -> u64 {
+                let at = if at < N - 8 { at } else { N - 8 };
+                match window.get(at..).and_then(<[u8]>::first_chunk::<8>) {
+                    Some(w) => u64::from_le_bytes(*w),
+                    None => 0,
+                }
+            }
+
+            /// The stream bits from bit `at` on, least significant first (57 or more valid).
+            #[inline(always)]
+            fn peek(data: &[u8], at: usize) -> u64 {
+                word(data, at >> 3) >> (at & 7)
+            }
+        }
+    }
+}
+
+/// The 32-bit path: one loop for every symbol, a 32-bit buffer refilled or flushed only when
+/// it must be.
+fn narrow(parts: &Parts<'_>) -> TokenStream {
+    let FramingTokens {
+        header_len, start, ..
+    } = parts.framing;
+    let InputTokens {
+        row,
+        declare,
+        check,
+        refuse,
+        ..
+    } = parts.input;
+    let (finish, count_check, end_check) = (&parts.finish, &parts.count_check, &parts.end_check);
+    quote! {
+        /// The 32-bit path: a 32-bit bit buffer and one loop for every symbol.
+        #[cfg(not(target_pointer_width = "64"))]
+        mod narrow {
+            use super::*;
+
+            /// Most bits one step pushes: a symbol, or a lane's final state.
+            const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS { MAX_SYMBOL_BITS } else { TABLE_BITS };
+            /// The encoder's bit buffer holds a marker bit above its pending bits; at or
+            /// above this value fewer than `MOST` bits are free, and it is flushed.
+            const FULL: u32 = 1 << (32 - MOST);
+
+            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`) in
+            /// front of `pos`, and keeps the rest.
+            #[inline(always)]
+            fn flush(out: &mut [u8], pos: &mut usize, acc: &mut u32) -> Result<(), Error> {
+                let pending = 31 - acc.leading_zeros();
+                let whole = (pending >> 3) as usize;
+                // The pending bits at the top of a word: its last `whole` bytes are stored.
+                let bytes = acc.wrapping_shl(32 - pending).to_le_bytes();
+                let Some(start) = pos.checked_sub(whole) else {
+                    return Err(Error::OutputTooSmall);
+                };
+                match out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<4>) {
+                    // Four bytes always: those below `start` are overwritten later.
+                    Some(dst) => *dst = bytes,
+                    None => {
+                        let Some(dst) = out.get_mut(start..*pos) else {
+                            return Err(Error::OutputTooSmall);
+                        };
+                        for (d, s) in dst.iter_mut().zip(&bytes[4 - whole..]) {
+                            *d = *s;
+                        }
+                    }
+                }
+                *pos = start;
+                let rest = pending & 7;
+                *acc = (*acc & !(u32::MAX << rest)) | (1 << rest);
+                Ok(())
+            }
+
+            /// Encodes `input` into `out` as one stream; returns its length.
+            ///
+            /// The stream is written back to front at the end of `out`, then moved to the
+            /// front; `out` beyond the returned length is left unspecified.
+            #[allow(clippy::modulo_one)]
+            pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
+                let header = #header_len;
+                let mut pos = out.len();
+                let mut state = [TABLE_LEN as u32; LANES];
+                // The pending bits under a marker bit: `1` alone is none.
+                let mut acc: u32 = 1;
+                #declare
+                // Symbols go in backwards: the decoder reads the last one's bits first.
+                for (i, &symbol) in input.iter().enumerate().rev() {
+                    let put = &PUTS[#row];
+                    #check
+                    let x = state[i % LANES];
+                    let (bits, high, next) = put_symbol(x, put);
+                    // `(acc << bits) | (x & mask)`, as `x ^ (high << bits)` is the low bits.
+                    acc = ((acc ^ high) << bits) ^ x;
+                    state[i % LANES] = next;
+                    if acc >= FULL {
+                        flush(out, &mut pos, &mut acc)?;
+                    }
+                }
+                #refuse
+                // The final states, lane 0 in front, then zero padding to a whole byte.
+                for &x in state.iter().rev() {
+                    acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
+                    if acc >= FULL {
+                        flush(out, &mut pos, &mut acc)?;
+                    }
+                }
+                let pad = (8 - (31 - acc.leading_zeros()) % 8) % 8;
+                acc <<= pad;
+                flush(out, &mut pos, &mut acc)?;
+                let len = move_to_front(out, pos, header)?;
+                #finish
+                Ok(len)
+            }
+
+            /// Decodes the stream at the front of `stream` (more may follow it); returns the
+            /// number of symbols and the number of bytes the stream took.
+            #[allow(clippy::modulo_one)]
+            pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
+                #start
+                let payload = stream.get(header..).unwrap_or(&[]);
+                #count_check
+                if peek(payload, 0) & !(u32::MAX << pad) != 0 {
+                    return Err(Error::Corrupt);
+                }
+                let mut at = pad;
+                let mut state = [0usize; LANES];
+                for x in state.iter_mut() {
+                    *x = peek(payload, at) as usize & MASK;
+                    at += TABLE_BITS as usize;
+                }
+                // `buf` holds the stream from bit `at` on; its bits are good up to `good`.
+                let mut buf = peek(payload, at);
+                let mut good = (at & !7) + 32;
+                for (i, slot) in out.iter_mut().enumerate() {
+                    if at + MAX_SYMBOL_BITS as usize > good {
+                        buf = peek(payload, at);
+                        good = (at & !7) + 32;
+                    }
+                    let x = &mut state[i % LANES];
+                    let step = &DECODE[*x & MASK];
+                    *slot = step.0;
+                    let bits = u32::from(step.1);
+                    *x = usize::from(step.2) + (buf & !(u32::MAX << bits)) as usize;
+                    buf >>= bits;
+                    at += bits as usize;
+                }
+                if at.div_ceil(8) > payload.len() {
+                    return Err(Error::Truncated);
+                }
+                if state.iter().any(|&x| x != 0) {
+                    return Err(Error::Corrupt);
+                }
+                #end_check
+                Ok((count, header + at.div_ceil(8)))
+            }
+
+            /// The stream bits from bit `at` on, least significant first (25 or more valid).
+            #[inline(always)]
+            fn peek(data: &[u8], at: usize) -> u32 {
+                word(data, at >> 3) >> (at & 7)
+            }
+        }
     }
 }

@@ -159,8 +159,11 @@ impl Kind for Bytes {
         })
     }
 
+    /// Rows for the byte values up to the largest in the alphabet; larger values are
+    /// refused by the encoder's input map.
     fn input(&self) -> InputMap {
-        InputMap::Rows(self.index.to_vec())
+        let top = self.values.iter().copied().max().map_or(0, usize::from);
+        InputMap::Rows(self.index[..=top].to_vec())
     }
 
     fn symbol_items(&self) -> TokenStream {

@@ -100,18 +100,20 @@ impl Tans {
     }
 }
 
-/// Largest table whose decode entries carry their mask (8-byte entries, 16 KiB at most): one
-/// load instead of a shift on the decoder's critical path. Larger tables keep 4-byte entries
-/// so that the table stays in L1 cache and flash.
-pub const MASKED_TABLE_BITS: u32 = 11;
+/// Largest table whose next states fit a byte (states are `L .. 2L`).
+pub const NARROW_NEXT_TABLE_BITS: u32 = 7;
 
 /// Largest table whose [`Put::spend`] fits 16 bits (`spend < (table_bits + 1) << (table_bits + 1)`).
 pub const NARROW_SPEND_TABLE_BITS: u32 = 11;
 
 impl Tans {
-    /// Whether decode entries carry their mask.
-    pub fn stored_mask(&self) -> bool {
-        self.table_bits <= MASKED_TABLE_BITS
+    /// Bytes of a `next_state` entry.
+    pub fn next_bytes(&self) -> usize {
+        if self.table_bits <= NARROW_NEXT_TABLE_BITS {
+            1
+        } else {
+            2
+        }
     }
 
     /// Whether [`Put::spend`] is stored in 16 bits.
@@ -164,10 +166,7 @@ impl Tans {
     /// the rows of the encoding table, `absent` whether those rows carry an absent flag.
     pub fn layout(&self, symbol_bytes: usize, put_rows: usize, absent: bool) -> TableLayout {
         let l = self.table_len();
-        let mut step = vec![symbol_bytes, 1, 2];
-        if self.stored_mask() {
-            step.push(4);
-        }
+        let step = [symbol_bytes, 1, 2];
         let mut put = vec![if self.narrow_spend() { 2 } else { 4 }, 2];
         if absent {
             put.push(1);
@@ -176,7 +175,7 @@ impl Tans {
             tables: vec![
                 LayoutEntry::new("DECODE", "Step", l, &step),
                 LayoutEntry::new("PUTS", "Put", put_rows, &put),
-                LayoutEntry::new("NEXT_STATE", "u16", l, &[2]),
+                LayoutEntry::new("NEXT_STATE", "state", l, &[self.next_bytes()]),
             ],
         }
     }
