@@ -9,29 +9,28 @@ use quote::quote;
 
 /// The input pieces a method's encoder splices in.
 pub struct InputTokens {
-    /// The row of `symbol` in `PUTS`.
+    /// The row of `symbol` in the encoding tables.
     pub row: TokenStream,
     /// Before the loops.
     pub declare: TokenStream,
-    /// Per symbol, with `put` the symbol's record.
+    /// Per symbol, with `row` bound to the symbol's row.
     pub check: TokenStream,
     /// After the loops: refuses the input if any symbol was absent.
     pub refuse: TokenStream,
-    /// The `absent` field of `Put`, if any.
-    pub field: TokenStream,
     /// Variants of the generated `Error` and their `Display` arms.
     pub error_variant: TokenStream,
     pub error_display: TokenStream,
 }
 
-pub fn tokens(input: &InputMap) -> InputTokens {
+/// The input tokens; `absent(row)` is the method's expression for a row's absent flag, a
+/// `u32` that is not zero for a value outside the alphabet.
+pub fn tokens(input: &InputMap, absent: impl Fn(TokenStream) -> TokenStream) -> InputTokens {
     match input {
         InputMap::Index => InputTokens {
             row: quote!(symbol as usize),
             declare: quote!(),
             check: quote!(),
             refuse: quote!(),
-            field: quote!(),
             error_variant: quote!(),
             error_display: quote!(),
         },
@@ -43,22 +42,20 @@ pub fn tokens(input: &InputMap) -> InputTokens {
                 let last = proc_macro2::Literal::usize_unsuffixed(rows.len());
                 quote!(usize::from(symbol).min(#last))
             };
+            let here = absent(quote!(row));
+            let there = absent(row.clone());
             InputTokens {
-                row: row.clone(),
-                declare: quote!(let mut absent: u8 = 0;),
-                check: quote!(absent |= put.absent;),
+                row,
+                declare: quote!(let mut absent: u32 = 0;),
+                check: quote!(absent |= #here;),
                 refuse: quote! {
                     if absent != 0 {
                         let position = input
                             .iter()
-                            .position(|&symbol| PUTS[#row].absent != 0)
+                            .position(|&symbol| #there != 0)
                             .unwrap_or(0);
                         return Err(Error::UnknownSymbol { position });
                     }
-                },
-                field: quote! {
-                    /// 1 for a value outside the alphabet (its other fields are harmless).
-                    absent: u8,
                 },
                 error_variant: quote! {
                     /// `input[position]` is not in the alphabet.
@@ -86,47 +83,41 @@ pub fn row_count(input: &InputMap, symbols: usize) -> usize {
     }
 }
 
-/// Rows of the encoding table: `fields(s)` writes the fields of symbol `s` after `Put { `.
-/// Raw-value inputs get one row per value (absent values a harmless copy of symbol 0,
-/// flagged); enum inputs one row per symbol.
+/// The encoding rows of one table, `per_line` cells a line: `cell(line, row)` writes the
+/// cell of a row, where `row` is the symbol of an input value or `None` for a value outside
+/// the alphabet. Raw-value inputs get one row per value up to the largest in the alphabet
+/// and one more for every larger value; enum inputs one row per symbol.
 pub fn put_rows(
     kind: &dyn Kind,
     input: &InputMap,
-    fields: impl Fn(&mut String, usize),
+    per_line: usize,
+    cell: impl Fn(&mut String, Option<usize>),
 ) -> Vec<String> {
-    match input {
-        InputMap::Index => (0..kind.alphabet_len())
-            .map(|s| {
-                let mut row = String::from("Put { ");
-                fields(&mut row, s);
-                row.push_str(" }, // ");
-                row.push_str(&kind.label(s));
-                row
-            })
-            .collect(),
+    let rows: Vec<Option<usize>> = match input {
+        InputMap::Index => (0..kind.alphabet_len()).map(Some).collect(),
         InputMap::Rows(rows) => rows
             .iter()
-            .chain((rows.len() < 256).then_some(&None))
-            .enumerate()
-            .map(|(value, symbol)| {
-                let mut row = String::from("Put { ");
-                fields(&mut row, symbol.map_or(0, usize::from));
-                row.push_str(if symbol.is_some() {
-                    ", absent: 0 }, // "
-                } else {
-                    ", absent: 1 }, // "
-                });
-                push_number(&mut row, value as u64);
-                match symbol {
-                    Some(s) => {
-                        row.push_str(": ");
-                        row.push_str(&kind.row_literal(usize::from(*s)));
-                    }
-                    None if value == rows.len() => row.push_str(" and above: not in the alphabet"),
-                    None => row.push_str(": not in the alphabet"),
-                }
-                row
-            })
+            .map(|r| r.map(usize::from))
+            .chain((rows.len() < 256).then_some(None))
             .collect(),
-    }
+    };
+    rows.chunks(per_line)
+        .enumerate()
+        .map(|(line, chunk)| {
+            let mut text = String::new();
+            for &r in chunk {
+                cell(&mut text, r);
+            }
+            text.push_str("// ");
+            let first = line * per_line;
+            match input {
+                InputMap::Index => text.push_str(&kind.label(first)),
+                InputMap::Rows(_) => push_number(&mut text, first as u64),
+            }
+            if chunk.len() > 1 {
+                text.push_str(" ..");
+            }
+            text
+        })
+        .collect()
 }

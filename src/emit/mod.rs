@@ -87,7 +87,11 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     let module_doc = docs(&plan.report.doc_lines());
     let symbol_items = spec.kind.symbol_items();
     let framing = framing::tokens(spec.framing);
-    let input = input::tokens(&plan.input);
+    let input = match &set.tables {
+        // tANS marks an absent value by the top bit of its `run`, rANS by a flag.
+        Tables::Tans(_) => input::tokens(&plan.input, |row| quote!(u32::from(RUN[#row] >> 15))),
+        Tables::Rans(_) => input::tokens(&plan.input, |row| quote!(u32::from(PUTS[#row].absent))),
+    };
     let body = match &set.tables {
         Tables::Tans(t) => tans::body(plan, t, &framing, &input, rows),
         Tables::Rans(r) => rans::body(plan, r, &framing, &input, rows),

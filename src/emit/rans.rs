@@ -34,14 +34,22 @@ pub fn body(
         declare,
         check,
         refuse,
-        field,
         ..
     } = input;
+    let field = if matches!(plan.input, crate::kind::InputMap::Rows(_)) {
+        quote! {
+            /// 1 for a value outside the alphabet (its other fields are harmless).
+            absent: u8,
+        }
+    } else {
+        quote!()
+    };
     let finish = framing::write_header(plan.spec.framing, quote!(0));
     let word = super::tail_word();
-    let put_rows = rows.add(input::put_rows(kind, &plan.input, |line, s| {
-        let p = rans.put(s);
-        line.push_str("reciprocal: ");
+    let absent = matches!(plan.input, crate::kind::InputMap::Rows(_));
+    let put_rows = rows.add(input::put_rows(kind, &plan.input, 1, |line, row| {
+        let p = rans.put(row.unwrap_or(0));
+        line.push_str("Put { reciprocal: ");
         push_number(line, u64::from(p.reciprocal));
         line.push_str(", ceiling: ");
         push_number(line, u64::from(p.ceiling));
@@ -51,6 +59,14 @@ pub fn body(
         push_number(line, u64::from(p.gap));
         line.push_str(", shift: ");
         push_number(line, u64::from(p.shift));
+        if absent {
+            line.push_str(if row.is_some() {
+                ", absent: 0"
+            } else {
+                ", absent: 1"
+            });
+        }
+        line.push_str(" }, ");
     }));
     let all = kind.all_symbols();
     let count_check = match rans.min_cost_1024() {
@@ -182,7 +198,8 @@ pub fn body(
             // Symbols go in backwards, so the last, partial round comes first.
             let (rounds, rest) = input.as_chunks::<LANES>();
             for (lane, &symbol) in rest.iter().enumerate().rev() {
-                let put = &PUTS[#row];
+                let row = #row;
+                let put = &PUTS[row];
                 #check
                 let x = shed(state[lane % LANES], put, out, &mut pos)?;
                 state[lane % LANES] = put_symbol(x, put);
@@ -195,7 +212,8 @@ pub fn body(
                     let top = pos;
                     for lane in (0..LANES).rev() {
                         let symbol = round[lane];
-                        let put = &PUTS[#row];
+                        let row = #row;
+                let put = &PUTS[row];
                         #check
                         let x = state[lane];
                         let shed = u32::from(x > put.ceiling);
@@ -210,7 +228,8 @@ pub fn body(
                 } else {
                     for lane in (0..LANES).rev() {
                         let symbol = round[lane];
-                        let put = &PUTS[#row];
+                        let row = #row;
+                let put = &PUTS[row];
                         #check
                         let x = shed(state[lane], put, out, &mut pos)?;
                         state[lane] = put_symbol(x, put);

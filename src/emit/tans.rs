@@ -75,23 +75,24 @@ pub fn body(
     let r = Rounds::new(tans, plan.spec.lanes as usize);
     let max_bits = Literal::usize_unsuffixed(r.max_bits);
     let header_max = &framing.header_max;
-    let field = &input.field;
 
-    let decode_rows = rows.add(rows_of(&tans.decode, 8, |line, e| {
-        line.push_str("Step(");
+    let shift = tans.step_shift();
+    let symbol_rows = rows.add(rows_of(&tans.decode, 8, |line, e| {
         line.push_str(&kind.row_literal(usize::from(e.symbol)));
         line.push_str(", ");
-        push_number(line, u64::from(e.bits));
-        line.push_str(", ");
-        push_number(line, u64::from(e.base));
-        line.push_str("), ");
     }));
-    let put_rows = rows.add(input::put_rows(kind, &plan.input, |line, s| {
-        let p = tans.puts[s];
-        line.push_str("spend: ");
-        push_number(line, u64::from(p.spend));
-        line.push_str(", run: ");
-        push_number(line, u64::from(p.run));
+    let step_rows = rows.add(rows_of(&tans.decode, 16, |line, e| {
+        push_number(line, u64::from(e.base) | u64::from(e.bits) << shift);
+        line.push_str(", ");
+    }));
+    // An input value outside the alphabet has the top bit of its `run` set.
+    let spend_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
+        push_number(line, row.map_or(0, |s| u64::from(tans.puts[s].spend)));
+        line.push_str(", ");
+    }));
+    let run_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
+        push_number(line, row.map_or(0x8000, |s| u64::from(tans.puts[s].run)));
+        line.push_str(", ");
     }));
     let next_rows = rows.add(rows_of(&tans.next_state, 16, |line, &v| {
         push_number(line, u64::from(v));
@@ -107,6 +108,11 @@ pub fn body(
         quote!(u8)
     } else {
         quote!(u16)
+    };
+    let (step, step_shift) = if shift == 12 {
+        (quote!(u16), Literal::u32_unsuffixed(12))
+    } else {
+        (quote!(u32), Literal::u32_unsuffixed(16))
     };
     let parts = Parts {
         framing,
@@ -131,15 +137,26 @@ pub fn body(
             (#header_max).saturating_add(bits / 8)
         }
 
-        /// One encoder step from state `x`: the bit count, the bits above them (`x >> bits`,
-        /// the copy number whose state comes next) and the next state.
+        /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+        /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
+        /// and the next state.
         #[inline(always)]
         #[allow(clippy::useless_conversion)]
-        fn put_symbol(x: u32, put: &Put) -> (u32, u32, u32) {
-            let bits = x.wrapping_add(u32::from(put.spend)) >> (TABLE_BITS + 1);
+        fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+            let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
             let high = x >> bits;
-            let next = NEXT_STATE[(high as usize + usize::from(put.run)) & MASK];
+            let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
             (bits, high, u32::from(next))
+        }
+
+        /// The decode step at table position `i`: the bits to read, and the position they
+        /// are added to.
+        #[inline(always)]
+        #[allow(clippy::useless_conversion)]
+        fn step(i: usize) -> (u32, usize) {
+            let step = u32::from(STEPS[i]);
+            let bits = step >> STEP_SHIFT;
+            (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
         }
 
         #[cfg(target_pointer_width = "64")]
@@ -153,24 +170,25 @@ pub fn body(
 
         #word
 
-        /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-        /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-        struct Step(Symbol, u8, u16);
+        /// Where a decode step's bit count starts in its `STEPS` entry.
+        const STEP_SHIFT: u32 = #step_shift;
 
-        /// How to put a symbol into the state: from state `x` the encoder writes
-        /// `k = (x + spend) >> (TABLE_BITS + 1)` bits, then goes to state
-        /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`.
-        struct Put {
-            spend: #spend,
-            run: u16,
-            #field
-        }
+        /// The symbol at each table position (the spread of symbols over the table).
+        static SYMBOLS: [Symbol; TABLE_LEN] = #symbol_rows;
 
-        /// Decode steps by table position (the spread of symbols over the table).
-        static DECODE: [Step; TABLE_LEN] = #decode_rows;
+        /// The decode step at each table position: after emitting the position's symbol the
+        /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+        /// `(step & (2^STEP_SHIFT - 1)) + b`.
+        static STEPS: [#step; TABLE_LEN] = #step_rows;
 
-        /// Encoding records, indexed by input value.
-        static PUTS: [Put; #put_len] = #put_rows;
+        /// Encoding, by input value: from state `x` the encoder writes
+        /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
+        /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
+        /// value outside the alphabet.
+        static SPEND: [#spend; #put_len] = #spend_rows;
+
+        /// See [`SPEND`].
+        static RUN: [u16; #put_len] = #run_rows;
 
         /// For each symbol in alphabet order, the states of its copies in the table, left
         /// to right (a state is `TABLE_LEN` + position).
@@ -326,10 +344,10 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                 // Symbols go in backwards, so the last, partial round comes first.
                 let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
                 for (i, &symbol) in rest.iter().enumerate().rev() {
-                    let put = &PUTS[#row];
+                    let row = #row;
                     #check
                     let x = state[i % LANES];
-                    let (bits, high, next) = put_symbol(x, put);
+                    let (bits, high, next) = put_symbol(x, row);
                     acc = push(acc, x, high, bits);
                     state[i % LANES] = next;
                     pending += bits;
@@ -342,10 +360,10 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                         let top = pos;
                         for i in (0..ENCODE_ROUND).rev() {
                             let symbol = round[i];
-                            let put = &PUTS[#row];
+                            let row = #row;
                             #check
                             let x = state[i % LANES];
-                            let (bits, high, next) = put_symbol(x, put);
+                            let (bits, high, next) = put_symbol(x, row);
                             acc = push(acc, x, high, bits);
                             state[i % LANES] = next;
                             pending += bits;
@@ -361,10 +379,10 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                     } else {
                         for i in (0..ENCODE_ROUND).rev() {
                             let symbol = round[i];
-                            let put = &PUTS[#row];
+                            let row = #row;
                             #check
                             let x = state[i % LANES];
-                            let (bits, high, next) = put_symbol(x, put);
+                            let (bits, high, next) = put_symbol(x, row);
                             acc = push(acc, x, high, bits);
                             state[i % LANES] = next;
                             pending += bits;
@@ -418,10 +436,10 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                             buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                         }
                         let x = &mut state[i % LANES];
-                        let step = &DECODE[*x & MASK];
-                        *slot = step.0;
-                        let bits = u32::from(step.1);
-                        *x = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                        let at_x = *x & MASK;
+                        *slot = SYMBOLS[at_x];
+                        let (bits, base) = step(at_x);
+                        *x = base + (buf & !(u64::MAX << bits)) as usize;
                         buf >>= bits;
                         at += bits as usize;
                     }
@@ -429,10 +447,10 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                 }
                 for (i, slot) in out.iter_mut().enumerate().skip(done) {
                     let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                    let at_x = *x & MASK;
+                    *slot = SYMBOLS[at_x];
+                    let (bits, base) = step(at_x);
+                    *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                     at += bits as usize;
                 }
                 if at.div_ceil(8) > payload.len() {
@@ -488,36 +506,60 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             /// Most bits one step pushes: a symbol, or a lane's final state.
             const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS { MAX_SYMBOL_BITS } else { TABLE_BITS };
             /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-            /// above this value fewer than `MOST` bits are free, and it is flushed.
-            const FULL: u32 = 1 << (32 - MOST);
+            /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
 
-            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`) in
-            /// front of `pos`, and keeps the rest.
-            #[inline(always)]
-            fn flush(out: &mut [u8], pos: &mut usize, acc: &mut u32) -> Result<(), Error> {
-                let pending = 31 - acc.leading_zeros();
-                let whole = (pending >> 3) as usize;
-                // The pending bits at the top of a word: its last `whole` bytes are stored.
-                let bytes = acc.wrapping_shl(32 - pending).to_le_bytes();
-                let Some(start) = pos.checked_sub(whole) else {
-                    return Err(Error::OutputTooSmall);
-                };
-                match out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<4>) {
-                    // Four bytes always: those below `start` are overwritten later.
-                    Some(dst) => *dst = bytes,
-                    None => {
-                        let Some(dst) = out.get_mut(start..*pos) else {
-                            return Err(Error::OutputTooSmall);
-                        };
-                        for (d, s) in dst.iter_mut().zip(&bytes[4 - whole..]) {
-                            *d = *s;
+            /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
+            /// loop (its stores are rare), so that the loop's values stay in registers.
+            struct Writer<'a> {
+                out: &'a mut [u8],
+                pos: usize,
+            }
+
+            impl Writer<'_> {
+                /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
+                /// in front of `pos`; returns the rest under the marker, or `None` when `out`
+                /// is too small.
+                #[inline(never)]
+                fn flush(&mut self, acc: u32) -> Option<u32> {
+                    let pending = 31u32.wrapping_sub(acc.leading_zeros());
+                    let whole = (pending >> 3) as usize;
+                    // The pending bits at the top of a word: its last `whole` bytes are stored.
+                    let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
+                    let start = self.pos.checked_sub(whole)?;
+                    match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>) {
+                        // Four bytes always: those below `start` are overwritten later.
+                        Some(dst) => *dst = bytes,
+                        None => {
+                            let dst = self.out.get_mut(start..self.pos)?;
+                            let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                            for (d, s) in dst.iter_mut().zip(src) {
+                                *d = *s;
+                            }
                         }
                     }
+                    self.pos = start;
+                    // Keep the low `pending % 8` bits, with the marker just above them.
+                    let drop = 31 - (pending & 7);
+                    Some(((acc << drop) | 1 << 31) >> drop)
                 }
-                *pos = start;
-                let rest = pending & 7;
-                *acc = (*acc & !(u32::MAX << rest)) | (1 << rest);
-                Ok(())
+            }
+
+            /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
+            /// symbol loop (refills are rare), so that the loop's values stay in registers.
+            struct Reader<'a> {
+                data: &'a [u8],
+                byte: usize,
+            }
+
+            impl Reader<'_> {
+                /// Moves past the `used` bits of the buffer's first bytes and loads it again;
+                /// returns the buffer and how many of its low bits are already used (0 to 7).
+                #[inline(never)]
+                fn refill(&mut self, used: u32) -> (u32, u32) {
+                    self.byte += (used >> 3) as usize;
+                    let used = used & 7;
+                    (word(self.data, self.byte) >> used, used)
+                }
             }
 
             /// Encodes `input` into `out` as one stream; returns its length.
@@ -527,35 +569,54 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             #[allow(clippy::modulo_one)]
             pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
                 let header = #header_len;
-                let mut pos = out.len();
+                let mut writer = Writer { pos: out.len(), out };
                 let mut state = [TABLE_LEN as u32; LANES];
                 // The pending bits under a marker bit: `1` alone is none.
                 let mut acc: u32 = 1;
                 #declare
                 // Symbols go in backwards: the decoder reads the last one's bits first.
-                for (i, &symbol) in input.iter().enumerate().rev() {
-                    let put = &PUTS[#row];
+                // Symbol `i` belongs to lane `i % LANES`.
+                let mut lane = input.len().wrapping_sub(1) % LANES;
+                let mut full = false;
+                let mut one = |symbol: Symbol| {
+                    let row = #row;
                     #check
-                    let x = state[i % LANES];
-                    let (bits, high, next) = put_symbol(x, put);
+                    let x = state[lane];
+                    let (bits, high, next) = put_symbol(x, row);
                     // `(acc << bits) | (x & mask)`, as `x ^ (high << bits)` is the low bits.
                     acc = ((acc ^ high) << bits) ^ x;
-                    state[i % LANES] = next;
-                    if acc >= FULL {
-                        flush(out, &mut pos, &mut acc)?;
+                    state[lane] = next;
+                    lane = (lane + LANES - 1) % LANES;
+                    if acc >> (32 - MOST) != 0 {
+                        match writer.flush(acc) {
+                            Some(rest) => acc = rest,
+                            None => full = true,
+                        }
                     }
+                };
+                // Two symbols a turn of the loop: half the loop's own instructions.
+                let (rest, pairs) = input.as_rchunks::<2>();
+                for &[a, b] in pairs.iter().rev() {
+                    one(b);
+                    one(a);
+                }
+                for &symbol in rest.iter().rev() {
+                    one(symbol);
+                }
+                if full {
+                    return Err(Error::OutputTooSmall);
                 }
                 #refuse
                 // The final states, lane 0 in front, then zero padding to a whole byte.
                 for &x in state.iter().rev() {
                     acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
-                    if acc >= FULL {
-                        flush(out, &mut pos, &mut acc)?;
+                    if acc >> (32 - MOST) != 0 {
+                        acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                     }
                 }
-                let pad = (8 - (31 - acc.leading_zeros()) % 8) % 8;
-                acc <<= pad;
-                flush(out, &mut pos, &mut acc)?;
+                let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
+                writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
+                let Writer { out, pos } = writer;
                 let len = move_to_front(out, pos, header)?;
                 #finish
                 Ok(len)
@@ -577,22 +638,36 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     *x = peek(payload, at) as usize & MASK;
                     at += TABLE_BITS as usize;
                 }
-                // `buf` holds the stream from bit `at` on; its bits are good up to `good`.
-                let mut buf = peek(payload, at);
-                let mut good = (at & !7) + 32;
-                for (i, slot) in out.iter_mut().enumerate() {
-                    if at + MAX_SYMBOL_BITS as usize > good {
-                        buf = peek(payload, at);
-                        good = (at & !7) + 32;
+                // `buf` holds the stream from byte `reader.byte` on, of which the low `used`
+                // bits are used.
+                let mut reader = Reader {
+                    data: payload,
+                    byte: at >> 3,
+                };
+                let (mut buf, mut used) = reader.refill((at & 7) as u32);
+                let mut lane = 0;
+                let mut one = |slot: &mut Symbol| {
+                    if used > 32 - MAX_SYMBOL_BITS {
+                        (buf, used) = reader.refill(used);
                     }
-                    let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & !(u32::MAX << bits)) as usize;
+                    let i = state[lane] & MASK;
+                    *slot = SYMBOLS[i];
+                    let (bits, base) = step(i);
+                    state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
                     buf >>= bits;
-                    at += bits as usize;
+                    used += bits;
+                    lane = (lane + 1) % LANES;
+                };
+                // Two symbols a turn of the loop: half the loop's own instructions.
+                let (pairs, rest) = out.as_chunks_mut::<2>();
+                for [a, b] in pairs {
+                    one(a);
+                    one(b);
                 }
+                for slot in rest {
+                    one(slot);
+                }
+                let at = reader.byte * 8 + used as usize;
                 if at.div_ceil(8) > payload.len() {
                     return Err(Error::Truncated);
                 }

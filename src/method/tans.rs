@@ -162,19 +162,30 @@ impl Tans {
         Some(longest)
     }
 
-    /// The emitted tables: `symbol_bytes` is the size of the generated `Symbol`, `put_rows`
-    /// the rows of the encoding table, `absent` whether those rows carry an absent flag.
-    pub fn layout(&self, symbol_bytes: usize, put_rows: usize, absent: bool) -> TableLayout {
-        let l = self.table_len();
-        let step = [symbol_bytes, 1, 2];
-        let mut put = vec![if self.narrow_spend() { 2 } else { 4 }, 2];
-        if absent {
-            put.push(1);
+    /// How a decode step is packed in `STEPS`: the base in the low bits, the bit count from
+    /// this bit on. 16-bit entries up to 2^12 slots, 32-bit above.
+    pub fn step_shift(&self) -> u32 {
+        if self.table_bits <= 12 {
+            12
+        } else {
+            16
         }
+    }
+
+    /// The emitted tables: `symbol_bytes` is the size of the generated `Symbol`, `put_rows`
+    /// the rows of the encoding tables. Each table is an array of one field (decode: the
+    /// symbol, and the step packed in one integer; encode: `spend` and `run`), so that the
+    /// hot loops load each with one instruction and no entry carries padding.
+    pub fn layout(&self, symbol_bytes: usize, put_rows: usize, _absent: bool) -> TableLayout {
+        let l = self.table_len();
+        let step = if self.step_shift() == 12 { 2 } else { 4 };
+        let spend = if self.narrow_spend() { 2 } else { 4 };
         TableLayout {
             tables: vec![
-                LayoutEntry::new("DECODE", "Step", l, &step),
-                LayoutEntry::new("PUTS", "Put", put_rows, &put),
+                LayoutEntry::new("SYMBOLS", "Symbol", l, &[symbol_bytes]),
+                LayoutEntry::new("STEPS", "step", l, &[step]),
+                LayoutEntry::new("SPEND", "spend", put_rows, &[spend]),
+                LayoutEntry::new("RUN", "u16", put_rows, &[2]),
                 LayoutEntry::new("NEXT_STATE", "state", l, &[self.next_bytes()]),
             ],
         }

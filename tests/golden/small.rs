@@ -10,7 +10,7 @@
 /// | exact rate of these tables | 5.081282 |
 /// | measured on the training data | 5.088954 |
 ///
-/// Excess: 0.004714 bits/symbol (0.093 % above the entropy). Tables: 3816 bytes. Spread: tuned (copies placed for the true probabilities).
+/// Excess: 0.004714 bits/symbol (0.093 % above the entropy). Tables: 3056 bytes. Spread: tuned (copies placed for the true probabilities).
 /// Trained on 1023 symbols; 1 training sequence(s) round-tripped at generation time into 656 bytes.
 ///
 /// | symbol | count | slots | ideal bits | coded bits |
@@ -158,15 +158,25 @@ pub mod mit_text {
             .saturating_add(LANES * TABLE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step from state `x`: the bit count, the bits above them (`x >> bits`,
-    /// the copy number whose state comes next) and the next state.
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
+    /// and the next state.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn put_symbol(x: u32, put: &Put) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(put.spend)) >> (TABLE_BITS + 1);
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(put.run)) & MASK];
+        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
         (bits, high, u32::from(next))
+    }
+    /// The decode step at table position `i`: the bits to read, and the position they
+    /// are added to.
+    #[inline(always)]
+    #[allow(clippy::useless_conversion)]
+    fn step(i: usize) -> (u32, usize) {
+        let step = u32::from(STEPS[i]);
+        let bits = step >> STEP_SHIFT;
+        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
@@ -238,13 +248,13 @@ pub mod mit_text {
             let mut state = [TABLE_LEN as u32; LANES];
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
-            let mut absent: u8 = 0;
+            let mut absent: u32 = 0;
             let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
-                let put = &PUTS[usize::from(symbol).min(123)];
-                absent |= put.absent;
+                let row = usize::from(symbol).min(123);
+                absent |= u32::from(RUN[row] >> 15);
                 let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+                let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
                 state[i % LANES] = next;
                 pending += bits;
@@ -258,10 +268,10 @@ pub mod mit_text {
                     let top = pos;
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[usize::from(symbol).min(123)];
-                        absent |= put.absent;
+                        let row = usize::from(symbol).min(123);
+                        absent |= u32::from(RUN[row] >> 15);
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -281,10 +291,10 @@ pub mod mit_text {
                 } else {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[usize::from(symbol).min(123)];
-                        absent |= put.absent;
+                        let row = usize::from(symbol).min(123);
+                        absent |= u32::from(RUN[row] >> 15);
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -295,7 +305,9 @@ pub mod mit_text {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| PUTS[usize::from(symbol).min(123)].absent != 0)
+                    .position(|&symbol| {
+                        u32::from(RUN[usize::from(symbol).min(123)] >> 15) != 0
+                    })
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
@@ -357,10 +369,10 @@ pub mod mit_text {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                    let at_x = *x & MASK;
+                    *slot = SYMBOLS[at_x];
+                    let (bits, base) = step(at_x);
+                    *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
                 }
@@ -368,11 +380,10 @@ pub mod mit_text {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2)
-                    + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                let at_x = *x & MASK;
+                *slot = SYMBOLS[at_x];
+                let (bits, base) = step(at_x);
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
             if at.div_ceil(8) > payload.len() {
@@ -413,33 +424,54 @@ pub mod mit_text {
             TABLE_BITS
         };
         /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above this value fewer than `MOST` bits are free, and it is flushed.
-        const FULL: u32 = 1 << (32 - MOST);
-        /// Stores the whole bytes of the pending bits (below the marker bit of `acc`) in
-        /// front of `pos`, and keeps the rest.
-        #[inline(always)]
-        fn flush(out: &mut [u8], pos: &mut usize, acc: &mut u32) -> Result<(), Error> {
-            let pending = 31 - acc.leading_zeros();
-            let whole = (pending >> 3) as usize;
-            let bytes = acc.wrapping_shl(32 - pending).to_le_bytes();
-            let Some(start) = pos.checked_sub(whole) else {
-                return Err(Error::OutputTooSmall);
-            };
-            match out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<4>) {
-                Some(dst) => *dst = bytes,
-                None => {
-                    let Some(dst) = out.get_mut(start..*pos) else {
-                        return Err(Error::OutputTooSmall);
-                    };
-                    for (d, s) in dst.iter_mut().zip(&bytes[4 - whole..]) {
-                        *d = *s;
+        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
+        /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
+        /// loop (its stores are rare), so that the loop's values stay in registers.
+        struct Writer<'a> {
+            out: &'a mut [u8],
+            pos: usize,
+        }
+        impl Writer<'_> {
+            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
+            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
+            /// is too small.
+            #[inline(never)]
+            fn flush(&mut self, acc: u32) -> Option<u32> {
+                let pending = 31u32.wrapping_sub(acc.leading_zeros());
+                let whole = (pending >> 3) as usize;
+                let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
+                let start = self.pos.checked_sub(whole)?;
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
+                {
+                    Some(dst) => *dst = bytes,
+                    None => {
+                        let dst = self.out.get_mut(start..self.pos)?;
+                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                        for (d, s) in dst.iter_mut().zip(src) {
+                            *d = *s;
+                        }
                     }
                 }
+                self.pos = start;
+                let drop = 31 - (pending & 7);
+                Some(((acc << drop) | 1 << 31) >> drop)
             }
-            *pos = start;
-            let rest = pending & 7;
-            *acc = (*acc & !(u32::MAX << rest)) | (1 << rest);
-            Ok(())
+        }
+        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
+        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        struct Reader<'a> {
+            data: &'a [u8],
+            byte: usize,
+        }
+        impl Reader<'_> {
+            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
+            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            #[inline(never)]
+            fn refill(&mut self, used: u32) -> (u32, u32) {
+                self.byte += (used >> 3) as usize;
+                let used = used & 7;
+                (word(self.data, self.byte) >> used, used)
+            }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
         ///
@@ -448,37 +480,56 @@ pub mod mit_text {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut pos = out.len();
+            let mut writer = Writer { pos: out.len(), out };
             let mut state = [TABLE_LEN as u32; LANES];
             let mut acc: u32 = 1;
-            let mut absent: u8 = 0;
-            for (i, &symbol) in input.iter().enumerate().rev() {
-                let put = &PUTS[usize::from(symbol).min(123)];
-                absent |= put.absent;
-                let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+            let mut absent: u32 = 0;
+            let mut lane = input.len().wrapping_sub(1) % LANES;
+            let mut full = false;
+            let mut one = |symbol: Symbol| {
+                let row = usize::from(symbol).min(123);
+                absent |= u32::from(RUN[row] >> 15);
+                let x = state[lane];
+                let (bits, high, next) = put_symbol(x, row);
                 acc = ((acc ^ high) << bits) ^ x;
-                state[i % LANES] = next;
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                state[lane] = next;
+                lane = (lane + LANES - 1) % LANES;
+                if acc >> (32 - MOST) != 0 {
+                    match writer.flush(acc) {
+                        Some(rest) => acc = rest,
+                        None => full = true,
+                    }
                 }
+            };
+            let (rest, pairs) = input.as_rchunks::<2>();
+            for &[a, b] in pairs.iter().rev() {
+                one(b);
+                one(a);
+            }
+            for &symbol in rest.iter().rev() {
+                one(symbol);
+            }
+            if full {
+                return Err(Error::OutputTooSmall);
             }
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| PUTS[usize::from(symbol).min(123)].absent != 0)
+                    .position(|&symbol| {
+                        u32::from(RUN[usize::from(symbol).min(123)] >> 15) != 0
+                    })
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                if acc >> (32 - MOST) != 0 {
+                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
-            let pad = (8 - (31 - acc.leading_zeros()) % 8) % 8;
-            acc <<= pad;
-            flush(out, &mut pos, &mut acc)?;
+            let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
+            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
+            let Writer { out, pos } = writer;
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -512,21 +563,33 @@ pub mod mit_text {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut buf = peek(payload, at);
-            let mut good = (at & !7) + 32;
-            for (i, slot) in out.iter_mut().enumerate() {
-                if at + MAX_SYMBOL_BITS as usize > good {
-                    buf = peek(payload, at);
-                    good = (at & !7) + 32;
+            let mut reader = Reader {
+                data: payload,
+                byte: at >> 3,
+            };
+            let (mut buf, mut used) = reader.refill((at & 7) as u32);
+            let mut lane = 0;
+            let mut one = |slot: &mut Symbol| {
+                if used > 32 - MAX_SYMBOL_BITS {
+                    (buf, used) = reader.refill(used);
                 }
-                let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2) + (buf & !(u32::MAX << bits)) as usize;
+                let i = state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
                 buf >>= bits;
-                at += bits as usize;
+                used += bits;
+                lane = (lane + 1) % LANES;
+            };
+            let (pairs, rest) = out.as_chunks_mut::<2>();
+            for [a, b] in pairs {
+                one(a);
+                one(b);
             }
+            for slot in rest {
+                one(slot);
+            }
+            let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -591,211 +654,136 @@ pub mod mit_text {
         }
         Ok(to + len)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
-    /// How to put a symbol into the state: from state `x` the encoder writes
-    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits, then goes to state
-    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`.
-    struct Put {
-        spend: u16,
-        run: u16,
-        /// 1 for a value outside the alphabet (its other fields are harmless).
-        absent: u8,
-    }
-    /// Decode steps by table position (the spread of symbols over the table).
-    static DECODE: [Step; TABLE_LEN] = [
-        Step(b'p', 7, 128), Step(b'f', 7, 384), Step(b'\n', 6, 192), Step(b'S', 6, 256), Step(b'a', 6, 256), Step(b'r', 6, 256), Step(b's', 5, 0), Step(b'E', 5, 32), // 0
-        Step(b'I', 5, 32), Step(b'T', 5, 96), Step(b'i', 5, 160), Step(b't', 5, 224), Step(b'o', 5, 256), Step(b' ', 3, 48), Step(b' ', 3, 56), Step(b'e', 5, 224), // 8
-        Step(b'O', 5, 64), Step(b' ', 3, 64), Step(b'R', 5, 32), Step(b'N', 6, 448), Step(b'n', 6, 448), Step(b'A', 6, 384), Step(b'o', 5, 288), Step(b't', 5, 256), // 16
-        Step(b' ', 3, 72), Step(b',', 6, 192), Step(b'i', 5, 192), Step(b'h', 6, 128), Step(b'T', 5, 128), Step(b'H', 6, 64), Step(b' ', 3, 80), Step(b'E', 5, 64), // 24
-        Step(b'I', 5, 64), Step(b's', 5, 32), Step(b'c', 6, 0), Step(b'd', 6, 0), Step(b'l', 6, 0), Step(b'e', 5, 256), Step(b'L', 7, 384), Step(b' ', 3, 88), // 32
-        Step(b'S', 6, 320), Step(b'a', 6, 320), Step(b'r', 6, 320), Step(b'F', 7, 256), Step(b'u', 7, 256), Step(b'o', 5, 320), Step(b'O', 5, 96), Step(b't', 5, 288), // 40
-        Step(b' ', 3, 96), Step(b'\n', 6, 256), Step(b'R', 5, 64), Step(b'i', 5, 224), Step(b'C', 7, 128), Step(b'D', 7, 128), Step(b'w', 7, 128), Step(b' ', 3, 104), // 48
-        Step(b'N', 5, 0), Step(b'n', 5, 0), Step(b'T', 5, 160), Step(b'A', 6, 448), Step(b'e', 5, 288), Step(b' ', 3, 112), Step(b'E', 5, 96), Step(b'I', 5, 96), // 56
-        Step(b'P', 7, 0), Step(b'U', 7, 0), Step(b'g', 7, 0), Step(b'm', 7, 0), Step(b's', 5, 64), Step(b'o', 5, 352), Step(b't', 5, 320), Step(b' ', 3, 120), // 64
-        Step(b'f', 6, 0), Step(b',', 6, 256), Step(b'O', 5, 128), Step(b'i', 5, 256), Step(b' ', 3, 128), Step(b'R', 5, 96), Step(b'h', 6, 192), Step(b'e', 5, 320), // 72
-        Step(b'T', 5, 192), Step(b' ', 3, 136), Step(b'G', 8, 256), Step(b'Y', 8, 256), Step(b'y', 8, 256), Step(b'S', 6, 384), Step(b'a', 6, 384), Step(b'r', 6, 384), // 80
-        Step(b'o', 5, 384), Step(b'H', 6, 128), Step(b'N', 5, 32), Step(b'n', 5, 32), Step(b't', 5, 352), Step(b' ', 3, 144), Step(b'E', 5, 128), Step(b'I', 5, 128), // 88
-        Step(b'\n', 6, 320), Step(b'A', 5, 0), Step(b'p', 7, 256), Step(b's', 5, 96), Step(b' ', 3, 152), Step(b'i', 5, 288), Step(b'c', 6, 64), Step(b'd', 6, 64), // 96
-        Step(b'l', 6, 64), Step(b'O', 5, 160), Step(b'e', 5, 352), Step(b' ', 3, 160), Step(b'o', 5, 416), Step(b'T', 5, 224), Step(b'R', 5, 128), Step(b't', 5, 384), // 104
-        Step(b' ', 3, 168), Step(b'L', 6, 0), Step(b'W', 7, 128), Step(b'b', 7, 128), Step(b',', 6, 320), Step(b' ', 3, 176), Step(b'E', 5, 160), Step(b'I', 5, 160), // 112
-        Step(b'i', 5, 320), Step(b'N', 5, 64), Step(b'n', 5, 64), Step(b'"', 8, 0), Step(b'e', 5, 384), Step(b'S', 6, 448), Step(b'a', 6, 448), Step(b'r', 6, 448), // 120
-        Step(b' ', 3, 184), Step(b's', 5, 128), Step(b'o', 5, 448), Step(b'F', 7, 384), Step(b'u', 7, 384), Step(b'h', 6, 256), Step(b'A', 5, 32), Step(b'O', 5, 192), // 128
-        Step(b't', 5, 416), Step(b' ', 3, 192), Step(b'T', 5, 256), Step(b'\n', 6, 384), Step(b'R', 5, 160), Step(b'f', 6, 64), Step(b' ', 3, 200), Step(b'H', 6, 192), // 136
-        Step(b'i', 5, 352), Step(b'M', 7, 0), Step(b'e', 5, 416), Step(b' ', 3, 208), Step(b'E', 5, 192), Step(b'I', 5, 192), Step(b'o', 5, 480), Step(b'C', 7, 256), // 144
-        Step(b'D', 7, 256), Step(b'w', 7, 256), Step(b't', 5, 448), Step(b' ', 3, 216), Step(b'N', 5, 96), Step(b'n', 5, 96), Step(b's', 5, 160), Step(b'O', 5, 224), // 152
-        Step(b'T', 5, 288), Step(b'c', 6, 128), Step(b'd', 6, 128), Step(b'l', 6, 128), Step(b' ', 3, 224), Step(b',', 6, 384), Step(b'S', 5, 0), Step(b'a', 5, 0), // 160
-        Step(b'r', 5, 0), Step(b'A', 5, 64), Step(b'R', 5, 192), Step(b'i', 5, 384), Step(b'e', 5, 448), Step(b' ', 3, 232), Step(b'o', 4, 0), Step(b't', 5, 480), // 168
-        Step(b' ', 3, 240), Step(b'E', 5, 224), Step(b'I', 5, 224), Step(b'\n', 6, 448), Step(b'h', 6, 320), Step(b' ', 3, 248), Step(b'L', 6, 64), Step(b'T', 5, 320), // 176
-        Step(b'O', 5, 256), Step(b'p', 7, 384), Step(b's', 5, 192), Step(b'N', 5, 128), Step(b'n', 5, 128), Step(b'o', 4, 16), Step(b' ', 3, 256), Step(b'e', 5, 480), // 184
-        Step(b'P', 7, 128), Step(b'U', 7, 128), Step(b'g', 7, 128), Step(b'm', 7, 128), Step(b'i', 5, 416), Step(b'R', 5, 224), Step(b't', 4, 0), Step(b' ', 3, 264), // 192
-        Step(b'H', 6, 256), Step(b'B', 8, 256), Step(b'A', 5, 96), Step(b' ', 3, 272), Step(b'f', 6, 128), Step(b'S', 5, 32), Step(b'a', 5, 32), Step(b'r', 5, 32), // 200
-        Step(b'E', 5, 256), Step(b'I', 5, 256), Step(b'o', 4, 32), Step(b',', 6, 448), Step(b'T', 5, 352), Step(b' ', 3, 280), Step(b'e', 4, 0), Step(b'F', 6, 0), // 208
-        Step(b'u', 6, 0), Step(b'O', 5, 288), Step(b'i', 5, 448), Step(b's', 5, 224), Step(b't', 4, 16), Step(b' ', 3, 288), Step(b'N', 5, 160), Step(b'n', 5, 160), // 216
-        Step(b'\n', 5, 0), Step(b'c', 6, 192), Step(b'd', 6, 192), Step(b'l', 6, 192), Step(b' ', 3, 296), Step(b'R', 5, 256), Step(b'W', 7, 256), Step(b'b', 7, 256), // 224
-        Step(b'V', 9, 0), Step(b'z', 9, 0), Step(b'o', 4, 48), Step(b'h', 6, 384), Step(b' ', 3, 304), Step(b'e', 4, 16), Step(b'E', 5, 288), Step(b'I', 5, 288), // 232
-        Step(b'T', 5, 384), Step(b'A', 5, 128), Step(b'i', 5, 480), Step(b't', 4, 32), Step(b' ', 3, 312), Step(b'O', 5, 320), Step(b'S', 5, 64), Step(b'a', 5, 64), // 240
-        Step(b'r', 5, 64), Step(b' ', 3, 320), Step(b's', 5, 256), Step(b'o', 4, 64), Step(b'G', 7, 0), Step(b'Y', 7, 0), Step(b'y', 7, 0), Step(b' ', 3, 328), // 248
-        Step(b'C', 7, 384), Step(b'D', 7, 384), Step(b'w', 7, 384), Step(b'L', 6, 128), Step(b'H', 6, 320), Step(b',', 5, 0), Step(b'N', 5, 192), Step(b'n', 5, 192), // 256
-        Step(b'R', 5, 288), Step(b'e', 4, 32), Step(b't', 4, 48), Step(b' ', 3, 336), Step(b'i', 4, 0), Step(b'T', 5, 416), Step(b'E', 5, 320), Step(b'I', 5, 320), // 264
-        Step(b'\n', 5, 32), Step(b' ', 3, 344), Step(b'O', 5, 352), Step(b'o', 4, 80), Step(b'f', 6, 192), Step(b'A', 5, 160), Step(b' ', 3, 352), Step(b'e', 4, 48), // 272
-        Step(b'p', 6, 0), Step(b's', 5, 288), Step(b'h', 6, 448), Step(b't', 4, 64), Step(b' ', 3, 360), Step(b'i', 4, 16), Step(b'R', 5, 320), Step(b'S', 5, 96), // 280
-        Step(b'a', 5, 96), Step(b'r', 5, 96), Step(b'c', 6, 256), Step(b'd', 6, 256), Step(b'l', 6, 256), Step(b'T', 5, 448), Step(b'N', 5, 224), Step(b'n', 5, 224), // 288
-        Step(b'M', 7, 128), Step(b' ', 3, 368), Step(b'E', 5, 352), Step(b'I', 5, 352), Step(b'o', 4, 96), Step(b' ', 3, 376), Step(b'F', 6, 64), Step(b'u', 6, 64), // 296
-        Step(b'O', 5, 384), Step(b'e', 4, 64), Step(b',', 5, 32), Step(b't', 4, 80), Step(b' ', 3, 384), Step(b'i', 4, 32), Step(b's', 5, 320), Step(b'A', 5, 192), // 304
-        Step(b'\n', 5, 64), Step(b' ', 3, 392), Step(b'H', 6, 384), Step(b'o', 4, 112), Step(b'T', 5, 480), Step(b'R', 5, 352), Step(b'P', 7, 256), Step(b'U', 7, 256), // 312
-        Step(b'g', 7, 256), Step(b'm', 7, 256), Step(b' ', 3, 400), Step(b'E', 5, 384), Step(b'I', 5, 384), Step(b'e', 4, 80), Step(b'N', 5, 256), Step(b'n', 5, 256), // 320
-        Step(b't', 4, 96), Step(b' ', 3, 408), Step(b'O', 5, 416), Step(b'S', 5, 128), Step(b'a', 5, 128), Step(b'r', 5, 128), Step(b'L', 6, 192), Step(b'.', 8, 0), // 328
-        Step(b'h', 5, 0), Step(b'i', 4, 48), Step(b' ', 3, 416), Step(b'o', 4, 128), Step(b'W', 7, 384), Step(b'b', 7, 384), Step(b'f', 6, 256), Step(b's', 5, 352), // 336
-        Step(b'T', 4, 0), Step(b' ', 3, 424), Step(b'e', 4, 96), Step(b'R', 5, 384), Step(b'A', 5, 224), Step(b't', 4, 112), Step(b' ', 3, 432), Step(b',', 5, 64), // 344
-        Step(b'E', 5, 416), Step(b'I', 5, 416), Step(b'c', 6, 320), Step(b'd', 6, 320), Step(b'l', 6, 320), Step(b'o', 4, 144), Step(b'O', 5, 448), Step(b' ', 3, 440), // 352
-        Step(b'\n', 5, 96), Step(b'i', 4, 64), Step(b'C', 6, 0), Step(b'D', 6, 0), Step(b'w', 6, 0), Step(b'N', 5, 288), Step(b'n', 5, 288), Step(b' ', 3, 448), // 360
-        Step(b'e', 4, 112), Step(b'T', 4, 16), Step(b'S', 5, 160), Step(b'a', 5, 160), Step(b'r', 5, 160), Step(b'H', 6, 448), Step(b't', 4, 128), Step(b' ', 3, 456), // 368
-        Step(b'p', 6, 64), Step(b's', 5, 384), Step(b'o', 4, 160), Step(b'R', 5, 416), Step(b' ', 3, 464), Step(b'"', 8, 256), Step(b'E', 5, 448), Step(b'I', 5, 448), // 376
-        Step(b'i', 4, 80), Step(b'F', 6, 128), Step(b'u', 6, 128), Step(b'h', 5, 32), Step(b'A', 5, 256), Step(b'O', 5, 480), Step(b' ', 3, 472), Step(b'e', 4, 128), // 384
-        Step(b't', 4, 144), Step(b' ', 3, 480), Step(b'N', 5, 320), Step(b'n', 5, 320), Step(b'T', 4, 32), Step(b',', 5, 96), Step(b'o', 4, 176), Step(b' ', 3, 488), // 392
-        Step(b'\n', 5, 128), Step(b'L', 6, 256), Step(b's', 5, 416), Step(b'i', 4, 96), Step(b'B', 7, 0), Step(b'R', 5, 448), Step(b' ', 3, 496), Step(b'f', 6, 320), // 400
-        Step(b'S', 5, 192), Step(b'a', 5, 192), Step(b'r', 5, 192), Step(b'E', 5, 480), Step(b'I', 5, 480), Step(b'e', 4, 144), Step(b'O', 4, 0), Step(b't', 4, 160), // 408
-        Step(b' ', 3, 504), Step(b'c', 6, 384), Step(b'd', 6, 384), Step(b'l', 6, 384), Step(b'o', 4, 192), Step(b'T', 4, 48), Step(b'A', 5, 288), Step(b' ', 2, 0), // 416
-        Step(b'G', 7, 128), Step(b'Y', 7, 128), Step(b'y', 7, 128), Step(b'H', 5, 0), Step(b'N', 5, 352), Step(b'n', 5, 352), Step(b' ', 2, 4), Step(b'i', 4, 112), // 424
-        Step(b'e', 4, 160), Step(b's', 5, 448), Step(b'h', 5, 64), Step(b't', 4, 176), Step(b' ', 2, 8), Step(b'R', 5, 480), Step(b'M', 7, 256), Step(b'E', 4, 0), // 432
-        Step(b'I', 4, 0), Step(b'o', 4, 208), Step(b'O', 4, 16), Step(b',', 5, 128), Step(b' ', 2, 12), Step(b'\n', 5, 160), Step(b'T', 4, 64), Step(b'P', 7, 384), // 440
-        Step(b'U', 7, 384), Step(b'g', 7, 384), Step(b'm', 7, 384), Step(b' ', 2, 16), Step(b'S', 5, 224), Step(b'a', 5, 224), Step(b'r', 5, 224), Step(b'i', 4, 128), // 448
-        Step(b'W', 6, 0), Step(b'b', 6, 0), Step(b'e', 4, 176), Step(b'A', 5, 320), Step(b't', 4, 192), Step(b' ', 2, 20), Step(b'o', 4, 224), Step(b'C', 6, 64), // 456
-        Step(b'D', 6, 64), Step(b'w', 6, 64), Step(b'N', 5, 384), Step(b'n', 5, 384), Step(b' ', 2, 24), Step(b's', 5, 480), Step(b'R', 4, 0), Step(b'E', 4, 16), // 464
-        Step(b'I', 4, 16), Step(b'F', 6, 192), Step(b'u', 6, 192), Step(b'O', 4, 32), Step(b' ', 2, 28), Step(b'T', 4, 80), Step(b'L', 6, 320), Step(b'i', 4, 144), // 472
-        Step(b'e', 4, 192), Step(b't', 4, 208), Step(b' ', 2, 32), Step(b'c', 6, 448), Step(b'd', 6, 448), Step(b'l', 6, 448), Step(b'o', 4, 240), Step(b'H', 5, 32), // 480
-        Step(b'h', 5, 96), Step(b' ', 2, 36), Step(b',', 5, 160), Step(b'A', 5, 352), Step(b' ', 2, 40), Step(b'N', 5, 416), Step(b'n', 5, 416), Step(b'R', 4, 16), // 488
-        Step(b'O', 4, 48), Step(b'e', 4, 208), Step(b' ', 2, 44), Step(b'W', 6, 64), Step(b'b', 6, 64), Step(b'M', 7, 384), Step(b'B', 7, 128), Step(b'.', 8, 256), // 496
-        Step(b'(', 9, 0), Step(b')', 9, 0), Step(b'/', 9, 0), Step(b':', 9, 0), Step(b'K', 9, 0), Step(b'X', 9, 0), Step(b'j', 9, 0), Step(b'v', 9, 0), // 504
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        b'p', b'f', b'\n', b'S', b'a', b'r', b's', b'E', // 0
+        b'I', b'T', b'i', b't', b'o', b' ', b' ', b'e', // 8
+        b'O', b' ', b'R', b'N', b'n', b'A', b'o', b't', // 16
+        b' ', b',', b'i', b'h', b'T', b'H', b' ', b'E', // 24
+        b'I', b's', b'c', b'd', b'l', b'e', b'L', b' ', // 32
+        b'S', b'a', b'r', b'F', b'u', b'o', b'O', b't', // 40
+        b' ', b'\n', b'R', b'i', b'C', b'D', b'w', b' ', // 48
+        b'N', b'n', b'T', b'A', b'e', b' ', b'E', b'I', // 56
+        b'P', b'U', b'g', b'm', b's', b'o', b't', b' ', // 64
+        b'f', b',', b'O', b'i', b' ', b'R', b'h', b'e', // 72
+        b'T', b' ', b'G', b'Y', b'y', b'S', b'a', b'r', // 80
+        b'o', b'H', b'N', b'n', b't', b' ', b'E', b'I', // 88
+        b'\n', b'A', b'p', b's', b' ', b'i', b'c', b'd', // 96
+        b'l', b'O', b'e', b' ', b'o', b'T', b'R', b't', // 104
+        b' ', b'L', b'W', b'b', b',', b' ', b'E', b'I', // 112
+        b'i', b'N', b'n', b'"', b'e', b'S', b'a', b'r', // 120
+        b' ', b's', b'o', b'F', b'u', b'h', b'A', b'O', // 128
+        b't', b' ', b'T', b'\n', b'R', b'f', b' ', b'H', // 136
+        b'i', b'M', b'e', b' ', b'E', b'I', b'o', b'C', // 144
+        b'D', b'w', b't', b' ', b'N', b'n', b's', b'O', // 152
+        b'T', b'c', b'd', b'l', b' ', b',', b'S', b'a', // 160
+        b'r', b'A', b'R', b'i', b'e', b' ', b'o', b't', // 168
+        b' ', b'E', b'I', b'\n', b'h', b' ', b'L', b'T', // 176
+        b'O', b'p', b's', b'N', b'n', b'o', b' ', b'e', // 184
+        b'P', b'U', b'g', b'm', b'i', b'R', b't', b' ', // 192
+        b'H', b'B', b'A', b' ', b'f', b'S', b'a', b'r', // 200
+        b'E', b'I', b'o', b',', b'T', b' ', b'e', b'F', // 208
+        b'u', b'O', b'i', b's', b't', b' ', b'N', b'n', // 216
+        b'\n', b'c', b'd', b'l', b' ', b'R', b'W', b'b', // 224
+        b'V', b'z', b'o', b'h', b' ', b'e', b'E', b'I', // 232
+        b'T', b'A', b'i', b't', b' ', b'O', b'S', b'a', // 240
+        b'r', b' ', b's', b'o', b'G', b'Y', b'y', b' ', // 248
+        b'C', b'D', b'w', b'L', b'H', b',', b'N', b'n', // 256
+        b'R', b'e', b't', b' ', b'i', b'T', b'E', b'I', // 264
+        b'\n', b' ', b'O', b'o', b'f', b'A', b' ', b'e', // 272
+        b'p', b's', b'h', b't', b' ', b'i', b'R', b'S', // 280
+        b'a', b'r', b'c', b'd', b'l', b'T', b'N', b'n', // 288
+        b'M', b' ', b'E', b'I', b'o', b' ', b'F', b'u', // 296
+        b'O', b'e', b',', b't', b' ', b'i', b's', b'A', // 304
+        b'\n', b' ', b'H', b'o', b'T', b'R', b'P', b'U', // 312
+        b'g', b'm', b' ', b'E', b'I', b'e', b'N', b'n', // 320
+        b't', b' ', b'O', b'S', b'a', b'r', b'L', b'.', // 328
+        b'h', b'i', b' ', b'o', b'W', b'b', b'f', b's', // 336
+        b'T', b' ', b'e', b'R', b'A', b't', b' ', b',', // 344
+        b'E', b'I', b'c', b'd', b'l', b'o', b'O', b' ', // 352
+        b'\n', b'i', b'C', b'D', b'w', b'N', b'n', b' ', // 360
+        b'e', b'T', b'S', b'a', b'r', b'H', b't', b' ', // 368
+        b'p', b's', b'o', b'R', b' ', b'"', b'E', b'I', // 376
+        b'i', b'F', b'u', b'h', b'A', b'O', b' ', b'e', // 384
+        b't', b' ', b'N', b'n', b'T', b',', b'o', b' ', // 392
+        b'\n', b'L', b's', b'i', b'B', b'R', b' ', b'f', // 400
+        b'S', b'a', b'r', b'E', b'I', b'e', b'O', b't', // 408
+        b' ', b'c', b'd', b'l', b'o', b'T', b'A', b' ', // 416
+        b'G', b'Y', b'y', b'H', b'N', b'n', b' ', b'i', // 424
+        b'e', b's', b'h', b't', b' ', b'R', b'M', b'E', // 432
+        b'I', b'o', b'O', b',', b' ', b'\n', b'T', b'P', // 440
+        b'U', b'g', b'm', b' ', b'S', b'a', b'r', b'i', // 448
+        b'W', b'b', b'e', b'A', b't', b' ', b'o', b'C', // 456
+        b'D', b'w', b'N', b'n', b' ', b's', b'R', b'E', // 464
+        b'I', b'F', b'u', b'O', b' ', b'T', b'L', b'i', // 472
+        b'e', b't', b' ', b'c', b'd', b'l', b'o', b'H', // 480
+        b'h', b' ', b',', b'A', b' ', b'N', b'n', b'R', // 488
+        b'O', b'e', b' ', b'W', b'b', b'M', b'B', b'.', // 496
+        b'(', b')', b'/', b':', b'K', b'X', b'j', b'v', // 504
     ];
-    /// Encoding records, indexed by input value.
-    static PUTS: [Put; 124] = [
-        Put { spend: 5440, run: 501, absent: 1 }, // 0: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 1: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 2: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 3: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 4: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 5: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 6: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 7: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 8: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 9: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 0 }, // 10: b'\n'
-        Put { spend: 5440, run: 501, absent: 1 }, // 11: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 12: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 13: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 14: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 15: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 16: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 17: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 18: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 19: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 20: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 21: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 22: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 23: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 24: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 25: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 26: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 27: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 28: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 29: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 30: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 31: not in the alphabet
-        Put { spend: 2512, run: 453, absent: 0 }, // 32: b' '
-        Put { spend: 5440, run: 501, absent: 1 }, // 33: not in the alphabet
-        Put { spend: 7680, run: 79, absent: 0 }, // 34: b'"'
-        Put { spend: 5440, run: 501, absent: 1 }, // 35: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 36: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 37: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 38: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 39: not in the alphabet
-        Put { spend: 8704, run: 82, absent: 0 }, // 40: b'('
-        Put { spend: 8704, run: 83, absent: 0 }, // 41: b')'
-        Put { spend: 5440, run: 501, absent: 1 }, // 42: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 43: not in the alphabet
-        Put { spend: 5440, run: 74, absent: 0 }, // 44: b','
-        Put { spend: 5440, run: 501, absent: 1 }, // 45: not in the alphabet
-        Put { spend: 7680, run: 94, absent: 0 }, // 46: b'.'
-        Put { spend: 8704, run: 97, absent: 0 }, // 47: b'/'
-        Put { spend: 5440, run: 501, absent: 1 }, // 48: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 49: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 50: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 51: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 52: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 53: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 54: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 55: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 56: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 57: not in the alphabet
-        Put { spend: 8704, run: 98, absent: 0 }, // 58: b':'
-        Put { spend: 5440, run: 501, absent: 1 }, // 59: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 60: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 61: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 62: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 63: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 64: not in the alphabet
-        Put { spend: 5248, run: 86, absent: 0 }, // 65: b'A'
-        Put { spend: 7424, run: 111, absent: 0 }, // 66: b'B'
-        Put { spend: 6528, run: 112, absent: 0 }, // 67: b'C'
-        Put { spend: 6528, run: 117, absent: 0 }, // 68: b'D'
-        Put { spend: 4576, run: 110, absent: 0 }, // 69: b'E'
-        Put { spend: 6400, run: 138, absent: 0 }, // 70: b'F'
-        Put { spend: 7424, run: 147, absent: 0 }, // 71: b'G'
-        Put { spend: 5568, run: 144, absent: 0 }, // 72: b'H'
-        Put { spend: 4576, run: 145, absent: 0 }, // 73: b'I'
-        Put { spend: 5440, run: 501, absent: 1 }, // 74: not in the alphabet
-        Put { spend: 8704, run: 178, absent: 0 }, // 75: b'K'
-        Put { spend: 6272, run: 173, absent: 0 }, // 76: b'L'
-        Put { spend: 6656, run: 183, absent: 0 }, // 77: b'M'
-        Put { spend: 5184, run: 176, absent: 0 }, // 78: b'N'
-        Put { spend: 4544, run: 188, absent: 0 }, // 79: b'O'
-        Put { spend: 6656, run: 220, absent: 0 }, // 80: b'P'
-        Put { spend: 5440, run: 501, absent: 1 }, // 81: not in the alphabet
-        Put { spend: 4576, run: 211, absent: 0 }, // 82: b'R'
-        Put { spend: 5376, run: 233, absent: 0 }, // 83: b'S'
-        Put { spend: 4512, run: 238, absent: 0 }, // 84: b'T'
-        Put { spend: 6656, run: 272, absent: 0 }, // 85: b'U'
-        Put { spend: 8704, run: 279, absent: 0 }, // 86: b'V'
-        Put { spend: 6528, run: 276, absent: 0 }, // 87: b'W'
-        Put { spend: 8704, run: 285, absent: 0 }, // 88: b'X'
-        Put { spend: 7424, run: 284, absent: 0 }, // 89: b'Y'
-        Put { spend: 5440, run: 501, absent: 1 }, // 90: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 91: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 92: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 93: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 94: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 95: not in the alphabet
-        Put { spend: 5440, run: 501, absent: 1 }, // 96: not in the alphabet
-        Put { spend: 5376, run: 278, absent: 0 }, // 97: b'a'
-        Put { spend: 6528, run: 297, absent: 0 }, // 98: b'b'
-        Put { spend: 5632, run: 299, absent: 0 }, // 99: b'c'
-        Put { spend: 5632, run: 307, absent: 0 }, // 100: b'd'
-        Put { spend: 4384, run: 300, absent: 0 }, // 101: b'e'
-        Put { spend: 6272, run: 339, absent: 0 }, // 102: b'f'
-        Put { spend: 6656, run: 349, absent: 0 }, // 103: b'g'
-        Put { spend: 5504, run: 347, absent: 0 }, // 104: b'h'
-        Put { spend: 4448, run: 346, absent: 0 }, // 105: b'i'
-        Put { spend: 8704, run: 387, absent: 0 }, // 106: b'j'
-        Put { spend: 5440, run: 501, absent: 1 }, // 107: not in the alphabet
-        Put { spend: 5632, run: 381, absent: 0 }, // 108: b'l'
-        Put { spend: 6656, run: 393, absent: 0 }, // 109: b'm'
-        Put { spend: 5184, run: 386, absent: 0 }, // 110: b'n'
-        Put { spend: 4352, run: 392, absent: 0 }, // 111: b'o'
-        Put { spend: 6528, run: 435, absent: 0 }, // 112: b'p'
-        Put { spend: 5440, run: 501, absent: 1 }, // 113: not in the alphabet
-        Put { spend: 5376, run: 433, absent: 0 }, // 114: b'r'
-        Put { spend: 4608, run: 441, absent: 0 }, // 115: b's'
-        Put { spend: 4384, run: 450, absent: 0 }, // 116: b't'
-        Put { spend: 6400, run: 490, absent: 0 }, // 117: b'u'
-        Put { spend: 8704, run: 501, absent: 0 }, // 118: b'v'
-        Put { spend: 6528, run: 498, absent: 0 }, // 119: b'w'
-        Put { spend: 5440, run: 501, absent: 1 }, // 120: not in the alphabet
-        Put { spend: 7424, run: 505, absent: 0 }, // 121: b'y'
-        Put { spend: 8704, run: 510, absent: 0 }, // 122: b'z'
-        Put { spend: 5440, run: 501, absent: 1 }, // 123 and above: not in the alphabet
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        28800, 29056, 24768, 24832, 24832, 24832, 20480, 20512, 20512, 20576, 20640, 20704, 20736, 12336, 12344, 20704, // 0
+        20544, 12352, 20512, 25024, 25024, 24960, 20768, 20736, 12360, 24768, 20672, 24704, 20608, 24640, 12368, 20544, // 16
+        20544, 20512, 24576, 24576, 24576, 20736, 29056, 12376, 24896, 24896, 24896, 28928, 28928, 20800, 20576, 20768, // 32
+        12384, 24832, 20544, 20704, 28800, 28800, 28800, 12392, 20480, 20480, 20640, 25024, 20768, 12400, 20576, 20576, // 48
+        28672, 28672, 28672, 28672, 20544, 20832, 20800, 12408, 24576, 24832, 20608, 20736, 12416, 20576, 24768, 20800, // 64
+        20672, 12424, 33024, 33024, 33024, 24960, 24960, 24960, 20864, 24704, 20512, 20512, 20832, 12432, 20608, 20608, // 80
+        24896, 20480, 28928, 20576, 12440, 20768, 24640, 24640, 24640, 20640, 20832, 12448, 20896, 20704, 20608, 20864, // 96
+        12456, 24576, 28800, 28800, 24896, 12464, 20640, 20640, 20800, 20544, 20544, 32768, 20864, 25024, 25024, 25024, // 112
+        12472, 20608, 20928, 29056, 29056, 24832, 20512, 20672, 20896, 12480, 20736, 24960, 20640, 24640, 12488, 24768, // 128
+        20832, 28672, 20896, 12496, 20672, 20672, 20960, 28928, 28928, 28928, 20928, 12504, 20576, 20576, 20640, 20704, // 144
+        20768, 24704, 24704, 24704, 12512, 24960, 20480, 20480, 20480, 20544, 20672, 20864, 20928, 12520, 16384, 20960, // 160
+        12528, 20704, 20704, 25024, 24896, 12536, 24640, 20800, 20736, 29056, 20672, 20608, 20608, 16400, 12544, 20960, // 176
+        28800, 28800, 28800, 28800, 20896, 20704, 16384, 12552, 24832, 33024, 20576, 12560, 24704, 20512, 20512, 20512, // 192
+        20736, 20736, 16416, 25024, 20832, 12568, 16384, 24576, 24576, 20768, 20928, 20704, 16400, 12576, 20640, 20640, // 208
+        20480, 24768, 24768, 24768, 12584, 20736, 28928, 28928, 36864, 36864, 16432, 24960, 12592, 16400, 20768, 20768, // 224
+        20864, 20608, 20960, 16416, 12600, 20800, 20544, 20544, 20544, 12608, 20736, 16448, 28672, 28672, 28672, 12616, // 240
+        29056, 29056, 29056, 24704, 24896, 20480, 20672, 20672, 20768, 16416, 16432, 12624, 16384, 20896, 20800, 20800, // 256
+        20512, 12632, 20832, 16464, 24768, 20640, 12640, 16432, 24576, 20768, 25024, 16448, 12648, 16400, 20800, 20576, // 272
+        20576, 20576, 24832, 24832, 24832, 20928, 20704, 20704, 28800, 12656, 20832, 20832, 16480, 12664, 24640, 24640, // 288
+        20864, 16448, 20512, 16464, 12672, 16416, 20800, 20672, 20544, 12680, 24960, 16496, 20960, 20832, 28928, 28928, // 304
+        28928, 28928, 12688, 20864, 20864, 16464, 20736, 20736, 16480, 12696, 20896, 20608, 20608, 20608, 24768, 32768, // 320
+        20480, 16432, 12704, 16512, 29056, 29056, 24832, 20832, 16384, 12712, 16480, 20864, 20704, 16496, 12720, 20544, // 336
+        20896, 20896, 24896, 24896, 24896, 16528, 20928, 12728, 20576, 16448, 24576, 24576, 24576, 20768, 20768, 12736, // 352
+        16496, 16400, 20640, 20640, 20640, 25024, 16512, 12744, 24640, 20864, 16544, 20896, 12752, 33024, 20928, 20928, // 368
+        16464, 24704, 24704, 20512, 20736, 20960, 12760, 16512, 16528, 12768, 20800, 20800, 16416, 20576, 16560, 12776, // 384
+        20608, 24832, 20896, 16480, 28672, 20928, 12784, 24896, 20672, 20672, 20672, 20960, 20960, 16528, 16384, 16544, // 400
+        12792, 24960, 24960, 24960, 16576, 16432, 20768, 8192, 28800, 28800, 28800, 20480, 20832, 20832, 8196, 16496, // 416
+        16544, 20928, 20544, 16560, 8200, 20960, 28928, 16384, 16384, 16592, 16400, 20608, 8204, 20640, 16448, 29056, // 432
+        29056, 29056, 29056, 8208, 20704, 20704, 20704, 16512, 24576, 24576, 16560, 20800, 16576, 8212, 16608, 24640, // 448
+        24640, 24640, 20864, 20864, 8216, 20960, 16384, 16400, 16400, 24768, 24768, 16416, 8220, 16464, 24896, 16528, // 464
+        16576, 16592, 8224, 25024, 25024, 25024, 16624, 20512, 20576, 8228, 20640, 20832, 8232, 20896, 20896, 16400, // 480
+        16432, 16592, 8236, 24640, 24640, 29056, 28800, 33024, 36864, 36864, 36864, 36864, 36864, 36864, 36864, 36864, // 496
+    ];
+    /// Encoding, by input value: from state `x` the encoder writes
+    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
+    /// value outside the alphabet.
+    static SPEND: [u16; 124] = [
+        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 5440, 0, 0, 0, 0, 0, // 0 ..
+        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, // 16 ..
+        2512, 0, 7680, 0, 0, 0, 0, 0, 8704, 8704, 0, 0, 5440, 0, 7680, 8704, // 32 ..
+        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 8704, 0, 0, 0, 0, 0, // 48 ..
+        0, 5248, 7424, 6528, 6528, 4576, 6400, 7424, 5568, 4576, 0, 8704, 6272, 6656, 5184, 4544, // 64 ..
+        6656, 0, 4576, 5376, 4512, 6656, 8704, 6528, 8704, 7424, 0, 0, 0, 0, 0, 0, // 80 ..
+        0, 5376, 6528, 5632, 5632, 4384, 6272, 6656, 5504, 4448, 8704, 0, 5632, 6656, 5184, 4352, // 96 ..
+        6528, 0, 5376, 4608, 4384, 6400, 8704, 6528, 0, 7424, 8704, 0, // 112 ..
+    ];
+    /// See [`SPEND`].
+    static RUN: [u16; 124] = [
+        32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 501, 32768, 32768, 32768, 32768, 32768, // 0 ..
+        32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, // 16 ..
+        453, 32768, 79, 32768, 32768, 32768, 32768, 32768, 82, 83, 32768, 32768, 74, 32768, 94, 97, // 32 ..
+        32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 98, 32768, 32768, 32768, 32768, 32768, // 48 ..
+        32768, 86, 111, 112, 117, 110, 138, 147, 144, 145, 32768, 178, 173, 183, 176, 188, // 64 ..
+        220, 32768, 211, 233, 238, 272, 279, 276, 285, 284, 32768, 32768, 32768, 32768, 32768, 32768, // 80 ..
+        32768, 278, 297, 299, 307, 300, 339, 349, 347, 346, 387, 32768, 381, 393, 386, 392, // 96 ..
+        435, 32768, 433, 441, 450, 490, 501, 498, 32768, 505, 510, 32768, // 112 ..
     ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
@@ -894,8 +882,10 @@ pub mod mit_text {
             Err(_) => Err(Error::BadLength),
         }
     }
-    const _: [(); 2048] = [(); ::core::mem::size_of_val(&DECODE)];
-    const _: [(); 744] = [(); ::core::mem::size_of_val(&PUTS)];
+    const _: [(); 512] = [(); ::core::mem::size_of_val(&SYMBOLS)];
+    const _: [(); 1024] = [(); ::core::mem::size_of_val(&STEPS)];
+    const _: [(); 248] = [(); ::core::mem::size_of_val(&SPEND)];
+    const _: [(); 248] = [(); ::core::mem::size_of_val(&RUN)];
     const _: [(); 1024] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `five`: 5 symbols, tANS, 1 lane(s), table of 2^6 = 64 slots.
@@ -906,7 +896,7 @@ pub mod mit_text {
 /// | with the rounded slots | 2.286134 |
 /// | exact rate of these tables | 2.285682 |
 ///
-/// Excess: 0.000207 bits/symbol (0.009 % above the entropy). Tables: 340 bytes. Spread: tuned (copies placed for the true probabilities).
+/// Excess: 0.000207 bits/symbol (0.009 % above the entropy). Tables: 276 bytes. Spread: tuned (copies placed for the true probabilities).
 /// Trained on 100 symbols; 0 training sequence(s) round-tripped at generation time into 0 bytes.
 ///
 /// | symbol | count | slots | ideal bits | coded bits |
@@ -1037,15 +1027,25 @@ pub mod five {
             .saturating_add(LANES * TABLE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step from state `x`: the bit count, the bits above them (`x >> bits`,
-    /// the copy number whose state comes next) and the next state.
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
+    /// and the next state.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn put_symbol(x: u32, put: &Put) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(put.spend)) >> (TABLE_BITS + 1);
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(put.run)) & MASK];
+        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
         (bits, high, u32::from(next))
+    }
+    /// The decode step at table position `i`: the bits to read, and the position they
+    /// are added to.
+    #[inline(always)]
+    #[allow(clippy::useless_conversion)]
+    fn step(i: usize) -> (u32, usize) {
+        let step = u32::from(STEPS[i]);
+        let bits = step >> STEP_SHIFT;
+        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
@@ -1119,9 +1119,9 @@ pub mod five {
             let mut pending: u32 = 0;
             let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
+                let row = symbol as usize;
                 let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+                let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
                 state[i % LANES] = next;
                 pending += bits;
@@ -1135,9 +1135,9 @@ pub mod five {
                     let top = pos;
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -1157,9 +1157,9 @@ pub mod five {
                 } else {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -1225,10 +1225,10 @@ pub mod five {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                    let at_x = *x & MASK;
+                    *slot = SYMBOLS[at_x];
+                    let (bits, base) = step(at_x);
+                    *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
                 }
@@ -1236,11 +1236,10 @@ pub mod five {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2)
-                    + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                let at_x = *x & MASK;
+                *slot = SYMBOLS[at_x];
+                let (bits, base) = step(at_x);
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
             if at.div_ceil(8) > payload.len() {
@@ -1281,33 +1280,54 @@ pub mod five {
             TABLE_BITS
         };
         /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above this value fewer than `MOST` bits are free, and it is flushed.
-        const FULL: u32 = 1 << (32 - MOST);
-        /// Stores the whole bytes of the pending bits (below the marker bit of `acc`) in
-        /// front of `pos`, and keeps the rest.
-        #[inline(always)]
-        fn flush(out: &mut [u8], pos: &mut usize, acc: &mut u32) -> Result<(), Error> {
-            let pending = 31 - acc.leading_zeros();
-            let whole = (pending >> 3) as usize;
-            let bytes = acc.wrapping_shl(32 - pending).to_le_bytes();
-            let Some(start) = pos.checked_sub(whole) else {
-                return Err(Error::OutputTooSmall);
-            };
-            match out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<4>) {
-                Some(dst) => *dst = bytes,
-                None => {
-                    let Some(dst) = out.get_mut(start..*pos) else {
-                        return Err(Error::OutputTooSmall);
-                    };
-                    for (d, s) in dst.iter_mut().zip(&bytes[4 - whole..]) {
-                        *d = *s;
+        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
+        /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
+        /// loop (its stores are rare), so that the loop's values stay in registers.
+        struct Writer<'a> {
+            out: &'a mut [u8],
+            pos: usize,
+        }
+        impl Writer<'_> {
+            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
+            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
+            /// is too small.
+            #[inline(never)]
+            fn flush(&mut self, acc: u32) -> Option<u32> {
+                let pending = 31u32.wrapping_sub(acc.leading_zeros());
+                let whole = (pending >> 3) as usize;
+                let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
+                let start = self.pos.checked_sub(whole)?;
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
+                {
+                    Some(dst) => *dst = bytes,
+                    None => {
+                        let dst = self.out.get_mut(start..self.pos)?;
+                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                        for (d, s) in dst.iter_mut().zip(src) {
+                            *d = *s;
+                        }
                     }
                 }
+                self.pos = start;
+                let drop = 31 - (pending & 7);
+                Some(((acc << drop) | 1 << 31) >> drop)
             }
-            *pos = start;
-            let rest = pending & 7;
-            *acc = (*acc & !(u32::MAX << rest)) | (1 << rest);
-            Ok(())
+        }
+        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
+        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        struct Reader<'a> {
+            data: &'a [u8],
+            byte: usize,
+        }
+        impl Reader<'_> {
+            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
+            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            #[inline(never)]
+            fn refill(&mut self, used: u32) -> (u32, u32) {
+                self.byte += (used >> 3) as usize;
+                let used = used & 7;
+                (word(self.data, self.byte) >> used, used)
+            }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
         ///
@@ -1316,28 +1336,45 @@ pub mod five {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut pos = out.len();
+            let mut writer = Writer { pos: out.len(), out };
             let mut state = [TABLE_LEN as u32; LANES];
             let mut acc: u32 = 1;
-            for (i, &symbol) in input.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
-                let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+            let mut lane = input.len().wrapping_sub(1) % LANES;
+            let mut full = false;
+            let mut one = |symbol: Symbol| {
+                let row = symbol as usize;
+                let x = state[lane];
+                let (bits, high, next) = put_symbol(x, row);
                 acc = ((acc ^ high) << bits) ^ x;
-                state[i % LANES] = next;
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                state[lane] = next;
+                lane = (lane + LANES - 1) % LANES;
+                if acc >> (32 - MOST) != 0 {
+                    match writer.flush(acc) {
+                        Some(rest) => acc = rest,
+                        None => full = true,
+                    }
                 }
+            };
+            let (rest, pairs) = input.as_rchunks::<2>();
+            for &[a, b] in pairs.iter().rev() {
+                one(b);
+                one(a);
+            }
+            for &symbol in rest.iter().rev() {
+                one(symbol);
+            }
+            if full {
+                return Err(Error::OutputTooSmall);
             }
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                if acc >> (32 - MOST) != 0 {
+                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
-            let pad = (8 - (31 - acc.leading_zeros()) % 8) % 8;
-            acc <<= pad;
-            flush(out, &mut pos, &mut acc)?;
+            let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
+            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
+            let Writer { out, pos } = writer;
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -1371,21 +1408,33 @@ pub mod five {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut buf = peek(payload, at);
-            let mut good = (at & !7) + 32;
-            for (i, slot) in out.iter_mut().enumerate() {
-                if at + MAX_SYMBOL_BITS as usize > good {
-                    buf = peek(payload, at);
-                    good = (at & !7) + 32;
+            let mut reader = Reader {
+                data: payload,
+                byte: at >> 3,
+            };
+            let (mut buf, mut used) = reader.refill((at & 7) as u32);
+            let mut lane = 0;
+            let mut one = |slot: &mut Symbol| {
+                if used > 32 - MAX_SYMBOL_BITS {
+                    (buf, used) = reader.refill(used);
                 }
-                let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2) + (buf & !(u32::MAX << bits)) as usize;
+                let i = state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
                 buf >>= bits;
-                at += bits as usize;
+                used += bits;
+                lane = (lane + 1) % LANES;
+            };
+            let (pairs, rest) = out.as_chunks_mut::<2>();
+            for [a, b] in pairs {
+                one(a);
+                one(b);
             }
+            for slot in rest {
+                one(slot);
+            }
+            let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -1450,34 +1499,38 @@ pub mod five {
         }
         Ok(to + len)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
-    /// How to put a symbol into the state: from state `x` the encoder writes
-    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits, then goes to state
-    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`.
-    struct Put {
-        spend: u16,
-        run: u16,
-    }
-    /// Decode steps by table position (the spread of symbols over the table).
-    static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::E, 3, 8), Step(Symbol::A, 2, 0), Step(Symbol::B, 2, 0), Step(Symbol::C, 3, 40), Step(Symbol::D, 3, 16), Step(Symbol::E, 3, 16), Step(Symbol::A, 2, 4), Step(Symbol::B, 2, 4), // 0
-        Step(Symbol::C, 3, 48), Step(Symbol::A, 2, 8), Step(Symbol::B, 2, 8), Step(Symbol::D, 3, 24), Step(Symbol::E, 3, 24), Step(Symbol::C, 3, 56), Step(Symbol::A, 2, 12), Step(Symbol::B, 2, 12), // 8
-        Step(Symbol::A, 2, 16), Step(Symbol::B, 2, 16), Step(Symbol::C, 2, 0), Step(Symbol::D, 3, 32), Step(Symbol::E, 3, 32), Step(Symbol::A, 2, 20), Step(Symbol::B, 2, 20), Step(Symbol::C, 2, 4), // 16
-        Step(Symbol::D, 3, 40), Step(Symbol::E, 3, 40), Step(Symbol::A, 2, 24), Step(Symbol::B, 2, 24), Step(Symbol::C, 2, 8), Step(Symbol::A, 2, 28), Step(Symbol::B, 2, 28), Step(Symbol::D, 3, 48), // 24
-        Step(Symbol::E, 3, 48), Step(Symbol::C, 2, 12), Step(Symbol::A, 2, 32), Step(Symbol::B, 2, 32), Step(Symbol::A, 2, 36), Step(Symbol::B, 2, 36), Step(Symbol::C, 2, 16), Step(Symbol::D, 3, 56), // 32
-        Step(Symbol::E, 3, 56), Step(Symbol::A, 2, 40), Step(Symbol::B, 2, 40), Step(Symbol::C, 2, 20), Step(Symbol::D, 2, 0), Step(Symbol::E, 2, 0), Step(Symbol::A, 2, 44), Step(Symbol::B, 2, 44), // 40
-        Step(Symbol::C, 2, 24), Step(Symbol::A, 2, 48), Step(Symbol::B, 2, 48), Step(Symbol::D, 2, 4), Step(Symbol::E, 2, 4), Step(Symbol::C, 2, 28), Step(Symbol::A, 2, 52), Step(Symbol::B, 2, 52), // 48
-        Step(Symbol::A, 2, 56), Step(Symbol::B, 2, 56), Step(Symbol::C, 2, 32), Step(Symbol::D, 2, 8), Step(Symbol::A, 2, 60), Step(Symbol::B, 2, 60), Step(Symbol::C, 2, 36), Step(Symbol::D, 2, 12), // 56
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 0
+        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 8
+        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, // 16
+        Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::A, Symbol::B, Symbol::D, // 24
+        Symbol::E, Symbol::C, Symbol::A, Symbol::B, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 32
+        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 40
+        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 48
+        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 56
     ];
-    /// Encoding records, indexed by input value.
-    static PUTS: [Put; 5] = [
-        Put { spend: 192, run: 48 }, // a
-        Put { spend: 192, run: 0 }, // b
-        Put { spend: 280, run: 19 }, // c
-        Put { spend: 304, run: 35 }, // d
-        Put { spend: 312, run: 46 }, // e
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        12296, 8192, 8192, 12328, 12304, 12304, 8196, 8196, 12336, 8200, 8200, 12312, 12312, 12344, 8204, 8204, // 0
+        8208, 8208, 8192, 12320, 12320, 8212, 8212, 8196, 12328, 12328, 8216, 8216, 8200, 8220, 8220, 12336, // 16
+        12336, 8204, 8224, 8224, 8228, 8228, 8208, 12344, 12344, 8232, 8232, 8212, 8192, 8192, 8236, 8236, // 32
+        8216, 8240, 8240, 8196, 8196, 8220, 8244, 8244, 8248, 8248, 8224, 8200, 8252, 8252, 8228, 8204, // 48
+    ];
+    /// Encoding, by input value: from state `x` the encoder writes
+    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
+    /// value outside the alphabet.
+    static SPEND: [u16; 5] = [
+        192, 192, 280, 304, 312, // a ..
+    ];
+    /// See [`SPEND`].
+    static RUN: [u16; 5] = [
+        48, 0, 19, 35, 46, // a ..
     ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
@@ -1548,8 +1601,10 @@ pub mod five {
             Err(_) => Err(Error::BadLength),
         }
     }
-    const _: [(); 256] = [(); ::core::mem::size_of_val(&DECODE)];
-    const _: [(); 20] = [(); ::core::mem::size_of_val(&PUTS)];
+    const _: [(); 64] = [(); ::core::mem::size_of_val(&SYMBOLS)];
+    const _: [(); 128] = [(); ::core::mem::size_of_val(&STEPS)];
+    const _: [(); 10] = [(); ::core::mem::size_of_val(&SPEND)];
+    const _: [(); 10] = [(); ::core::mem::size_of_val(&RUN)];
     const _: [(); 64] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `skewed`: 2 symbols, tANS, 1 lane(s), table of 2^7 = 128 slots.
@@ -1560,7 +1615,7 @@ pub mod five {
 /// | with the rounded slots | 0.469015 |
 /// | exact rate of these tables | 0.469018 |
 ///
-/// Excess: 0.000022 bits/symbol (0.005 % above the entropy). Tables: 648 bytes. Spread: tuned (copies placed for the true probabilities).
+/// Excess: 0.000022 bits/symbol (0.005 % above the entropy). Tables: 520 bytes. Spread: tuned (copies placed for the true probabilities).
 /// Trained on 100 symbols; 0 training sequence(s) round-tripped at generation time into 0 bytes.
 ///
 /// | symbol | count | slots | ideal bits | coded bits |
@@ -1670,15 +1725,25 @@ pub mod skewed {
             .saturating_add(LANES * TABLE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step from state `x`: the bit count, the bits above them (`x >> bits`,
-    /// the copy number whose state comes next) and the next state.
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
+    /// and the next state.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn put_symbol(x: u32, put: &Put) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(put.spend)) >> (TABLE_BITS + 1);
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(put.run)) & MASK];
+        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
         (bits, high, u32::from(next))
+    }
+    /// The decode step at table position `i`: the bits to read, and the position they
+    /// are added to.
+    #[inline(always)]
+    #[allow(clippy::useless_conversion)]
+    fn step(i: usize) -> (u32, usize) {
+        let step = u32::from(STEPS[i]);
+        let bits = step >> STEP_SHIFT;
+        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
@@ -1752,9 +1817,9 @@ pub mod skewed {
             let mut pending: u32 = 0;
             let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
+                let row = symbol as usize;
                 let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+                let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
                 state[i % LANES] = next;
                 pending += bits;
@@ -1768,9 +1833,9 @@ pub mod skewed {
                     let top = pos;
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -1790,9 +1855,9 @@ pub mod skewed {
                 } else {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -1858,10 +1923,10 @@ pub mod skewed {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                    let at_x = *x & MASK;
+                    *slot = SYMBOLS[at_x];
+                    let (bits, base) = step(at_x);
+                    *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
                 }
@@ -1869,11 +1934,10 @@ pub mod skewed {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2)
-                    + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                let at_x = *x & MASK;
+                *slot = SYMBOLS[at_x];
+                let (bits, base) = step(at_x);
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
             if at.div_ceil(8) > payload.len() {
@@ -1914,33 +1978,54 @@ pub mod skewed {
             TABLE_BITS
         };
         /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above this value fewer than `MOST` bits are free, and it is flushed.
-        const FULL: u32 = 1 << (32 - MOST);
-        /// Stores the whole bytes of the pending bits (below the marker bit of `acc`) in
-        /// front of `pos`, and keeps the rest.
-        #[inline(always)]
-        fn flush(out: &mut [u8], pos: &mut usize, acc: &mut u32) -> Result<(), Error> {
-            let pending = 31 - acc.leading_zeros();
-            let whole = (pending >> 3) as usize;
-            let bytes = acc.wrapping_shl(32 - pending).to_le_bytes();
-            let Some(start) = pos.checked_sub(whole) else {
-                return Err(Error::OutputTooSmall);
-            };
-            match out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<4>) {
-                Some(dst) => *dst = bytes,
-                None => {
-                    let Some(dst) = out.get_mut(start..*pos) else {
-                        return Err(Error::OutputTooSmall);
-                    };
-                    for (d, s) in dst.iter_mut().zip(&bytes[4 - whole..]) {
-                        *d = *s;
+        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
+        /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
+        /// loop (its stores are rare), so that the loop's values stay in registers.
+        struct Writer<'a> {
+            out: &'a mut [u8],
+            pos: usize,
+        }
+        impl Writer<'_> {
+            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
+            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
+            /// is too small.
+            #[inline(never)]
+            fn flush(&mut self, acc: u32) -> Option<u32> {
+                let pending = 31u32.wrapping_sub(acc.leading_zeros());
+                let whole = (pending >> 3) as usize;
+                let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
+                let start = self.pos.checked_sub(whole)?;
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
+                {
+                    Some(dst) => *dst = bytes,
+                    None => {
+                        let dst = self.out.get_mut(start..self.pos)?;
+                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                        for (d, s) in dst.iter_mut().zip(src) {
+                            *d = *s;
+                        }
                     }
                 }
+                self.pos = start;
+                let drop = 31 - (pending & 7);
+                Some(((acc << drop) | 1 << 31) >> drop)
             }
-            *pos = start;
-            let rest = pending & 7;
-            *acc = (*acc & !(u32::MAX << rest)) | (1 << rest);
-            Ok(())
+        }
+        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
+        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        struct Reader<'a> {
+            data: &'a [u8],
+            byte: usize,
+        }
+        impl Reader<'_> {
+            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
+            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            #[inline(never)]
+            fn refill(&mut self, used: u32) -> (u32, u32) {
+                self.byte += (used >> 3) as usize;
+                let used = used & 7;
+                (word(self.data, self.byte) >> used, used)
+            }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
         ///
@@ -1949,28 +2034,45 @@ pub mod skewed {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut pos = out.len();
+            let mut writer = Writer { pos: out.len(), out };
             let mut state = [TABLE_LEN as u32; LANES];
             let mut acc: u32 = 1;
-            for (i, &symbol) in input.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
-                let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+            let mut lane = input.len().wrapping_sub(1) % LANES;
+            let mut full = false;
+            let mut one = |symbol: Symbol| {
+                let row = symbol as usize;
+                let x = state[lane];
+                let (bits, high, next) = put_symbol(x, row);
                 acc = ((acc ^ high) << bits) ^ x;
-                state[i % LANES] = next;
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                state[lane] = next;
+                lane = (lane + LANES - 1) % LANES;
+                if acc >> (32 - MOST) != 0 {
+                    match writer.flush(acc) {
+                        Some(rest) => acc = rest,
+                        None => full = true,
+                    }
                 }
+            };
+            let (rest, pairs) = input.as_rchunks::<2>();
+            for &[a, b] in pairs.iter().rev() {
+                one(b);
+                one(a);
+            }
+            for &symbol in rest.iter().rev() {
+                one(symbol);
+            }
+            if full {
+                return Err(Error::OutputTooSmall);
             }
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                if acc >> (32 - MOST) != 0 {
+                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
-            let pad = (8 - (31 - acc.leading_zeros()) % 8) % 8;
-            acc <<= pad;
-            flush(out, &mut pos, &mut acc)?;
+            let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
+            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
+            let Writer { out, pos } = writer;
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -2004,21 +2106,33 @@ pub mod skewed {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut buf = peek(payload, at);
-            let mut good = (at & !7) + 32;
-            for (i, slot) in out.iter_mut().enumerate() {
-                if at + MAX_SYMBOL_BITS as usize > good {
-                    buf = peek(payload, at);
-                    good = (at & !7) + 32;
+            let mut reader = Reader {
+                data: payload,
+                byte: at >> 3,
+            };
+            let (mut buf, mut used) = reader.refill((at & 7) as u32);
+            let mut lane = 0;
+            let mut one = |slot: &mut Symbol| {
+                if used > 32 - MAX_SYMBOL_BITS {
+                    (buf, used) = reader.refill(used);
                 }
-                let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2) + (buf & !(u32::MAX << bits)) as usize;
+                let i = state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
                 buf >>= bits;
-                at += bits as usize;
+                used += bits;
+                lane = (lane + 1) % LANES;
+            };
+            let (pairs, rest) = out.as_chunks_mut::<2>();
+            for [a, b] in pairs {
+                one(a);
+                one(b);
             }
+            for slot in rest {
+                one(slot);
+            }
+            let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -2083,39 +2197,50 @@ pub mod skewed {
         }
         Ok(to + len)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
-    /// How to put a symbol into the state: from state `x` the encoder writes
-    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits, then goes to state
-    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`.
-    struct Put {
-        spend: u16,
-        run: u16,
-    }
-    /// Decode steps by table position (the spread of symbols over the table).
-    static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::Likely, 1, 102), Step(Symbol::Likely, 1, 104), Step(Symbol::Likely, 1, 106), Step(Symbol::Likely, 1, 108), Step(Symbol::Likely, 1, 110), Step(Symbol::Likely, 1, 112), Step(Symbol::Unlikely, 4, 80), Step(Symbol::Likely, 1, 114), // 0
-        Step(Symbol::Likely, 1, 116), Step(Symbol::Likely, 1, 118), Step(Symbol::Likely, 1, 120), Step(Symbol::Likely, 1, 122), Step(Symbol::Likely, 1, 124), Step(Symbol::Likely, 1, 126), Step(Symbol::Likely, 0, 0), Step(Symbol::Likely, 0, 1), // 8
-        Step(Symbol::Unlikely, 4, 96), Step(Symbol::Likely, 0, 2), Step(Symbol::Likely, 0, 3), Step(Symbol::Likely, 0, 4), Step(Symbol::Likely, 0, 5), Step(Symbol::Likely, 0, 6), Step(Symbol::Likely, 0, 7), Step(Symbol::Likely, 0, 8), // 16
-        Step(Symbol::Likely, 0, 9), Step(Symbol::Likely, 0, 10), Step(Symbol::Unlikely, 4, 112), Step(Symbol::Likely, 0, 11), Step(Symbol::Likely, 0, 12), Step(Symbol::Likely, 0, 13), Step(Symbol::Likely, 0, 14), Step(Symbol::Likely, 0, 15), // 24
-        Step(Symbol::Likely, 0, 16), Step(Symbol::Likely, 0, 17), Step(Symbol::Likely, 0, 18), Step(Symbol::Likely, 0, 19), Step(Symbol::Unlikely, 3, 0), Step(Symbol::Likely, 0, 20), Step(Symbol::Likely, 0, 21), Step(Symbol::Likely, 0, 22), // 32
-        Step(Symbol::Likely, 0, 23), Step(Symbol::Likely, 0, 24), Step(Symbol::Likely, 0, 25), Step(Symbol::Likely, 0, 26), Step(Symbol::Likely, 0, 27), Step(Symbol::Likely, 0, 28), Step(Symbol::Unlikely, 3, 8), Step(Symbol::Likely, 0, 29), // 40
-        Step(Symbol::Likely, 0, 30), Step(Symbol::Likely, 0, 31), Step(Symbol::Likely, 0, 32), Step(Symbol::Likely, 0, 33), Step(Symbol::Likely, 0, 34), Step(Symbol::Likely, 0, 35), Step(Symbol::Likely, 0, 36), Step(Symbol::Likely, 0, 37), // 48
-        Step(Symbol::Unlikely, 3, 16), Step(Symbol::Likely, 0, 38), Step(Symbol::Likely, 0, 39), Step(Symbol::Likely, 0, 40), Step(Symbol::Likely, 0, 41), Step(Symbol::Likely, 0, 42), Step(Symbol::Likely, 0, 43), Step(Symbol::Likely, 0, 44), // 56
-        Step(Symbol::Likely, 0, 45), Step(Symbol::Likely, 0, 46), Step(Symbol::Unlikely, 3, 24), Step(Symbol::Likely, 0, 47), Step(Symbol::Likely, 0, 48), Step(Symbol::Likely, 0, 49), Step(Symbol::Likely, 0, 50), Step(Symbol::Likely, 0, 51), // 64
-        Step(Symbol::Likely, 0, 52), Step(Symbol::Likely, 0, 53), Step(Symbol::Likely, 0, 54), Step(Symbol::Likely, 0, 55), Step(Symbol::Unlikely, 3, 32), Step(Symbol::Likely, 0, 56), Step(Symbol::Likely, 0, 57), Step(Symbol::Likely, 0, 58), // 72
-        Step(Symbol::Likely, 0, 59), Step(Symbol::Likely, 0, 60), Step(Symbol::Likely, 0, 61), Step(Symbol::Likely, 0, 62), Step(Symbol::Likely, 0, 63), Step(Symbol::Likely, 0, 64), Step(Symbol::Unlikely, 3, 40), Step(Symbol::Likely, 0, 65), // 80
-        Step(Symbol::Likely, 0, 66), Step(Symbol::Likely, 0, 67), Step(Symbol::Likely, 0, 68), Step(Symbol::Likely, 0, 69), Step(Symbol::Likely, 0, 70), Step(Symbol::Likely, 0, 71), Step(Symbol::Likely, 0, 72), Step(Symbol::Likely, 0, 73), // 88
-        Step(Symbol::Unlikely, 3, 48), Step(Symbol::Likely, 0, 74), Step(Symbol::Likely, 0, 75), Step(Symbol::Likely, 0, 76), Step(Symbol::Likely, 0, 77), Step(Symbol::Likely, 0, 78), Step(Symbol::Likely, 0, 79), Step(Symbol::Likely, 0, 80), // 96
-        Step(Symbol::Likely, 0, 81), Step(Symbol::Likely, 0, 82), Step(Symbol::Unlikely, 3, 56), Step(Symbol::Likely, 0, 83), Step(Symbol::Likely, 0, 84), Step(Symbol::Likely, 0, 85), Step(Symbol::Likely, 0, 86), Step(Symbol::Likely, 0, 87), // 104
-        Step(Symbol::Likely, 0, 88), Step(Symbol::Likely, 0, 89), Step(Symbol::Likely, 0, 90), Step(Symbol::Likely, 0, 91), Step(Symbol::Unlikely, 3, 64), Step(Symbol::Likely, 0, 92), Step(Symbol::Likely, 0, 93), Step(Symbol::Likely, 0, 94), // 112
-        Step(Symbol::Likely, 0, 95), Step(Symbol::Likely, 0, 96), Step(Symbol::Likely, 0, 97), Step(Symbol::Likely, 0, 98), Step(Symbol::Likely, 0, 99), Step(Symbol::Likely, 0, 100), Step(Symbol::Unlikely, 3, 72), Step(Symbol::Likely, 0, 101), // 120
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 0
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 8
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 16
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 24
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 32
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 40
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 48
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 56
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 64
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 72
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 80
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 88
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 96
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 104
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 112
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 120
     ];
-    /// Encoding records, indexed by input value.
-    static PUTS: [Put; 2] = [
-        Put { spend: 26, run: 13 }, // likely
-        Put { spend: 816, run: 102 }, // unlikely
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        4198, 4200, 4202, 4204, 4206, 4208, 16464, 4210, 4212, 4214, 4216, 4218, 4220, 4222, 0, 1, // 0
+        16480, 2, 3, 4, 5, 6, 7, 8, 9, 10, 16496, 11, 12, 13, 14, 15, // 16
+        16, 17, 18, 19, 12288, 20, 21, 22, 23, 24, 25, 26, 27, 28, 12296, 29, // 32
+        30, 31, 32, 33, 34, 35, 36, 37, 12304, 38, 39, 40, 41, 42, 43, 44, // 48
+        45, 46, 12312, 47, 48, 49, 50, 51, 52, 53, 54, 55, 12320, 56, 57, 58, // 64
+        59, 60, 61, 62, 63, 64, 12328, 65, 66, 67, 68, 69, 70, 71, 72, 73, // 80
+        12336, 74, 75, 76, 77, 78, 79, 80, 81, 82, 12344, 83, 84, 85, 86, 87, // 96
+        88, 89, 90, 91, 12352, 92, 93, 94, 95, 96, 97, 98, 99, 100, 12360, 101, // 112
+    ];
+    /// Encoding, by input value: from state `x` the encoder writes
+    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
+    /// value outside the alphabet.
+    static SPEND: [u16; 2] = [
+        26, 816, // likely ..
+    ];
+    /// See [`SPEND`].
+    static RUN: [u16; 2] = [
+        13, 102, // likely ..
     ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
@@ -2190,8 +2315,10 @@ pub mod skewed {
             Err(_) => Err(Error::BadLength),
         }
     }
-    const _: [(); 512] = [(); ::core::mem::size_of_val(&DECODE)];
-    const _: [(); 8] = [(); ::core::mem::size_of_val(&PUTS)];
+    const _: [(); 128] = [(); ::core::mem::size_of_val(&SYMBOLS)];
+    const _: [(); 256] = [(); ::core::mem::size_of_val(&STEPS)];
+    const _: [(); 4] = [(); ::core::mem::size_of_val(&SPEND)];
+    const _: [(); 4] = [(); ::core::mem::size_of_val(&RUN)];
     const _: [(); 128] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `single`: 1 symbols, tANS, 1 lane(s), table of 2^1 = 2 slots.
@@ -2202,7 +2329,7 @@ pub mod skewed {
 /// | with the rounded slots | 0.000000 |
 /// | exact rate of these tables | 0.000000 |
 ///
-/// Excess: 0.000000 bits/symbol (the training data has zero entropy). Tables: 14 bytes. Spread: tuned (copies placed for the true probabilities).
+/// Excess: 0.000000 bits/symbol (the training data has zero entropy). Tables: 12 bytes. Spread: tuned (copies placed for the true probabilities).
 /// Trained on 10 symbols; 0 training sequence(s) round-tripped at generation time into 0 bytes.
 ///
 /// | symbol | count | slots | ideal bits | coded bits |
@@ -2307,15 +2434,25 @@ pub mod single {
             .saturating_add(LANES * TABLE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step from state `x`: the bit count, the bits above them (`x >> bits`,
-    /// the copy number whose state comes next) and the next state.
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
+    /// and the next state.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn put_symbol(x: u32, put: &Put) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(put.spend)) >> (TABLE_BITS + 1);
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(put.run)) & MASK];
+        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
         (bits, high, u32::from(next))
+    }
+    /// The decode step at table position `i`: the bits to read, and the position they
+    /// are added to.
+    #[inline(always)]
+    #[allow(clippy::useless_conversion)]
+    fn step(i: usize) -> (u32, usize) {
+        let step = u32::from(STEPS[i]);
+        let bits = step >> STEP_SHIFT;
+        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
@@ -2389,9 +2526,9 @@ pub mod single {
             let mut pending: u32 = 0;
             let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
+                let row = symbol as usize;
                 let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+                let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
                 state[i % LANES] = next;
                 pending += bits;
@@ -2405,9 +2542,9 @@ pub mod single {
                     let top = pos;
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -2427,9 +2564,9 @@ pub mod single {
                 } else {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -2487,10 +2624,10 @@ pub mod single {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                    let at_x = *x & MASK;
+                    *slot = SYMBOLS[at_x];
+                    let (bits, base) = step(at_x);
+                    *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
                 }
@@ -2498,11 +2635,10 @@ pub mod single {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2)
-                    + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                let at_x = *x & MASK;
+                *slot = SYMBOLS[at_x];
+                let (bits, base) = step(at_x);
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
             if at.div_ceil(8) > payload.len() {
@@ -2543,33 +2679,54 @@ pub mod single {
             TABLE_BITS
         };
         /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above this value fewer than `MOST` bits are free, and it is flushed.
-        const FULL: u32 = 1 << (32 - MOST);
-        /// Stores the whole bytes of the pending bits (below the marker bit of `acc`) in
-        /// front of `pos`, and keeps the rest.
-        #[inline(always)]
-        fn flush(out: &mut [u8], pos: &mut usize, acc: &mut u32) -> Result<(), Error> {
-            let pending = 31 - acc.leading_zeros();
-            let whole = (pending >> 3) as usize;
-            let bytes = acc.wrapping_shl(32 - pending).to_le_bytes();
-            let Some(start) = pos.checked_sub(whole) else {
-                return Err(Error::OutputTooSmall);
-            };
-            match out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<4>) {
-                Some(dst) => *dst = bytes,
-                None => {
-                    let Some(dst) = out.get_mut(start..*pos) else {
-                        return Err(Error::OutputTooSmall);
-                    };
-                    for (d, s) in dst.iter_mut().zip(&bytes[4 - whole..]) {
-                        *d = *s;
+        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
+        /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
+        /// loop (its stores are rare), so that the loop's values stay in registers.
+        struct Writer<'a> {
+            out: &'a mut [u8],
+            pos: usize,
+        }
+        impl Writer<'_> {
+            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
+            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
+            /// is too small.
+            #[inline(never)]
+            fn flush(&mut self, acc: u32) -> Option<u32> {
+                let pending = 31u32.wrapping_sub(acc.leading_zeros());
+                let whole = (pending >> 3) as usize;
+                let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
+                let start = self.pos.checked_sub(whole)?;
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
+                {
+                    Some(dst) => *dst = bytes,
+                    None => {
+                        let dst = self.out.get_mut(start..self.pos)?;
+                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                        for (d, s) in dst.iter_mut().zip(src) {
+                            *d = *s;
+                        }
                     }
                 }
+                self.pos = start;
+                let drop = 31 - (pending & 7);
+                Some(((acc << drop) | 1 << 31) >> drop)
             }
-            *pos = start;
-            let rest = pending & 7;
-            *acc = (*acc & !(u32::MAX << rest)) | (1 << rest);
-            Ok(())
+        }
+        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
+        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        struct Reader<'a> {
+            data: &'a [u8],
+            byte: usize,
+        }
+        impl Reader<'_> {
+            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
+            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            #[inline(never)]
+            fn refill(&mut self, used: u32) -> (u32, u32) {
+                self.byte += (used >> 3) as usize;
+                let used = used & 7;
+                (word(self.data, self.byte) >> used, used)
+            }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
         ///
@@ -2578,28 +2735,45 @@ pub mod single {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut pos = out.len();
+            let mut writer = Writer { pos: out.len(), out };
             let mut state = [TABLE_LEN as u32; LANES];
             let mut acc: u32 = 1;
-            for (i, &symbol) in input.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
-                let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+            let mut lane = input.len().wrapping_sub(1) % LANES;
+            let mut full = false;
+            let mut one = |symbol: Symbol| {
+                let row = symbol as usize;
+                let x = state[lane];
+                let (bits, high, next) = put_symbol(x, row);
                 acc = ((acc ^ high) << bits) ^ x;
-                state[i % LANES] = next;
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                state[lane] = next;
+                lane = (lane + LANES - 1) % LANES;
+                if acc >> (32 - MOST) != 0 {
+                    match writer.flush(acc) {
+                        Some(rest) => acc = rest,
+                        None => full = true,
+                    }
                 }
+            };
+            let (rest, pairs) = input.as_rchunks::<2>();
+            for &[a, b] in pairs.iter().rev() {
+                one(b);
+                one(a);
+            }
+            for &symbol in rest.iter().rev() {
+                one(symbol);
+            }
+            if full {
+                return Err(Error::OutputTooSmall);
             }
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                if acc >> (32 - MOST) != 0 {
+                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
-            let pad = (8 - (31 - acc.leading_zeros()) % 8) % 8;
-            acc <<= pad;
-            flush(out, &mut pos, &mut acc)?;
+            let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
+            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
+            let Writer { out, pos } = writer;
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -2625,21 +2799,33 @@ pub mod single {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut buf = peek(payload, at);
-            let mut good = (at & !7) + 32;
-            for (i, slot) in out.iter_mut().enumerate() {
-                if at + MAX_SYMBOL_BITS as usize > good {
-                    buf = peek(payload, at);
-                    good = (at & !7) + 32;
+            let mut reader = Reader {
+                data: payload,
+                byte: at >> 3,
+            };
+            let (mut buf, mut used) = reader.refill((at & 7) as u32);
+            let mut lane = 0;
+            let mut one = |slot: &mut Symbol| {
+                if used > 32 - MAX_SYMBOL_BITS {
+                    (buf, used) = reader.refill(used);
                 }
-                let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2) + (buf & !(u32::MAX << bits)) as usize;
+                let i = state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
                 buf >>= bits;
-                at += bits as usize;
+                used += bits;
+                lane = (lane + 1) % LANES;
+            };
+            let (pairs, rest) = out.as_chunks_mut::<2>();
+            for [a, b] in pairs {
+                one(a);
+                one(b);
             }
+            for slot in rest {
+                one(slot);
+            }
+            let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -2704,23 +2890,28 @@ pub mod single {
         }
         Ok(to + len)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
-    /// How to put a symbol into the state: from state `x` the encoder writes
-    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits, then goes to state
-    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`.
-    struct Put {
-        spend: u16,
-        run: u16,
-    }
-    /// Decode steps by table position (the spread of symbols over the table).
-    static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::Only, 0, 0), Step(Symbol::Only, 0, 1), // 0
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::Only, Symbol::Only, // 0
     ];
-    /// Encoding records, indexed by input value.
-    static PUTS: [Put; 1] = [
-        Put { spend: 0, run: 0 }, // only
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        0, 1, // 0
+    ];
+    /// Encoding, by input value: from state `x` the encoder writes
+    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
+    /// value outside the alphabet.
+    static SPEND: [u16; 1] = [
+        0, // only
+    ];
+    /// See [`SPEND`].
+    static RUN: [u16; 1] = [
+        0, // only
     ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
@@ -2788,8 +2979,10 @@ pub mod single {
             Err(_) => Err(Error::BadLength),
         }
     }
-    const _: [(); 8] = [(); ::core::mem::size_of_val(&DECODE)];
-    const _: [(); 4] = [(); ::core::mem::size_of_val(&PUTS)];
+    const _: [(); 2] = [(); ::core::mem::size_of_val(&SYMBOLS)];
+    const _: [(); 4] = [(); ::core::mem::size_of_val(&STEPS)];
+    const _: [(); 2] = [(); ::core::mem::size_of_val(&SPEND)];
+    const _: [(); 2] = [(); ::core::mem::size_of_val(&RUN)];
     const _: [(); 2] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `five_bare`: 5 symbols, tANS, 1 lane(s), table of 2^6 = 64 slots.
@@ -2800,7 +2993,7 @@ pub mod single {
 /// | with the rounded slots | 2.286134 |
 /// | exact rate of these tables | 2.285682 |
 ///
-/// Excess: 0.000207 bits/symbol (0.009 % above the entropy). Tables: 340 bytes. Spread: tuned (copies placed for the true probabilities).
+/// Excess: 0.000207 bits/symbol (0.009 % above the entropy). Tables: 276 bytes. Spread: tuned (copies placed for the true probabilities).
 /// Trained on 100 symbols; 0 training sequence(s) round-tripped at generation time into 0 bytes.
 ///
 /// | symbol | count | slots | ideal bits | coded bits |
@@ -2931,15 +3124,25 @@ pub mod five_bare {
             .saturating_add(LANES * TABLE_BITS as usize + 7);
         (0usize).saturating_add(bits / 8)
     }
-    /// One encoder step from state `x`: the bit count, the bits above them (`x >> bits`,
-    /// the copy number whose state comes next) and the next state.
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
+    /// and the next state.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn put_symbol(x: u32, put: &Put) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(put.spend)) >> (TABLE_BITS + 1);
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(put.run)) & MASK];
+        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
         (bits, high, u32::from(next))
+    }
+    /// The decode step at table position `i`: the bits to read, and the position they
+    /// are added to.
+    #[inline(always)]
+    #[allow(clippy::useless_conversion)]
+    fn step(i: usize) -> (u32, usize) {
+        let step = u32::from(STEPS[i]);
+        let bits = step >> STEP_SHIFT;
+        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
@@ -3013,9 +3216,9 @@ pub mod five_bare {
             let mut pending: u32 = 0;
             let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
+                let row = symbol as usize;
                 let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+                let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
                 state[i % LANES] = next;
                 pending += bits;
@@ -3029,9 +3232,9 @@ pub mod five_bare {
                     let top = pos;
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -3051,9 +3254,9 @@ pub mod five_bare {
                 } else {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -3129,10 +3332,10 @@ pub mod five_bare {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                    let at_x = *x & MASK;
+                    *slot = SYMBOLS[at_x];
+                    let (bits, base) = step(at_x);
+                    *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
                 }
@@ -3140,11 +3343,10 @@ pub mod five_bare {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2)
-                    + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                let at_x = *x & MASK;
+                *slot = SYMBOLS[at_x];
+                let (bits, base) = step(at_x);
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
             if at.div_ceil(8) > payload.len() {
@@ -3185,33 +3387,54 @@ pub mod five_bare {
             TABLE_BITS
         };
         /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above this value fewer than `MOST` bits are free, and it is flushed.
-        const FULL: u32 = 1 << (32 - MOST);
-        /// Stores the whole bytes of the pending bits (below the marker bit of `acc`) in
-        /// front of `pos`, and keeps the rest.
-        #[inline(always)]
-        fn flush(out: &mut [u8], pos: &mut usize, acc: &mut u32) -> Result<(), Error> {
-            let pending = 31 - acc.leading_zeros();
-            let whole = (pending >> 3) as usize;
-            let bytes = acc.wrapping_shl(32 - pending).to_le_bytes();
-            let Some(start) = pos.checked_sub(whole) else {
-                return Err(Error::OutputTooSmall);
-            };
-            match out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<4>) {
-                Some(dst) => *dst = bytes,
-                None => {
-                    let Some(dst) = out.get_mut(start..*pos) else {
-                        return Err(Error::OutputTooSmall);
-                    };
-                    for (d, s) in dst.iter_mut().zip(&bytes[4 - whole..]) {
-                        *d = *s;
+        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
+        /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
+        /// loop (its stores are rare), so that the loop's values stay in registers.
+        struct Writer<'a> {
+            out: &'a mut [u8],
+            pos: usize,
+        }
+        impl Writer<'_> {
+            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
+            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
+            /// is too small.
+            #[inline(never)]
+            fn flush(&mut self, acc: u32) -> Option<u32> {
+                let pending = 31u32.wrapping_sub(acc.leading_zeros());
+                let whole = (pending >> 3) as usize;
+                let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
+                let start = self.pos.checked_sub(whole)?;
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
+                {
+                    Some(dst) => *dst = bytes,
+                    None => {
+                        let dst = self.out.get_mut(start..self.pos)?;
+                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                        for (d, s) in dst.iter_mut().zip(src) {
+                            *d = *s;
+                        }
                     }
                 }
+                self.pos = start;
+                let drop = 31 - (pending & 7);
+                Some(((acc << drop) | 1 << 31) >> drop)
             }
-            *pos = start;
-            let rest = pending & 7;
-            *acc = (*acc & !(u32::MAX << rest)) | (1 << rest);
-            Ok(())
+        }
+        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
+        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        struct Reader<'a> {
+            data: &'a [u8],
+            byte: usize,
+        }
+        impl Reader<'_> {
+            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
+            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            #[inline(never)]
+            fn refill(&mut self, used: u32) -> (u32, u32) {
+                self.byte += (used >> 3) as usize;
+                let used = used & 7;
+                (word(self.data, self.byte) >> used, used)
+            }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
         ///
@@ -3220,28 +3443,45 @@ pub mod five_bare {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 0usize;
-            let mut pos = out.len();
+            let mut writer = Writer { pos: out.len(), out };
             let mut state = [TABLE_LEN as u32; LANES];
             let mut acc: u32 = 1;
-            for (i, &symbol) in input.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
-                let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+            let mut lane = input.len().wrapping_sub(1) % LANES;
+            let mut full = false;
+            let mut one = |symbol: Symbol| {
+                let row = symbol as usize;
+                let x = state[lane];
+                let (bits, high, next) = put_symbol(x, row);
                 acc = ((acc ^ high) << bits) ^ x;
-                state[i % LANES] = next;
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                state[lane] = next;
+                lane = (lane + LANES - 1) % LANES;
+                if acc >> (32 - MOST) != 0 {
+                    match writer.flush(acc) {
+                        Some(rest) => acc = rest,
+                        None => full = true,
+                    }
                 }
+            };
+            let (rest, pairs) = input.as_rchunks::<2>();
+            for &[a, b] in pairs.iter().rev() {
+                one(b);
+                one(a);
+            }
+            for &symbol in rest.iter().rev() {
+                one(symbol);
+            }
+            if full {
+                return Err(Error::OutputTooSmall);
             }
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                if acc >> (32 - MOST) != 0 {
+                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
-            let pad = (8 - (31 - acc.leading_zeros()) % 8) % 8;
-            acc <<= pad;
-            flush(out, &mut pos, &mut acc)?;
+            let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
+            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
+            let Writer { out, pos } = writer;
             let len = move_to_front(out, pos, header)?;
             if pad != 0 {
                 let mut i = 0;
@@ -3285,21 +3525,33 @@ pub mod five_bare {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut buf = peek(payload, at);
-            let mut good = (at & !7) + 32;
-            for (i, slot) in out.iter_mut().enumerate() {
-                if at + MAX_SYMBOL_BITS as usize > good {
-                    buf = peek(payload, at);
-                    good = (at & !7) + 32;
+            let mut reader = Reader {
+                data: payload,
+                byte: at >> 3,
+            };
+            let (mut buf, mut used) = reader.refill((at & 7) as u32);
+            let mut lane = 0;
+            let mut one = |slot: &mut Symbol| {
+                if used > 32 - MAX_SYMBOL_BITS {
+                    (buf, used) = reader.refill(used);
                 }
-                let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2) + (buf & !(u32::MAX << bits)) as usize;
+                let i = state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
                 buf >>= bits;
-                at += bits as usize;
+                used += bits;
+                lane = (lane + 1) % LANES;
+            };
+            let (pairs, rest) = out.as_chunks_mut::<2>();
+            for [a, b] in pairs {
+                one(a);
+                one(b);
             }
+            for slot in rest {
+                one(slot);
+            }
+            let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -3364,34 +3616,38 @@ pub mod five_bare {
         }
         Ok(to + len)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
-    /// How to put a symbol into the state: from state `x` the encoder writes
-    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits, then goes to state
-    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`.
-    struct Put {
-        spend: u16,
-        run: u16,
-    }
-    /// Decode steps by table position (the spread of symbols over the table).
-    static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::E, 3, 8), Step(Symbol::A, 2, 0), Step(Symbol::B, 2, 0), Step(Symbol::C, 3, 40), Step(Symbol::D, 3, 16), Step(Symbol::E, 3, 16), Step(Symbol::A, 2, 4), Step(Symbol::B, 2, 4), // 0
-        Step(Symbol::C, 3, 48), Step(Symbol::A, 2, 8), Step(Symbol::B, 2, 8), Step(Symbol::D, 3, 24), Step(Symbol::E, 3, 24), Step(Symbol::C, 3, 56), Step(Symbol::A, 2, 12), Step(Symbol::B, 2, 12), // 8
-        Step(Symbol::A, 2, 16), Step(Symbol::B, 2, 16), Step(Symbol::C, 2, 0), Step(Symbol::D, 3, 32), Step(Symbol::E, 3, 32), Step(Symbol::A, 2, 20), Step(Symbol::B, 2, 20), Step(Symbol::C, 2, 4), // 16
-        Step(Symbol::D, 3, 40), Step(Symbol::E, 3, 40), Step(Symbol::A, 2, 24), Step(Symbol::B, 2, 24), Step(Symbol::C, 2, 8), Step(Symbol::A, 2, 28), Step(Symbol::B, 2, 28), Step(Symbol::D, 3, 48), // 24
-        Step(Symbol::E, 3, 48), Step(Symbol::C, 2, 12), Step(Symbol::A, 2, 32), Step(Symbol::B, 2, 32), Step(Symbol::A, 2, 36), Step(Symbol::B, 2, 36), Step(Symbol::C, 2, 16), Step(Symbol::D, 3, 56), // 32
-        Step(Symbol::E, 3, 56), Step(Symbol::A, 2, 40), Step(Symbol::B, 2, 40), Step(Symbol::C, 2, 20), Step(Symbol::D, 2, 0), Step(Symbol::E, 2, 0), Step(Symbol::A, 2, 44), Step(Symbol::B, 2, 44), // 40
-        Step(Symbol::C, 2, 24), Step(Symbol::A, 2, 48), Step(Symbol::B, 2, 48), Step(Symbol::D, 2, 4), Step(Symbol::E, 2, 4), Step(Symbol::C, 2, 28), Step(Symbol::A, 2, 52), Step(Symbol::B, 2, 52), // 48
-        Step(Symbol::A, 2, 56), Step(Symbol::B, 2, 56), Step(Symbol::C, 2, 32), Step(Symbol::D, 2, 8), Step(Symbol::A, 2, 60), Step(Symbol::B, 2, 60), Step(Symbol::C, 2, 36), Step(Symbol::D, 2, 12), // 56
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 0
+        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 8
+        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, // 16
+        Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::A, Symbol::B, Symbol::D, // 24
+        Symbol::E, Symbol::C, Symbol::A, Symbol::B, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 32
+        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 40
+        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 48
+        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 56
     ];
-    /// Encoding records, indexed by input value.
-    static PUTS: [Put; 5] = [
-        Put { spend: 192, run: 48 }, // a
-        Put { spend: 192, run: 0 }, // b
-        Put { spend: 280, run: 19 }, // c
-        Put { spend: 304, run: 35 }, // d
-        Put { spend: 312, run: 46 }, // e
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        12296, 8192, 8192, 12328, 12304, 12304, 8196, 8196, 12336, 8200, 8200, 12312, 12312, 12344, 8204, 8204, // 0
+        8208, 8208, 8192, 12320, 12320, 8212, 8212, 8196, 12328, 12328, 8216, 8216, 8200, 8220, 8220, 12336, // 16
+        12336, 8204, 8224, 8224, 8228, 8228, 8208, 12344, 12344, 8232, 8232, 8212, 8192, 8192, 8236, 8236, // 32
+        8216, 8240, 8240, 8196, 8196, 8220, 8244, 8244, 8248, 8248, 8224, 8200, 8252, 8252, 8228, 8204, // 48
+    ];
+    /// Encoding, by input value: from state `x` the encoder writes
+    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
+    /// value outside the alphabet.
+    static SPEND: [u16; 5] = [
+        192, 192, 280, 304, 312, // a ..
+    ];
+    /// See [`SPEND`].
+    static RUN: [u16; 5] = [
+        48, 0, 19, 35, 46, // a ..
     ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
@@ -3401,8 +3657,10 @@ pub mod five_bare {
         67, 72, 77, 82, 87, 92, 97, 102, 107, 112, 117, 122, 126, 68, 75, 83, // 32
         88, 95, 103, 108, 115, 123, 127, 64, 69, 76, 84, 89, 96, 104, 109, 116, // 48
     ];
-    const _: [(); 256] = [(); ::core::mem::size_of_val(&DECODE)];
-    const _: [(); 20] = [(); ::core::mem::size_of_val(&PUTS)];
+    const _: [(); 64] = [(); ::core::mem::size_of_val(&SYMBOLS)];
+    const _: [(); 128] = [(); ::core::mem::size_of_val(&STEPS)];
+    const _: [(); 10] = [(); ::core::mem::size_of_val(&SPEND)];
+    const _: [(); 10] = [(); ::core::mem::size_of_val(&RUN)];
     const _: [(); 64] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `five_rans`: 5 symbols, rANS, 4 lane(s), table of 2^6 = 64 slots.
@@ -3576,7 +3834,8 @@ pub mod five_rans {
         let mut state = [LOW; LANES];
         let (rounds, rest) = input.as_chunks::<LANES>();
         for (lane, &symbol) in rest.iter().enumerate().rev() {
-            let put = &PUTS[symbol as usize];
+            let row = symbol as usize;
+            let put = &PUTS[row];
             let x = shed(state[lane % LANES], put, out, &mut pos)?;
             state[lane % LANES] = put_symbol(x, put);
         }
@@ -3586,7 +3845,8 @@ pub mod five_rans {
                 let top = pos;
                 for lane in (0..LANES).rev() {
                     let symbol = round[lane];
-                    let put = &PUTS[symbol as usize];
+                    let row = symbol as usize;
+                    let put = &PUTS[row];
                     let x = state[lane];
                     let shed = u32::from(x > put.ceiling);
                     let at = (2 * LANES - 2).saturating_sub(top.wrapping_sub(pos));
@@ -3602,7 +3862,8 @@ pub mod five_rans {
             } else {
                 for lane in (0..LANES).rev() {
                     let symbol = round[lane];
-                    let put = &PUTS[symbol as usize];
+                    let row = symbol as usize;
+                    let put = &PUTS[row];
                     let x = shed(state[lane], put, out, &mut pos)?;
                     state[lane] = put_symbol(x, put);
                 }
@@ -3856,7 +4117,7 @@ pub mod five_rans {
 /// | with the rounded slots | 0.469015 |
 /// | exact rate of these tables | 0.469018 |
 ///
-/// Excess: 0.000022 bits/symbol (0.005 % above the entropy). Tables: 648 bytes. Spread: tuned (copies placed for the true probabilities).
+/// Excess: 0.000022 bits/symbol (0.005 % above the entropy). Tables: 520 bytes. Spread: tuned (copies placed for the true probabilities).
 /// Trained on 100 symbols; 0 training sequence(s) round-tripped at generation time into 0 bytes.
 ///
 /// | symbol | count | slots | ideal bits | coded bits |
@@ -3966,15 +4227,25 @@ pub mod skewed_l8 {
             .saturating_add(LANES * TABLE_BITS as usize + 7);
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
-    /// One encoder step from state `x`: the bit count, the bits above them (`x >> bits`,
-    /// the copy number whose state comes next) and the next state.
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
+    /// and the next state.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn put_symbol(x: u32, put: &Put) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(put.spend)) >> (TABLE_BITS + 1);
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(put.run)) & MASK];
+        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
         (bits, high, u32::from(next))
+    }
+    /// The decode step at table position `i`: the bits to read, and the position they
+    /// are added to.
+    #[inline(always)]
+    #[allow(clippy::useless_conversion)]
+    fn step(i: usize) -> (u32, usize) {
+        let step = u32::from(STEPS[i]);
+        let bits = step >> STEP_SHIFT;
+        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
@@ -4048,9 +4319,9 @@ pub mod skewed_l8 {
             let mut pending: u32 = 0;
             let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
+                let row = symbol as usize;
                 let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+                let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
                 state[i % LANES] = next;
                 pending += bits;
@@ -4064,9 +4335,9 @@ pub mod skewed_l8 {
                     let top = pos;
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -4086,9 +4357,9 @@ pub mod skewed_l8 {
                 } else {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
-                        let put = &PUTS[symbol as usize];
+                        let row = symbol as usize;
                         let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, put);
+                        let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
                         state[i % LANES] = next;
                         pending += bits;
@@ -4154,10 +4425,10 @@ pub mod skewed_l8 {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let step = &DECODE[*x & MASK];
-                    *slot = step.0;
-                    let bits = u32::from(step.1);
-                    *x = usize::from(step.2) + (buf & !(u64::MAX << bits)) as usize;
+                    let at_x = *x & MASK;
+                    *slot = SYMBOLS[at_x];
+                    let (bits, base) = step(at_x);
+                    *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
                 }
@@ -4165,11 +4436,10 @@ pub mod skewed_l8 {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2)
-                    + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                let at_x = *x & MASK;
+                *slot = SYMBOLS[at_x];
+                let (bits, base) = step(at_x);
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
             if at.div_ceil(8) > payload.len() {
@@ -4210,33 +4480,54 @@ pub mod skewed_l8 {
             TABLE_BITS
         };
         /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above this value fewer than `MOST` bits are free, and it is flushed.
-        const FULL: u32 = 1 << (32 - MOST);
-        /// Stores the whole bytes of the pending bits (below the marker bit of `acc`) in
-        /// front of `pos`, and keeps the rest.
-        #[inline(always)]
-        fn flush(out: &mut [u8], pos: &mut usize, acc: &mut u32) -> Result<(), Error> {
-            let pending = 31 - acc.leading_zeros();
-            let whole = (pending >> 3) as usize;
-            let bytes = acc.wrapping_shl(32 - pending).to_le_bytes();
-            let Some(start) = pos.checked_sub(whole) else {
-                return Err(Error::OutputTooSmall);
-            };
-            match out.get_mut(..*pos).and_then(<[u8]>::last_chunk_mut::<4>) {
-                Some(dst) => *dst = bytes,
-                None => {
-                    let Some(dst) = out.get_mut(start..*pos) else {
-                        return Err(Error::OutputTooSmall);
-                    };
-                    for (d, s) in dst.iter_mut().zip(&bytes[4 - whole..]) {
-                        *d = *s;
+        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
+        /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
+        /// loop (its stores are rare), so that the loop's values stay in registers.
+        struct Writer<'a> {
+            out: &'a mut [u8],
+            pos: usize,
+        }
+        impl Writer<'_> {
+            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
+            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
+            /// is too small.
+            #[inline(never)]
+            fn flush(&mut self, acc: u32) -> Option<u32> {
+                let pending = 31u32.wrapping_sub(acc.leading_zeros());
+                let whole = (pending >> 3) as usize;
+                let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
+                let start = self.pos.checked_sub(whole)?;
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
+                {
+                    Some(dst) => *dst = bytes,
+                    None => {
+                        let dst = self.out.get_mut(start..self.pos)?;
+                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                        for (d, s) in dst.iter_mut().zip(src) {
+                            *d = *s;
+                        }
                     }
                 }
+                self.pos = start;
+                let drop = 31 - (pending & 7);
+                Some(((acc << drop) | 1 << 31) >> drop)
             }
-            *pos = start;
-            let rest = pending & 7;
-            *acc = (*acc & !(u32::MAX << rest)) | (1 << rest);
-            Ok(())
+        }
+        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
+        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        struct Reader<'a> {
+            data: &'a [u8],
+            byte: usize,
+        }
+        impl Reader<'_> {
+            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
+            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            #[inline(never)]
+            fn refill(&mut self, used: u32) -> (u32, u32) {
+                self.byte += (used >> 3) as usize;
+                let used = used & 7;
+                (word(self.data, self.byte) >> used, used)
+            }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
         ///
@@ -4245,28 +4536,45 @@ pub mod skewed_l8 {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut pos = out.len();
+            let mut writer = Writer { pos: out.len(), out };
             let mut state = [TABLE_LEN as u32; LANES];
             let mut acc: u32 = 1;
-            for (i, &symbol) in input.iter().enumerate().rev() {
-                let put = &PUTS[symbol as usize];
-                let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, put);
+            let mut lane = input.len().wrapping_sub(1) % LANES;
+            let mut full = false;
+            let mut one = |symbol: Symbol| {
+                let row = symbol as usize;
+                let x = state[lane];
+                let (bits, high, next) = put_symbol(x, row);
                 acc = ((acc ^ high) << bits) ^ x;
-                state[i % LANES] = next;
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                state[lane] = next;
+                lane = (lane + LANES - 1) % LANES;
+                if acc >> (32 - MOST) != 0 {
+                    match writer.flush(acc) {
+                        Some(rest) => acc = rest,
+                        None => full = true,
+                    }
                 }
+            };
+            let (rest, pairs) = input.as_rchunks::<2>();
+            for &[a, b] in pairs.iter().rev() {
+                one(b);
+                one(a);
+            }
+            for &symbol in rest.iter().rev() {
+                one(symbol);
+            }
+            if full {
+                return Err(Error::OutputTooSmall);
             }
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
-                if acc >= FULL {
-                    flush(out, &mut pos, &mut acc)?;
+                if acc >> (32 - MOST) != 0 {
+                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
-            let pad = (8 - (31 - acc.leading_zeros()) % 8) % 8;
-            acc <<= pad;
-            flush(out, &mut pos, &mut acc)?;
+            let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
+            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
+            let Writer { out, pos } = writer;
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -4300,21 +4608,33 @@ pub mod skewed_l8 {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut buf = peek(payload, at);
-            let mut good = (at & !7) + 32;
-            for (i, slot) in out.iter_mut().enumerate() {
-                if at + MAX_SYMBOL_BITS as usize > good {
-                    buf = peek(payload, at);
-                    good = (at & !7) + 32;
+            let mut reader = Reader {
+                data: payload,
+                byte: at >> 3,
+            };
+            let (mut buf, mut used) = reader.refill((at & 7) as u32);
+            let mut lane = 0;
+            let mut one = |slot: &mut Symbol| {
+                if used > 32 - MAX_SYMBOL_BITS {
+                    (buf, used) = reader.refill(used);
                 }
-                let x = &mut state[i % LANES];
-                let step = &DECODE[*x & MASK];
-                *slot = step.0;
-                let bits = u32::from(step.1);
-                *x = usize::from(step.2) + (buf & !(u32::MAX << bits)) as usize;
+                let i = state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
                 buf >>= bits;
-                at += bits as usize;
+                used += bits;
+                lane = (lane + 1) % LANES;
+            };
+            let (pairs, rest) = out.as_chunks_mut::<2>();
+            for [a, b] in pairs {
+                one(a);
+                one(b);
             }
+            for slot in rest {
+                one(slot);
+            }
+            let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -4379,39 +4699,50 @@ pub mod skewed_l8 {
         }
         Ok(to + len)
     }
-    /// One decode step, `Step(symbol, bits, base)`: at table position `i` the decoder
-    /// emits `symbol`, reads `bits` bits `b`, and goes to position `base + b`.
-    struct Step(Symbol, u8, u16);
-    /// How to put a symbol into the state: from state `x` the encoder writes
-    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits, then goes to state
-    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`.
-    struct Put {
-        spend: u16,
-        run: u16,
-    }
-    /// Decode steps by table position (the spread of symbols over the table).
-    static DECODE: [Step; TABLE_LEN] = [
-        Step(Symbol::Likely, 1, 102), Step(Symbol::Likely, 1, 104), Step(Symbol::Likely, 1, 106), Step(Symbol::Likely, 1, 108), Step(Symbol::Likely, 1, 110), Step(Symbol::Likely, 1, 112), Step(Symbol::Unlikely, 4, 80), Step(Symbol::Likely, 1, 114), // 0
-        Step(Symbol::Likely, 1, 116), Step(Symbol::Likely, 1, 118), Step(Symbol::Likely, 1, 120), Step(Symbol::Likely, 1, 122), Step(Symbol::Likely, 1, 124), Step(Symbol::Likely, 1, 126), Step(Symbol::Likely, 0, 0), Step(Symbol::Likely, 0, 1), // 8
-        Step(Symbol::Unlikely, 4, 96), Step(Symbol::Likely, 0, 2), Step(Symbol::Likely, 0, 3), Step(Symbol::Likely, 0, 4), Step(Symbol::Likely, 0, 5), Step(Symbol::Likely, 0, 6), Step(Symbol::Likely, 0, 7), Step(Symbol::Likely, 0, 8), // 16
-        Step(Symbol::Likely, 0, 9), Step(Symbol::Likely, 0, 10), Step(Symbol::Unlikely, 4, 112), Step(Symbol::Likely, 0, 11), Step(Symbol::Likely, 0, 12), Step(Symbol::Likely, 0, 13), Step(Symbol::Likely, 0, 14), Step(Symbol::Likely, 0, 15), // 24
-        Step(Symbol::Likely, 0, 16), Step(Symbol::Likely, 0, 17), Step(Symbol::Likely, 0, 18), Step(Symbol::Likely, 0, 19), Step(Symbol::Unlikely, 3, 0), Step(Symbol::Likely, 0, 20), Step(Symbol::Likely, 0, 21), Step(Symbol::Likely, 0, 22), // 32
-        Step(Symbol::Likely, 0, 23), Step(Symbol::Likely, 0, 24), Step(Symbol::Likely, 0, 25), Step(Symbol::Likely, 0, 26), Step(Symbol::Likely, 0, 27), Step(Symbol::Likely, 0, 28), Step(Symbol::Unlikely, 3, 8), Step(Symbol::Likely, 0, 29), // 40
-        Step(Symbol::Likely, 0, 30), Step(Symbol::Likely, 0, 31), Step(Symbol::Likely, 0, 32), Step(Symbol::Likely, 0, 33), Step(Symbol::Likely, 0, 34), Step(Symbol::Likely, 0, 35), Step(Symbol::Likely, 0, 36), Step(Symbol::Likely, 0, 37), // 48
-        Step(Symbol::Unlikely, 3, 16), Step(Symbol::Likely, 0, 38), Step(Symbol::Likely, 0, 39), Step(Symbol::Likely, 0, 40), Step(Symbol::Likely, 0, 41), Step(Symbol::Likely, 0, 42), Step(Symbol::Likely, 0, 43), Step(Symbol::Likely, 0, 44), // 56
-        Step(Symbol::Likely, 0, 45), Step(Symbol::Likely, 0, 46), Step(Symbol::Unlikely, 3, 24), Step(Symbol::Likely, 0, 47), Step(Symbol::Likely, 0, 48), Step(Symbol::Likely, 0, 49), Step(Symbol::Likely, 0, 50), Step(Symbol::Likely, 0, 51), // 64
-        Step(Symbol::Likely, 0, 52), Step(Symbol::Likely, 0, 53), Step(Symbol::Likely, 0, 54), Step(Symbol::Likely, 0, 55), Step(Symbol::Unlikely, 3, 32), Step(Symbol::Likely, 0, 56), Step(Symbol::Likely, 0, 57), Step(Symbol::Likely, 0, 58), // 72
-        Step(Symbol::Likely, 0, 59), Step(Symbol::Likely, 0, 60), Step(Symbol::Likely, 0, 61), Step(Symbol::Likely, 0, 62), Step(Symbol::Likely, 0, 63), Step(Symbol::Likely, 0, 64), Step(Symbol::Unlikely, 3, 40), Step(Symbol::Likely, 0, 65), // 80
-        Step(Symbol::Likely, 0, 66), Step(Symbol::Likely, 0, 67), Step(Symbol::Likely, 0, 68), Step(Symbol::Likely, 0, 69), Step(Symbol::Likely, 0, 70), Step(Symbol::Likely, 0, 71), Step(Symbol::Likely, 0, 72), Step(Symbol::Likely, 0, 73), // 88
-        Step(Symbol::Unlikely, 3, 48), Step(Symbol::Likely, 0, 74), Step(Symbol::Likely, 0, 75), Step(Symbol::Likely, 0, 76), Step(Symbol::Likely, 0, 77), Step(Symbol::Likely, 0, 78), Step(Symbol::Likely, 0, 79), Step(Symbol::Likely, 0, 80), // 96
-        Step(Symbol::Likely, 0, 81), Step(Symbol::Likely, 0, 82), Step(Symbol::Unlikely, 3, 56), Step(Symbol::Likely, 0, 83), Step(Symbol::Likely, 0, 84), Step(Symbol::Likely, 0, 85), Step(Symbol::Likely, 0, 86), Step(Symbol::Likely, 0, 87), // 104
-        Step(Symbol::Likely, 0, 88), Step(Symbol::Likely, 0, 89), Step(Symbol::Likely, 0, 90), Step(Symbol::Likely, 0, 91), Step(Symbol::Unlikely, 3, 64), Step(Symbol::Likely, 0, 92), Step(Symbol::Likely, 0, 93), Step(Symbol::Likely, 0, 94), // 112
-        Step(Symbol::Likely, 0, 95), Step(Symbol::Likely, 0, 96), Step(Symbol::Likely, 0, 97), Step(Symbol::Likely, 0, 98), Step(Symbol::Likely, 0, 99), Step(Symbol::Likely, 0, 100), Step(Symbol::Unlikely, 3, 72), Step(Symbol::Likely, 0, 101), // 120
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 0
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 8
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 16
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 24
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 32
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 40
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 48
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 56
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 64
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 72
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 80
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 88
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 96
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 104
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 112
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 120
     ];
-    /// Encoding records, indexed by input value.
-    static PUTS: [Put; 2] = [
-        Put { spend: 26, run: 13 }, // likely
-        Put { spend: 816, run: 102 }, // unlikely
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        4198, 4200, 4202, 4204, 4206, 4208, 16464, 4210, 4212, 4214, 4216, 4218, 4220, 4222, 0, 1, // 0
+        16480, 2, 3, 4, 5, 6, 7, 8, 9, 10, 16496, 11, 12, 13, 14, 15, // 16
+        16, 17, 18, 19, 12288, 20, 21, 22, 23, 24, 25, 26, 27, 28, 12296, 29, // 32
+        30, 31, 32, 33, 34, 35, 36, 37, 12304, 38, 39, 40, 41, 42, 43, 44, // 48
+        45, 46, 12312, 47, 48, 49, 50, 51, 52, 53, 54, 55, 12320, 56, 57, 58, // 64
+        59, 60, 61, 62, 63, 64, 12328, 65, 66, 67, 68, 69, 70, 71, 72, 73, // 80
+        12336, 74, 75, 76, 77, 78, 79, 80, 81, 82, 12344, 83, 84, 85, 86, 87, // 96
+        88, 89, 90, 91, 12352, 92, 93, 94, 95, 96, 97, 98, 99, 100, 12360, 101, // 112
+    ];
+    /// Encoding, by input value: from state `x` the encoder writes
+    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
+    /// value outside the alphabet.
+    static SPEND: [u16; 2] = [
+        26, 816, // likely ..
+    ];
+    /// See [`SPEND`].
+    static RUN: [u16; 2] = [
+        13, 102, // likely ..
     ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
@@ -4486,7 +4817,9 @@ pub mod skewed_l8 {
             Err(_) => Err(Error::BadLength),
         }
     }
-    const _: [(); 512] = [(); ::core::mem::size_of_val(&DECODE)];
-    const _: [(); 8] = [(); ::core::mem::size_of_val(&PUTS)];
+    const _: [(); 128] = [(); ::core::mem::size_of_val(&SYMBOLS)];
+    const _: [(); 256] = [(); ::core::mem::size_of_val(&STEPS)];
+    const _: [(); 4] = [(); ::core::mem::size_of_val(&SPEND)];
+    const _: [(); 4] = [(); ::core::mem::size_of_val(&RUN)];
     const _: [(); 128] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
