@@ -1,0 +1,26 @@
+//! Arbitrary text as a spec: parsing and rendering may refuse it, never panic.
+
+use precast::spec::Source;
+use std::path::Path;
+
+// Above 2^10 slots rendering gets slow enough to starve the fuzzer of executions.
+const MAX_RENDER_TABLE_BITS: u32 = 10;
+
+/// Parses `data` as a spec, and renders it when that is pure and quick (see the module docs).
+pub fn check_parse_spec(data: &[u8]) {
+    let Ok(text) = std::str::from_utf8(data) else {
+        return;
+    };
+    let path = Path::new("fuzz.toml");
+    let Ok(spec) = precast::spec::parse(text, path) else {
+        return;
+    };
+    // Samples would read files relative to the working directory: keep it pure.
+    let renderable = spec.codecs.iter().all(|c| {
+        c.scale_bits <= MAX_RENDER_TABLE_BITS
+            && !c.sources.iter().any(|s| matches!(s, Source::Sample { .. }))
+    });
+    if renderable {
+        let _ = precast::render_str(text, path);
+    }
+}
