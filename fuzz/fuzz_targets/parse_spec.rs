@@ -1,27 +1,11 @@
 //! Arbitrary text as a spec: parsing and rendering may refuse it, never panic.
+//! The check itself is in `fuzz/checks/parse_spec.rs`, shared with `tests/fuzz_seeds.rs`.
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
-use precast::spec::Source;
-use std::path::Path;
 
-// Above 2^10 slots rendering gets slow enough to starve the fuzzer of executions.
-const MAX_RENDER_TABLE_BITS: u32 = 10;
+#[allow(dead_code)]
+#[path = "../checks/mod.rs"]
+mod checks;
 
-fuzz_target!(|data: &[u8]| {
-    let Ok(text) = std::str::from_utf8(data) else {
-        return;
-    };
-    let path = Path::new("fuzz.toml");
-    let Ok(spec) = precast::spec::parse(text, path) else {
-        return;
-    };
-    // Samples would read files relative to the working directory: keep it pure.
-    let renderable = spec.codecs.iter().all(|c| {
-        c.table_bits <= MAX_RENDER_TABLE_BITS
-            && !c.sources.iter().any(|s| matches!(s, Source::Sample { .. }))
-    });
-    if renderable {
-        let _ = precast::render_str(text, path);
-    }
-});
+fuzz_target!(|data: &[u8]| checks::parse_spec::check_parse_spec(data));
