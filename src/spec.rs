@@ -4,7 +4,7 @@
 //! codec once, key by key, before any value is read.
 
 use crate::error::{Error, Location, Result};
-use crate::kind::{self, Kind};
+use crate::kind::{self, a_type, Kind};
 use std::ops::Range;
 use std::path::{Path, PathBuf};
 use std::sync::Arc;
@@ -149,10 +149,18 @@ pub fn parse(text: &str, path: &Path) -> Result<Spec> {
         Ok(doc) => doc,
         Err(e) => {
             let at = e.span().map_or(0, |s| s.start);
-            return Err(Error::input(
-                Some(Location::at(path, text, at)),
-                e.message().trim().to_string(),
-            ));
+            let mut message = e.message().trim().to_string();
+            // The parser's message does not say which key; the span starts at it.
+            if message == "duplicate key" {
+                let key: String = text[at.min(text.len())..]
+                    .chars()
+                    .take_while(|c| !matches!(c, '=' | ']' | '\n') && !c.is_whitespace())
+                    .collect();
+                if !key.is_empty() {
+                    message = format!("duplicate key `{key}`");
+                }
+            }
+            return Err(Error::input(Some(Location::at(path, text, at)), message));
         }
     };
     let mut errors: Vec<(usize, Error)> = Vec::new();
@@ -168,7 +176,7 @@ pub fn parse(text: &str, path: &Path) -> Result<Spec> {
             (k @ ("defaults" | "codec"), other) => errors.push(checker.error(
                 value.span(),
                 None,
-                format!("`{k}` must be a table, found {}", other.type_str()),
+                format!("`{k}` must be a table, found {}", a_type(other)),
             )),
             (k, _) => {
                 errors.push(checker.error(key.span(), None, unknown_key(k, &["defaults", "codec"])))
@@ -194,7 +202,7 @@ pub fn parse(text: &str, path: &Path) -> Result<Spec> {
                 Some(name_text),
                 format!(
                     "a codec is a table `[codec.{name_text}]`, found {}",
-                    table.get_ref().type_str()
+                    a_type(table.get_ref())
                 ),
             ));
             continue;
@@ -325,21 +333,22 @@ impl Checker<'_> {
                 "symbol_lookup = \"search\" applies to method = \"rans\"; a tANS decoder always reads its state table".to_string(),
             );
         }
-        let lanes = self.number(keys, "lanes", 1, &mut fail, |n| {
+        let lanes = self.number(keys, "lanes", 1, &mut fail, |n, written| {
             LANES
                 .into_iter()
                 .find(|&l| i128::from(l) == n)
-                .ok_or_else(|| format!("lanes = {n} is not available: expected 1, 2, 4 or 8"))
+                .ok_or_else(|| format!("lanes = {written} is not available: expected 1, 2, 4 or 8"))
         });
-        let table_bits = self.number(keys, "table_bits", DEFAULT_TABLE_BITS, &mut fail, |n| {
-            if (i128::from(MIN_TABLE_BITS)..=i128::from(MAX_TABLE_BITS)).contains(&n) {
-                Ok(n as u32)
-            } else {
-                Err(format!(
-                    "table_bits = {n} is out of range: expected {MIN_TABLE_BITS} to {MAX_TABLE_BITS}"
-                ))
-            }
-        });
+        let table_bits =
+            self.number(keys, "table_bits", DEFAULT_TABLE_BITS, &mut fail, |n, written| {
+                if (i128::from(MIN_TABLE_BITS)..=i128::from(MAX_TABLE_BITS)).contains(&n) {
+                    Ok(n as u32)
+                } else {
+                    Err(format!(
+                        "table_bits = {written} is out of range: expected {MIN_TABLE_BITS} to {MAX_TABLE_BITS}"
+                    ))
+                }
+            });
 
         let alphabet =
             kind_entry.and_then(
@@ -478,14 +487,15 @@ impl Checker<'_> {
         key: &str,
         default: u32,
         fail: &mut impl FnMut(Range<usize>, String),
-        accept: impl Fn(i128) -> std::result::Result<u32, String>,
+        accept: impl Fn(i128, &str) -> std::result::Result<u32, String>,
     ) -> Option<u32> {
         let Some(v) = keys.get(key) else {
             return Some(default);
         };
+        let written = self.text.get(v.span()).unwrap_or_default().trim();
         let checked = integer(v.get_ref())
             .map_err(|found| type_error(key, "an integer", found))
-            .and_then(accept);
+            .and_then(|n| accept(n, written));
         match checked {
             Ok(n) => Some(n),
             Err(m) => {
@@ -542,7 +552,7 @@ impl Checker<'_> {
             let index = match kind.count_key(k) {
                 Ok(i) => i,
                 Err(m) => {
-                    errors.push((value.span(), m));
+                    errors.push((key.span(), m));
                     continue;
                 }
             };
@@ -553,17 +563,18 @@ impl Checker<'_> {
                     continue;
                 }
             };
+            let written = self.text.get(value.span()).unwrap_or_default().trim();
             if v < 0 {
                 errors.push((
                     value.span(),
-                    format!("count {v} for {} is negative", kind.describe(index)),
+                    format!("count {written} for {} is negative", kind.describe(index)),
                 ));
                 continue;
             }
             let Ok(v) = u64::try_from(v) else {
                 errors.push((
                     value.span(),
-                    format!("count {v} for {} is too large", kind.describe(index)),
+                    format!("count {written} for {} is too large", kind.describe(index)),
                 ));
                 continue;
             };
@@ -589,20 +600,23 @@ impl Checker<'_> {
     }
 }
 
-/// The integer in `v`, or `v` itself when it is something else.
+/// The integer in `v`, or `v` itself when it is something else. An integer too large for
+/// any key saturates, so that range checks report it as out of range.
 fn integer<'v, 'i>(v: &'v DeValue<'i>) -> std::result::Result<i128, &'v DeValue<'i>> {
     match v {
-        DeValue::Integer(i) => i128::from_str_radix(i.as_str(), i.radix()).map_err(|_| v),
+        DeValue::Integer(i) => Ok(i128::from_str_radix(i.as_str(), i.radix()).unwrap_or(
+            if i.as_str().starts_with('-') {
+                i128::MIN
+            } else {
+                i128::MAX
+            },
+        )),
         other => Err(other),
     }
 }
 
 fn type_error(key: &str, expected: &str, found: &DeValue<'_>) -> String {
-    let article = match found.type_str() {
-        t @ ("integer" | "array" | "inline table") => format!("an {t}"),
-        t => format!("a {t}"),
-    };
-    format!("`{key}` must be {expected}, found {article}")
+    format!("`{key}` must be {expected}, found {}", a_type(found))
 }
 
 /// "unknown key `knd`", with the closest known key when one is near.

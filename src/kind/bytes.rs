@@ -1,6 +1,6 @@
 //! `kind = "bytes"`: symbols are byte values, `Symbol = u8`.
 
-use super::{InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
+use super::{a_type, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
 use proc_macro2::{Literal, TokenStream};
 use quote::quote;
 use std::ops::Range;
@@ -44,7 +44,7 @@ fn read(
                                 Some(b) => values.push((b, item.span())),
                                 None => errors.push((
                                     item.span(),
-                                    format!("byte value {} is out of range 0..=255", i.as_str()),
+                                    format!("byte value {i} is out of range 0..=255"),
                                 )),
                             }
                         }
@@ -57,7 +57,7 @@ fn read(
                         )),
                         other => errors.push((
                             item.span(),
-                            format!("a byte symbol is an integer or a one-byte string, found {}", other.type_str()),
+                            format!("a byte symbol is an integer or a one-byte string, found {}", a_type(other)),
                         )),
                     }
                 }
@@ -66,7 +66,7 @@ fn read(
                 raw.span(),
                 format!(
                     "`symbols` of a bytes codec is a string or a list of byte values, found {}",
-                    other.type_str()
+                    a_type(other)
                 ),
             )),
         },

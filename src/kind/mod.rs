@@ -50,6 +50,14 @@ pub fn names() -> String {
     }
 }
 
+/// A TOML value's type with its article, for messages: "a string", "an integer".
+pub fn a_type(v: &DeValue<'_>) -> String {
+    match v.type_str() {
+        t @ ("integer" | "array" | "inline table") => format!("an {t}"),
+        t => format!("a {t}"),
+    }
+}
+
 /// A symbol of the training data that is not in the alphabet: where and what.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Misfit {

@@ -1,7 +1,7 @@
 //! `kind = "tokens"`: symbols are named tokens; `Symbol` is a generated enum with one
 //! UpperCamelCase variant per token, in spec order.
 
-use super::{InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
+use super::{a_type, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
 use proc_macro2::{Ident, Span, TokenStream};
 use quote::quote;
 use std::collections::BTreeMap;
@@ -52,7 +52,7 @@ fn read(
                 raw.span(),
                 format!(
                     "`symbols` of a tokens codec is an array of names, found {}",
-                    other.type_str()
+                    a_type(other)
                 ),
             )])
         }
@@ -66,14 +66,14 @@ fn read(
             DeValue::Integer(i) => {
                 errors.push((
                     item.span(),
-                    format!("token names are strings, found the number {}", i.as_str()),
+                    format!("token names are strings, found the number {i}"),
                 ));
                 continue;
             }
             other => {
                 errors.push((
                     item.span(),
-                    format!("token names are strings, found {}", other.type_str()),
+                    format!("token names are strings, found {}", a_type(other)),
                 ));
                 continue;
             }
@@ -95,7 +95,7 @@ fn read(
         let v = variant_name(&name);
         if let Some(other) = variants.insert(v.clone(), name.clone()) {
             errors.push((
-                raw.span(),
+                item.span(),
                 format!("tokens \"{other}\" and \"{name}\" both become the variant `{v}`"),
             ));
             continue;
