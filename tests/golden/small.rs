@@ -457,6 +457,86 @@ pub mod mit_text {
                 Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
+        impl Writer<'_> {
+            /// Stores the low 16 bits of `half` in front of `pos`; `false` when `out` is
+            /// too small.
+            #[inline(always)]
+            fn put16(&mut self, half: u32) -> bool {
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
+                {
+                    Some(dst) => {
+                        *dst = (half as u16).to_le_bytes();
+                        self.pos -= 2;
+                        true
+                    }
+                    None => false,
+                }
+            }
+        }
+        /// The encoder's running values, kept in registers by the symbol loop.
+        struct Encoding {
+            /// The pending bits under a marker bit.
+            acc: u32,
+            state: [u32; LANES],
+            lane: usize,
+            /// Not zero once a value outside the alphabet was seen.
+            absent: u32,
+            /// Set when `out` turned out too small.
+            full: bool,
+        }
+        impl Encoding {
+            /// Puts one symbol into its lane's state.
+            #[inline(always)]
+            #[allow(unused_mut, clippy::modulo_one)]
+            fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
+                let lane = self.lane % LANES;
+                let row = usize::from(symbol).min(123);
+                let mut absent = 0u32;
+                absent |= u32::from(RUN[row] >> 15);
+                self.absent |= absent;
+                let x = self.state[lane];
+                let (bits, high, next) = put_symbol(x, row);
+                self.acc = ((self.acc ^ high) << bits) ^ x;
+                self.state[lane] = next;
+                self.lane = (lane + LANES - 1) % LANES;
+                if self.acc >> (32 - MOST) != 0 {
+                    let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
+                    let top = self.acc >> keep;
+                    if writer.put16(top) {
+                        self.acc -= (top - 1) << keep;
+                    } else {
+                        self.full = true;
+                    }
+                }
+            }
+        }
+        /// The decoder's running values, kept in registers by the symbol loop.
+        struct Decoding {
+            /// The stream from the reader's byte on, of which the low `used` bits are
+            /// used.
+            buf: u32,
+            used: u32,
+            state: [usize; LANES],
+            lane: usize,
+        }
+        impl Decoding {
+            /// Decodes one symbol from its lane's state into `slot`.
+            #[inline(always)]
+            #[allow(clippy::modulo_one)]
+            fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
+                if self.used > 32 - MAX_SYMBOL_BITS {
+                    (self.buf, self.used) = reader.refill(self.used);
+                }
+                let lane = self.lane % LANES;
+                let i = self.state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.used += bits;
+                self.lane = (lane + 1) % LANES;
+            }
+        }
         /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
         /// symbol loop (refills are rare), so that the loop's values stay in registers.
         struct Reader<'a> {
@@ -481,37 +561,28 @@ pub mod mit_text {
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
             let mut writer = Writer { pos: out.len(), out };
-            let mut state = [TABLE_LEN as u32; LANES];
-            let mut acc: u32 = 1;
-            let mut absent: u32 = 0;
-            let mut lane = input.len().wrapping_sub(1) % LANES;
-            let mut full = false;
-            let mut one = |symbol: Symbol| {
-                let row = usize::from(symbol).min(123);
-                absent |= u32::from(RUN[row] >> 15);
-                let x = state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                acc = ((acc ^ high) << bits) ^ x;
-                state[lane] = next;
-                lane = (lane + LANES - 1) % LANES;
-                if acc >> (32 - MOST) != 0 {
-                    match writer.flush(acc) {
-                        Some(rest) => acc = rest,
-                        None => full = true,
-                    }
-                }
+            let state = [TABLE_LEN as u32; LANES];
+            let acc: u32 = 1;
+            let mut e = Encoding {
+                acc,
+                state,
+                lane: input.len().wrapping_sub(1) % LANES,
+                absent: 0,
+                full: false,
             };
             let (rest, pairs) = input.as_rchunks::<2>();
             for &[a, b] in pairs.iter().rev() {
-                one(b);
-                one(a);
+                e.one(&mut writer, b);
+                e.one(&mut writer, a);
             }
             for &symbol in rest.iter().rev() {
-                one(symbol);
+                e.one(&mut writer, symbol);
             }
-            if full {
+            if e.full {
                 return Err(Error::OutputTooSmall);
             }
+            let Encoding { mut acc, state, .. } = e;
+            let absent = e.absent;
             if absent != 0 {
                 let position = input
                     .iter()
@@ -567,28 +638,22 @@ pub mod mit_text {
                 data: payload,
                 byte: at >> 3,
             };
-            let (mut buf, mut used) = reader.refill((at & 7) as u32);
-            let mut lane = 0;
-            let mut one = |slot: &mut Symbol| {
-                if used > 32 - MAX_SYMBOL_BITS {
-                    (buf, used) = reader.refill(used);
-                }
-                let i = state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
-                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
-                buf >>= bits;
-                used += bits;
-                lane = (lane + 1) % LANES;
+            let (buf, used) = reader.refill((at & 7) as u32);
+            let mut d = Decoding {
+                buf,
+                used,
+                state,
+                lane: 0,
             };
             let (pairs, rest) = out.as_chunks_mut::<2>();
             for [a, b] in pairs {
-                one(a);
-                one(b);
+                d.one(&mut reader, a);
+                d.one(&mut reader, b);
             }
             for slot in rest {
-                one(slot);
+                d.one(&mut reader, slot);
             }
+            let Decoding { used, state, .. } = d;
             let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
@@ -1313,6 +1378,85 @@ pub mod five {
                 Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
+        impl Writer<'_> {
+            /// Stores the low 16 bits of `half` in front of `pos`; `false` when `out` is
+            /// too small.
+            #[inline(always)]
+            fn put16(&mut self, half: u32) -> bool {
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
+                {
+                    Some(dst) => {
+                        *dst = (half as u16).to_le_bytes();
+                        self.pos -= 2;
+                        true
+                    }
+                    None => false,
+                }
+            }
+        }
+        /// The encoder's running values, kept in registers by the symbol loop.
+        struct Encoding {
+            /// The pending bits under a marker bit.
+            acc: u32,
+            state: [u32; LANES],
+            lane: usize,
+            /// Not zero once a value outside the alphabet was seen.
+            absent: u32,
+            /// Set when `out` turned out too small.
+            full: bool,
+        }
+        impl Encoding {
+            /// Puts one symbol into its lane's state.
+            #[inline(always)]
+            #[allow(unused_mut, clippy::modulo_one)]
+            fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
+                let lane = self.lane % LANES;
+                let row = symbol as usize;
+                let mut absent = 0u32;
+                self.absent |= absent;
+                let x = self.state[lane];
+                let (bits, high, next) = put_symbol(x, row);
+                self.acc = ((self.acc ^ high) << bits) ^ x;
+                self.state[lane] = next;
+                self.lane = (lane + LANES - 1) % LANES;
+                if self.acc >> (32 - MOST) != 0 {
+                    let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
+                    let top = self.acc >> keep;
+                    if writer.put16(top) {
+                        self.acc -= (top - 1) << keep;
+                    } else {
+                        self.full = true;
+                    }
+                }
+            }
+        }
+        /// The decoder's running values, kept in registers by the symbol loop.
+        struct Decoding {
+            /// The stream from the reader's byte on, of which the low `used` bits are
+            /// used.
+            buf: u32,
+            used: u32,
+            state: [usize; LANES],
+            lane: usize,
+        }
+        impl Decoding {
+            /// Decodes one symbol from its lane's state into `slot`.
+            #[inline(always)]
+            #[allow(clippy::modulo_one)]
+            fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
+                if self.used > 32 - MAX_SYMBOL_BITS {
+                    (self.buf, self.used) = reader.refill(self.used);
+                }
+                let lane = self.lane % LANES;
+                let i = self.state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.used += bits;
+                self.lane = (lane + 1) % LANES;
+            }
+        }
         /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
         /// symbol loop (refills are rare), so that the loop's values stay in registers.
         struct Reader<'a> {
@@ -1337,35 +1481,28 @@ pub mod five {
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
             let mut writer = Writer { pos: out.len(), out };
-            let mut state = [TABLE_LEN as u32; LANES];
-            let mut acc: u32 = 1;
-            let mut lane = input.len().wrapping_sub(1) % LANES;
-            let mut full = false;
-            let mut one = |symbol: Symbol| {
-                let row = symbol as usize;
-                let x = state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                acc = ((acc ^ high) << bits) ^ x;
-                state[lane] = next;
-                lane = (lane + LANES - 1) % LANES;
-                if acc >> (32 - MOST) != 0 {
-                    match writer.flush(acc) {
-                        Some(rest) => acc = rest,
-                        None => full = true,
-                    }
-                }
+            let state = [TABLE_LEN as u32; LANES];
+            let acc: u32 = 1;
+            let mut e = Encoding {
+                acc,
+                state,
+                lane: input.len().wrapping_sub(1) % LANES,
+                absent: 0,
+                full: false,
             };
             let (rest, pairs) = input.as_rchunks::<2>();
             for &[a, b] in pairs.iter().rev() {
-                one(b);
-                one(a);
+                e.one(&mut writer, b);
+                e.one(&mut writer, a);
             }
             for &symbol in rest.iter().rev() {
-                one(symbol);
+                e.one(&mut writer, symbol);
             }
-            if full {
+            if e.full {
                 return Err(Error::OutputTooSmall);
             }
+            let Encoding { mut acc, state, .. } = e;
+            let _absent = e.absent;
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
@@ -1412,28 +1549,22 @@ pub mod five {
                 data: payload,
                 byte: at >> 3,
             };
-            let (mut buf, mut used) = reader.refill((at & 7) as u32);
-            let mut lane = 0;
-            let mut one = |slot: &mut Symbol| {
-                if used > 32 - MAX_SYMBOL_BITS {
-                    (buf, used) = reader.refill(used);
-                }
-                let i = state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
-                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
-                buf >>= bits;
-                used += bits;
-                lane = (lane + 1) % LANES;
+            let (buf, used) = reader.refill((at & 7) as u32);
+            let mut d = Decoding {
+                buf,
+                used,
+                state,
+                lane: 0,
             };
             let (pairs, rest) = out.as_chunks_mut::<2>();
             for [a, b] in pairs {
-                one(a);
-                one(b);
+                d.one(&mut reader, a);
+                d.one(&mut reader, b);
             }
             for slot in rest {
-                one(slot);
+                d.one(&mut reader, slot);
             }
+            let Decoding { used, state, .. } = d;
             let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
@@ -2011,6 +2142,66 @@ pub mod skewed {
                 Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
+        /// The encoder's running values, kept in registers by the symbol loop.
+        struct Encoding {
+            /// The pending bits under a marker bit.
+            acc: u32,
+            state: [u32; LANES],
+            lane: usize,
+            /// Not zero once a value outside the alphabet was seen.
+            absent: u32,
+            /// Set when `out` turned out too small.
+            full: bool,
+        }
+        impl Encoding {
+            /// Puts one symbol into its lane's state.
+            #[inline(always)]
+            #[allow(unused_mut, clippy::modulo_one)]
+            fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
+                let lane = self.lane % LANES;
+                let row = symbol as usize;
+                let mut absent = 0u32;
+                self.absent |= absent;
+                let x = self.state[lane];
+                let (bits, high, next) = put_symbol(x, row);
+                self.acc = ((self.acc ^ high) << bits) ^ x;
+                self.state[lane] = next;
+                self.lane = (lane + LANES - 1) % LANES;
+                if self.acc >> (32 - MOST) != 0 {
+                    match writer.flush(self.acc) {
+                        Some(rest) => self.acc = rest,
+                        None => self.full = true,
+                    }
+                }
+            }
+        }
+        /// The decoder's running values, kept in registers by the symbol loop.
+        struct Decoding {
+            /// The stream from the reader's byte on, of which the low `used` bits are
+            /// used.
+            buf: u32,
+            used: u32,
+            state: [usize; LANES],
+            lane: usize,
+        }
+        impl Decoding {
+            /// Decodes one symbol from its lane's state into `slot`.
+            #[inline(always)]
+            #[allow(clippy::modulo_one)]
+            fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
+                if self.used > 32 - MAX_SYMBOL_BITS {
+                    (self.buf, self.used) = reader.refill(self.used);
+                }
+                let lane = self.lane % LANES;
+                let i = self.state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.used += bits;
+                self.lane = (lane + 1) % LANES;
+            }
+        }
         /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
         /// symbol loop (refills are rare), so that the loop's values stay in registers.
         struct Reader<'a> {
@@ -2035,35 +2226,28 @@ pub mod skewed {
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
             let mut writer = Writer { pos: out.len(), out };
-            let mut state = [TABLE_LEN as u32; LANES];
-            let mut acc: u32 = 1;
-            let mut lane = input.len().wrapping_sub(1) % LANES;
-            let mut full = false;
-            let mut one = |symbol: Symbol| {
-                let row = symbol as usize;
-                let x = state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                acc = ((acc ^ high) << bits) ^ x;
-                state[lane] = next;
-                lane = (lane + LANES - 1) % LANES;
-                if acc >> (32 - MOST) != 0 {
-                    match writer.flush(acc) {
-                        Some(rest) => acc = rest,
-                        None => full = true,
-                    }
-                }
+            let state = [TABLE_LEN as u32; LANES];
+            let acc: u32 = 1;
+            let mut e = Encoding {
+                acc,
+                state,
+                lane: input.len().wrapping_sub(1) % LANES,
+                absent: 0,
+                full: false,
             };
             let (rest, pairs) = input.as_rchunks::<2>();
             for &[a, b] in pairs.iter().rev() {
-                one(b);
-                one(a);
+                e.one(&mut writer, b);
+                e.one(&mut writer, a);
             }
             for &symbol in rest.iter().rev() {
-                one(symbol);
+                e.one(&mut writer, symbol);
             }
-            if full {
+            if e.full {
                 return Err(Error::OutputTooSmall);
             }
+            let Encoding { mut acc, state, .. } = e;
+            let _absent = e.absent;
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
@@ -2110,28 +2294,22 @@ pub mod skewed {
                 data: payload,
                 byte: at >> 3,
             };
-            let (mut buf, mut used) = reader.refill((at & 7) as u32);
-            let mut lane = 0;
-            let mut one = |slot: &mut Symbol| {
-                if used > 32 - MAX_SYMBOL_BITS {
-                    (buf, used) = reader.refill(used);
-                }
-                let i = state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
-                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
-                buf >>= bits;
-                used += bits;
-                lane = (lane + 1) % LANES;
+            let (buf, used) = reader.refill((at & 7) as u32);
+            let mut d = Decoding {
+                buf,
+                used,
+                state,
+                lane: 0,
             };
             let (pairs, rest) = out.as_chunks_mut::<2>();
             for [a, b] in pairs {
-                one(a);
-                one(b);
+                d.one(&mut reader, a);
+                d.one(&mut reader, b);
             }
             for slot in rest {
-                one(slot);
+                d.one(&mut reader, slot);
             }
+            let Decoding { used, state, .. } = d;
             let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
@@ -2712,6 +2890,66 @@ pub mod single {
                 Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
+        /// The encoder's running values, kept in registers by the symbol loop.
+        struct Encoding {
+            /// The pending bits under a marker bit.
+            acc: u32,
+            state: [u32; LANES],
+            lane: usize,
+            /// Not zero once a value outside the alphabet was seen.
+            absent: u32,
+            /// Set when `out` turned out too small.
+            full: bool,
+        }
+        impl Encoding {
+            /// Puts one symbol into its lane's state.
+            #[inline(always)]
+            #[allow(unused_mut, clippy::modulo_one)]
+            fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
+                let lane = self.lane % LANES;
+                let row = symbol as usize;
+                let mut absent = 0u32;
+                self.absent |= absent;
+                let x = self.state[lane];
+                let (bits, high, next) = put_symbol(x, row);
+                self.acc = ((self.acc ^ high) << bits) ^ x;
+                self.state[lane] = next;
+                self.lane = (lane + LANES - 1) % LANES;
+                if self.acc >> (32 - MOST) != 0 {
+                    match writer.flush(self.acc) {
+                        Some(rest) => self.acc = rest,
+                        None => self.full = true,
+                    }
+                }
+            }
+        }
+        /// The decoder's running values, kept in registers by the symbol loop.
+        struct Decoding {
+            /// The stream from the reader's byte on, of which the low `used` bits are
+            /// used.
+            buf: u32,
+            used: u32,
+            state: [usize; LANES],
+            lane: usize,
+        }
+        impl Decoding {
+            /// Decodes one symbol from its lane's state into `slot`.
+            #[inline(always)]
+            #[allow(clippy::modulo_one)]
+            fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
+                if self.used > 32 - MAX_SYMBOL_BITS {
+                    (self.buf, self.used) = reader.refill(self.used);
+                }
+                let lane = self.lane % LANES;
+                let i = self.state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.used += bits;
+                self.lane = (lane + 1) % LANES;
+            }
+        }
         /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
         /// symbol loop (refills are rare), so that the loop's values stay in registers.
         struct Reader<'a> {
@@ -2736,35 +2974,28 @@ pub mod single {
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
             let mut writer = Writer { pos: out.len(), out };
-            let mut state = [TABLE_LEN as u32; LANES];
-            let mut acc: u32 = 1;
-            let mut lane = input.len().wrapping_sub(1) % LANES;
-            let mut full = false;
-            let mut one = |symbol: Symbol| {
-                let row = symbol as usize;
-                let x = state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                acc = ((acc ^ high) << bits) ^ x;
-                state[lane] = next;
-                lane = (lane + LANES - 1) % LANES;
-                if acc >> (32 - MOST) != 0 {
-                    match writer.flush(acc) {
-                        Some(rest) => acc = rest,
-                        None => full = true,
-                    }
-                }
+            let state = [TABLE_LEN as u32; LANES];
+            let acc: u32 = 1;
+            let mut e = Encoding {
+                acc,
+                state,
+                lane: input.len().wrapping_sub(1) % LANES,
+                absent: 0,
+                full: false,
             };
             let (rest, pairs) = input.as_rchunks::<2>();
             for &[a, b] in pairs.iter().rev() {
-                one(b);
-                one(a);
+                e.one(&mut writer, b);
+                e.one(&mut writer, a);
             }
             for &symbol in rest.iter().rev() {
-                one(symbol);
+                e.one(&mut writer, symbol);
             }
-            if full {
+            if e.full {
                 return Err(Error::OutputTooSmall);
             }
+            let Encoding { mut acc, state, .. } = e;
+            let _absent = e.absent;
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
@@ -2803,28 +3034,22 @@ pub mod single {
                 data: payload,
                 byte: at >> 3,
             };
-            let (mut buf, mut used) = reader.refill((at & 7) as u32);
-            let mut lane = 0;
-            let mut one = |slot: &mut Symbol| {
-                if used > 32 - MAX_SYMBOL_BITS {
-                    (buf, used) = reader.refill(used);
-                }
-                let i = state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
-                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
-                buf >>= bits;
-                used += bits;
-                lane = (lane + 1) % LANES;
+            let (buf, used) = reader.refill((at & 7) as u32);
+            let mut d = Decoding {
+                buf,
+                used,
+                state,
+                lane: 0,
             };
             let (pairs, rest) = out.as_chunks_mut::<2>();
             for [a, b] in pairs {
-                one(a);
-                one(b);
+                d.one(&mut reader, a);
+                d.one(&mut reader, b);
             }
             for slot in rest {
-                one(slot);
+                d.one(&mut reader, slot);
             }
+            let Decoding { used, state, .. } = d;
             let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
@@ -3420,6 +3645,85 @@ pub mod five_bare {
                 Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
+        impl Writer<'_> {
+            /// Stores the low 16 bits of `half` in front of `pos`; `false` when `out` is
+            /// too small.
+            #[inline(always)]
+            fn put16(&mut self, half: u32) -> bool {
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
+                {
+                    Some(dst) => {
+                        *dst = (half as u16).to_le_bytes();
+                        self.pos -= 2;
+                        true
+                    }
+                    None => false,
+                }
+            }
+        }
+        /// The encoder's running values, kept in registers by the symbol loop.
+        struct Encoding {
+            /// The pending bits under a marker bit.
+            acc: u32,
+            state: [u32; LANES],
+            lane: usize,
+            /// Not zero once a value outside the alphabet was seen.
+            absent: u32,
+            /// Set when `out` turned out too small.
+            full: bool,
+        }
+        impl Encoding {
+            /// Puts one symbol into its lane's state.
+            #[inline(always)]
+            #[allow(unused_mut, clippy::modulo_one)]
+            fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
+                let lane = self.lane % LANES;
+                let row = symbol as usize;
+                let mut absent = 0u32;
+                self.absent |= absent;
+                let x = self.state[lane];
+                let (bits, high, next) = put_symbol(x, row);
+                self.acc = ((self.acc ^ high) << bits) ^ x;
+                self.state[lane] = next;
+                self.lane = (lane + LANES - 1) % LANES;
+                if self.acc >> (32 - MOST) != 0 {
+                    let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
+                    let top = self.acc >> keep;
+                    if writer.put16(top) {
+                        self.acc -= (top - 1) << keep;
+                    } else {
+                        self.full = true;
+                    }
+                }
+            }
+        }
+        /// The decoder's running values, kept in registers by the symbol loop.
+        struct Decoding {
+            /// The stream from the reader's byte on, of which the low `used` bits are
+            /// used.
+            buf: u32,
+            used: u32,
+            state: [usize; LANES],
+            lane: usize,
+        }
+        impl Decoding {
+            /// Decodes one symbol from its lane's state into `slot`.
+            #[inline(always)]
+            #[allow(clippy::modulo_one)]
+            fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
+                if self.used > 32 - MAX_SYMBOL_BITS {
+                    (self.buf, self.used) = reader.refill(self.used);
+                }
+                let lane = self.lane % LANES;
+                let i = self.state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.used += bits;
+                self.lane = (lane + 1) % LANES;
+            }
+        }
         /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
         /// symbol loop (refills are rare), so that the loop's values stay in registers.
         struct Reader<'a> {
@@ -3444,35 +3748,28 @@ pub mod five_bare {
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 0usize;
             let mut writer = Writer { pos: out.len(), out };
-            let mut state = [TABLE_LEN as u32; LANES];
-            let mut acc: u32 = 1;
-            let mut lane = input.len().wrapping_sub(1) % LANES;
-            let mut full = false;
-            let mut one = |symbol: Symbol| {
-                let row = symbol as usize;
-                let x = state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                acc = ((acc ^ high) << bits) ^ x;
-                state[lane] = next;
-                lane = (lane + LANES - 1) % LANES;
-                if acc >> (32 - MOST) != 0 {
-                    match writer.flush(acc) {
-                        Some(rest) => acc = rest,
-                        None => full = true,
-                    }
-                }
+            let state = [TABLE_LEN as u32; LANES];
+            let acc: u32 = 1;
+            let mut e = Encoding {
+                acc,
+                state,
+                lane: input.len().wrapping_sub(1) % LANES,
+                absent: 0,
+                full: false,
             };
             let (rest, pairs) = input.as_rchunks::<2>();
             for &[a, b] in pairs.iter().rev() {
-                one(b);
-                one(a);
+                e.one(&mut writer, b);
+                e.one(&mut writer, a);
             }
             for &symbol in rest.iter().rev() {
-                one(symbol);
+                e.one(&mut writer, symbol);
             }
-            if full {
+            if e.full {
                 return Err(Error::OutputTooSmall);
             }
+            let Encoding { mut acc, state, .. } = e;
+            let _absent = e.absent;
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
@@ -3529,28 +3826,22 @@ pub mod five_bare {
                 data: payload,
                 byte: at >> 3,
             };
-            let (mut buf, mut used) = reader.refill((at & 7) as u32);
-            let mut lane = 0;
-            let mut one = |slot: &mut Symbol| {
-                if used > 32 - MAX_SYMBOL_BITS {
-                    (buf, used) = reader.refill(used);
-                }
-                let i = state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
-                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
-                buf >>= bits;
-                used += bits;
-                lane = (lane + 1) % LANES;
+            let (buf, used) = reader.refill((at & 7) as u32);
+            let mut d = Decoding {
+                buf,
+                used,
+                state,
+                lane: 0,
             };
             let (pairs, rest) = out.as_chunks_mut::<2>();
             for [a, b] in pairs {
-                one(a);
-                one(b);
+                d.one(&mut reader, a);
+                d.one(&mut reader, b);
             }
             for slot in rest {
-                one(slot);
+                d.one(&mut reader, slot);
             }
+            let Decoding { used, state, .. } = d;
             let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
@@ -4513,6 +4804,66 @@ pub mod skewed_l8 {
                 Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
+        /// The encoder's running values, kept in registers by the symbol loop.
+        struct Encoding {
+            /// The pending bits under a marker bit.
+            acc: u32,
+            state: [u32; LANES],
+            lane: usize,
+            /// Not zero once a value outside the alphabet was seen.
+            absent: u32,
+            /// Set when `out` turned out too small.
+            full: bool,
+        }
+        impl Encoding {
+            /// Puts one symbol into its lane's state.
+            #[inline(always)]
+            #[allow(unused_mut, clippy::modulo_one)]
+            fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
+                let lane = self.lane % LANES;
+                let row = symbol as usize;
+                let mut absent = 0u32;
+                self.absent |= absent;
+                let x = self.state[lane];
+                let (bits, high, next) = put_symbol(x, row);
+                self.acc = ((self.acc ^ high) << bits) ^ x;
+                self.state[lane] = next;
+                self.lane = (lane + LANES - 1) % LANES;
+                if self.acc >> (32 - MOST) != 0 {
+                    match writer.flush(self.acc) {
+                        Some(rest) => self.acc = rest,
+                        None => self.full = true,
+                    }
+                }
+            }
+        }
+        /// The decoder's running values, kept in registers by the symbol loop.
+        struct Decoding {
+            /// The stream from the reader's byte on, of which the low `used` bits are
+            /// used.
+            buf: u32,
+            used: u32,
+            state: [usize; LANES],
+            lane: usize,
+        }
+        impl Decoding {
+            /// Decodes one symbol from its lane's state into `slot`.
+            #[inline(always)]
+            #[allow(clippy::modulo_one)]
+            fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
+                if self.used > 32 - MAX_SYMBOL_BITS {
+                    (self.buf, self.used) = reader.refill(self.used);
+                }
+                let lane = self.lane % LANES;
+                let i = self.state[lane] & MASK;
+                *slot = SYMBOLS[i];
+                let (bits, base) = step(i);
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.used += bits;
+                self.lane = (lane + 1) % LANES;
+            }
+        }
         /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
         /// symbol loop (refills are rare), so that the loop's values stay in registers.
         struct Reader<'a> {
@@ -4537,35 +4888,28 @@ pub mod skewed_l8 {
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
             let mut writer = Writer { pos: out.len(), out };
-            let mut state = [TABLE_LEN as u32; LANES];
-            let mut acc: u32 = 1;
-            let mut lane = input.len().wrapping_sub(1) % LANES;
-            let mut full = false;
-            let mut one = |symbol: Symbol| {
-                let row = symbol as usize;
-                let x = state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                acc = ((acc ^ high) << bits) ^ x;
-                state[lane] = next;
-                lane = (lane + LANES - 1) % LANES;
-                if acc >> (32 - MOST) != 0 {
-                    match writer.flush(acc) {
-                        Some(rest) => acc = rest,
-                        None => full = true,
-                    }
-                }
+            let state = [TABLE_LEN as u32; LANES];
+            let acc: u32 = 1;
+            let mut e = Encoding {
+                acc,
+                state,
+                lane: input.len().wrapping_sub(1) % LANES,
+                absent: 0,
+                full: false,
             };
             let (rest, pairs) = input.as_rchunks::<2>();
             for &[a, b] in pairs.iter().rev() {
-                one(b);
-                one(a);
+                e.one(&mut writer, b);
+                e.one(&mut writer, a);
             }
             for &symbol in rest.iter().rev() {
-                one(symbol);
+                e.one(&mut writer, symbol);
             }
-            if full {
+            if e.full {
                 return Err(Error::OutputTooSmall);
             }
+            let Encoding { mut acc, state, .. } = e;
+            let _absent = e.absent;
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
@@ -4612,28 +4956,22 @@ pub mod skewed_l8 {
                 data: payload,
                 byte: at >> 3,
             };
-            let (mut buf, mut used) = reader.refill((at & 7) as u32);
-            let mut lane = 0;
-            let mut one = |slot: &mut Symbol| {
-                if used > 32 - MAX_SYMBOL_BITS {
-                    (buf, used) = reader.refill(used);
-                }
-                let i = state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
-                state[lane] = base + (buf & !(u32::MAX << bits)) as usize;
-                buf >>= bits;
-                used += bits;
-                lane = (lane + 1) % LANES;
+            let (buf, used) = reader.refill((at & 7) as u32);
+            let mut d = Decoding {
+                buf,
+                used,
+                state,
+                lane: 0,
             };
             let (pairs, rest) = out.as_chunks_mut::<2>();
             for [a, b] in pairs {
-                one(a);
-                one(b);
+                d.one(&mut reader, a);
+                d.one(&mut reader, b);
             }
             for slot in rest {
-                one(slot);
+                d.one(&mut reader, slot);
             }
+            let Decoding { used, state, .. } = d;
             let at = reader.byte * 8 + used as usize;
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
