@@ -721,6 +721,9 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                         acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                     }
                 }
+                // Store the whole bytes first: up to 31 bits may pend, and the marker must stay
+                // inside the word when the padding goes under them.
+                let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
                 writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
                 let Writer { out, pos } = writer;

@@ -598,6 +598,7 @@ pub mod mit_text {
                     acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
+            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
             writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
             let Writer { out, pos } = writer;
@@ -1509,6 +1510,7 @@ pub mod five {
                     acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
+            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
             writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
             let Writer { out, pos } = writer;
@@ -2254,6 +2256,7 @@ pub mod skewed {
                     acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
+            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
             writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
             let Writer { out, pos } = writer;
@@ -3002,6 +3005,7 @@ pub mod single {
                     acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
+            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
             writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
             let Writer { out, pos } = writer;
@@ -3776,6 +3780,7 @@ pub mod five_bare {
                     acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
+            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
             writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
             let Writer { out, pos } = writer;
@@ -4916,6 +4921,7 @@ pub mod skewed_l8 {
                     acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
                 }
             }
+            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
             writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
             let Writer { out, pos } = writer;
