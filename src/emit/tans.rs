@@ -57,13 +57,15 @@ impl Rounds {
 
 /// The pieces both paths share.
 struct Parts<'a> {
+    /// The decoder's start (header, count and padding checks, the lanes' first states) and
+    /// end (the end checks), the same on both paths.
+    decode_start: TokenStream,
+    decode_end: TokenStream,
     /// Bits a symbol costs on average (the tables' rate for the training data).
     rate: f64,
     framing: &'a FramingTokens,
     input: &'a InputTokens,
     finish: TokenStream,
-    count_check: TokenStream,
-    end_check: TokenStream,
 }
 
 pub fn body(
@@ -116,13 +118,39 @@ pub fn body(
     } else {
         (quote!(u32), Literal::u32_unsuffixed(16))
     };
+    let (count_check, end_check) = (count_check(tans), end_check(plan.spec.framing));
+    let start = &framing.start;
+    let decode_start = quote! {
+        #start
+        let payload = stream.get(header..).unwrap_or(&[]);
+        #count_check
+        if peek(payload, 0) & !(Word::MAX << pad) != 0 {
+            return Err(Error::Corrupt);
+        }
+        let mut at = pad;
+        let mut state = [0usize; LANES];
+        for x in state.iter_mut() {
+            *x = peek(payload, at) as usize & MASK;
+            at += TABLE_BITS as usize;
+        }
+    };
+    let decode_end = quote! {
+        if at.div_ceil(8) > payload.len() {
+            return Err(Error::Truncated);
+        }
+        if state.iter().any(|&x| x != 0) {
+            return Err(Error::Corrupt);
+        }
+        #end_check
+        Ok((count, header + at.div_ceil(8)))
+    };
     let parts = Parts {
+        decode_start,
+        decode_end,
         rate: plan.report.exact_rate,
         framing,
         input,
         finish: finish(plan.spec.framing),
-        count_check: count_check(tans),
-        end_check: end_check(plan.spec.framing),
     };
     let wide = wide(&r, &parts);
     let narrow = narrow(&parts);
@@ -267,9 +295,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
         r.encode_window,
     ]
     .map(Literal::usize_unsuffixed);
-    let FramingTokens {
-        header_len, start, ..
-    } = parts.framing;
+    let FramingTokens { header_len, .. } = parts.framing;
     let InputTokens {
         row,
         declare,
@@ -277,7 +303,8 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
         refuse,
         ..
     } = parts.input;
-    let (finish, count_check, end_check) = (&parts.finish, &parts.count_check, &parts.end_check);
+    let (finish, decode_start, decode_end) =
+        (&parts.finish, &parts.decode_start, &parts.decode_end);
     quote! {
         /// The 64-bit path: a 64-bit bit buffer, rounds of symbols with one bounds check.
         #[cfg(target_pointer_width = "64")]
@@ -413,18 +440,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
             /// number of symbols and the number of bytes the stream took.
             #[allow(clippy::modulo_one)]
             pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
-                #start
-                let payload = stream.get(header..).unwrap_or(&[]);
-                #count_check
-                if peek(payload, 0) & !(u64::MAX << pad) != 0 {
-                    return Err(Error::Corrupt);
-                }
-                let mut at = pad;
-                let mut state = [0usize; LANES];
-                for x in state.iter_mut() {
-                    *x = peek(payload, at) as usize & MASK;
-                    at += TABLE_BITS as usize;
-                }
+                #decode_start
                 let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
                 let mut done = 0;
                 for round in rounds.iter_mut() {
@@ -456,14 +472,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                     *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                     at += bits as usize;
                 }
-                if at.div_ceil(8) > payload.len() {
-                    return Err(Error::Truncated);
-                }
-                if state.iter().any(|&x| x != 0) {
-                    return Err(Error::Corrupt);
-                }
-                #end_check
-                Ok((count, header + at.div_ceil(8)))
+                #decode_end
             }
 
             /// Eight bytes of `window` from `at` on, little-endian. The rounds never read past
@@ -489,13 +498,12 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
 /// The 32-bit path: one loop for every symbol, a 32-bit buffer refilled or flushed only when
 /// it must be.
 fn narrow(parts: &Parts<'_>) -> TokenStream {
-    let FramingTokens {
-        header_len, start, ..
-    } = parts.framing;
+    let FramingTokens { header_len, .. } = parts.framing;
     let InputTokens {
         row, check, refuse, ..
     } = parts.input;
-    let (finish, count_check, end_check) = (&parts.finish, &parts.count_check, &parts.end_check);
+    let (finish, decode_start, decode_end) =
+        (&parts.finish, &parts.decode_start, &parts.decode_end);
     // Codecs of few bits a symbol store rarely: an out-of-line store keeps the loop's
     // registers free. Above two bits a symbol an inline 16-bit store costs fewer
     // instructions (measured on the device bench).
@@ -736,18 +744,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             /// number of symbols and the number of bytes the stream took.
             #[allow(clippy::modulo_one)]
             pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
-                #start
-                let payload = stream.get(header..).unwrap_or(&[]);
-                #count_check
-                if peek(payload, 0) & !(u32::MAX << pad) != 0 {
-                    return Err(Error::Corrupt);
-                }
-                let mut at = pad;
-                let mut state = [0usize; LANES];
-                for x in state.iter_mut() {
-                    *x = peek(payload, at) as usize & MASK;
-                    at += TABLE_BITS as usize;
-                }
+                #decode_start
                 let mut reader = Reader {
                     data: payload,
                     byte: at >> 3,
@@ -770,14 +767,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 }
                 let Decoding { used, state, .. } = d;
                 let at = reader.byte * 8 + used as usize;
-                if at.div_ceil(8) > payload.len() {
-                    return Err(Error::Truncated);
-                }
-                if state.iter().any(|&x| x != 0) {
-                    return Err(Error::Corrupt);
-                }
-                #end_check
-                Ok((count, header + at.div_ceil(8)))
+                #decode_end
             }
 
             /// The stream bits from bit `at` on, least significant first (25 or more valid).

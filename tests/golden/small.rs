@@ -344,7 +344,7 @@ pub mod mit_text {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u64::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -626,7 +626,7 @@ pub mod mit_text {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u32::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -1266,7 +1266,7 @@ pub mod five {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u64::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -1538,7 +1538,7 @@ pub mod five {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u32::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -2031,7 +2031,7 @@ pub mod skewed {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u64::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -2284,7 +2284,7 @@ pub mod skewed {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u32::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -2780,7 +2780,7 @@ pub mod single {
                 return Err(Error::OutputTooSmall);
             };
             let payload = stream.get(header..).unwrap_or(&[]);
-            if peek(payload, 0) & !(u64::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -3025,7 +3025,7 @@ pub mod single {
                 return Err(Error::OutputTooSmall);
             };
             let payload = stream.get(header..).unwrap_or(&[]);
-            if peek(payload, 0) & !(u32::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -3536,7 +3536,7 @@ pub mod five_bare {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u64::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -3818,7 +3818,7 @@ pub mod five_bare {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u32::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -4696,7 +4696,7 @@ pub mod skewed_l8 {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u64::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
@@ -4949,7 +4949,7 @@ pub mod skewed_l8 {
             if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
                 return Err(Error::Truncated);
             }
-            if peek(payload, 0) & !(u32::MAX << pad) != 0 {
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
                 return Err(Error::Corrupt);
             }
             let mut at = pad;
