@@ -15,14 +15,27 @@ mod common;
 #[path = "../fuzz/checks/mod.rs"]
 mod checks;
 
+// The random spec's codecs, for `decode_random_codecs` (the fuzz target expands the same file).
+#[allow(dead_code)]
+mod random_codecs {
+    precast_macros::codecs!("fuzz/seeds/random_specs.toml");
+}
+
+#[path = "../fuzz/checks/decode_random_codecs.rs"]
+mod decode_random_codecs;
+
 use checks::golden;
 use common::{root, Rng};
 use std::path::{Path, PathBuf};
 
 type Check = fn(&[u8]);
 
-const TARGETS: [(&str, Check); 3] = [
+const TARGETS: [(&str, Check); 4] = [
     ("decode_stream", checks::decode_stream::check_decode_stream),
+    (
+        "decode_random_codecs",
+        decode_random_codecs::check_decode_random_codecs,
+    ),
     (
         "encode_round_trip",
         checks::encode_round_trip::check_encode_round_trip,
@@ -73,6 +86,11 @@ fn decode_stream_seeds_pass_the_check() {
 }
 
 #[test]
+fn decode_random_codecs_seeds_pass_the_check() {
+    run_seeds("decode_random_codecs");
+}
+
+#[test]
 fn encode_round_trip_seeds_pass_the_check() {
     run_seeds("encode_round_trip");
 }
@@ -80,6 +98,69 @@ fn encode_round_trip_seeds_pass_the_check() {
 #[test]
 fn parse_spec_seeds_pass_the_check() {
     run_seeds("parse_spec");
+}
+
+/// The committed random spec is what `random_specs::spec_text` gives.
+#[test]
+fn random_spec_is_fresh() {
+    let path = root().join("fuzz/seeds/random_specs.toml");
+    let text = checks::random_specs::spec_text();
+    if std::env::var_os("PRECAST_BLESS").is_some() {
+        precast::write_if_changed(&path, text.as_bytes()).expect("writes random spec");
+    } else {
+        assert!(
+            std::fs::read_to_string(&path).ok().as_deref() == Some(&text[..]),
+            "{} is missing or stale\nrun `PRECAST_BLESS=1 cargo test --test fuzz_seeds` and review the diff",
+            path.display()
+        );
+    }
+}
+
+/// The check names every codec of the spec with its kind, and the seed chosen for the spec
+/// gives codecs of every kind, method, lookup, lane count and framing, alphabets of one
+/// symbol and of twenty or more, zero counts, a dominant symbol and a codec with no counts.
+#[test]
+fn random_spec_covers_every_option() {
+    let codecs = checks::random_specs::codecs();
+    let listed: Vec<(String, bool)> = decode_random_codecs::CODECS
+        .iter()
+        .map(|&(name, bytes)| (name.to_string(), bytes))
+        .collect();
+    let generated: Vec<(String, bool)> = codecs.iter().map(|c| (c.name.clone(), c.bytes)).collect();
+    assert_eq!(
+        listed, generated,
+        "update CODECS and the check in decode_random_codecs.rs"
+    );
+    let any = |f: &dyn Fn(&checks::random_specs::RandomCodec) -> bool| codecs.iter().any(f);
+    assert!(any(&|c| c.bytes && c.counts.len() >= 20));
+    assert!(any(&|c| !c.bytes && c.counts.len() >= 20));
+    assert!(any(&|c| c.counts.len() == 1));
+    for rans in [false, true] {
+        for bare in [false, true] {
+            assert!(
+                any(&|c| c.rans == rans && c.bare == bare),
+                "rans {rans}, bare {bare}"
+            );
+        }
+    }
+    assert!(any(&|c| c.rans && c.search) && any(&|c| c.rans && !c.search));
+    for lanes in [1, 2, 4, 8] {
+        assert!(any(&|c| c.lanes == lanes), "lanes {lanes}");
+    }
+    assert!(any(&|c| c.counts.iter().all(|&n| n == 0)));
+    assert!(any(&|c| c.counts.iter().any(|&n| n >= 1_000_000_000)));
+    assert!(any(
+        &|c| c.counts.contains(&0) && c.counts.iter().any(|&n| n > 0)
+    ));
+    for c in &codecs {
+        assert!((1..=40).contains(&c.counts.len()), "{}", c.name);
+        assert!(
+            c.counts.len() <= 1 << c.table_bits && c.table_bits <= 10,
+            "{}",
+            c.name
+        );
+        assert!(!c.search || c.rans, "{}", c.name);
+    }
 }
 
 #[test]
@@ -122,6 +203,21 @@ fn licence(len: usize) -> Vec<u8> {
 macro_rules! stream {
     ($codec:ident, $input:expr) => {{
         use golden::$codec as c;
+        let input: &[c::Symbol] = &$input;
+        let mut buf = vec![0u8; c::max_encoded_len(input.len())];
+        let n = c::encode(input, &mut buf).expect("encodes");
+        buf.truncate(n);
+        let mut back = input.to_vec();
+        assert_eq!(c::decode(&buf, &mut back), Ok(input.len()));
+        assert!(back == input, "{} round trip", stringify!($codec));
+        buf
+    }};
+}
+
+/// Encodes with a codec of the random spec, checks the stream decodes back, and returns it.
+macro_rules! random_stream {
+    ($codec:ident, $input:expr) => {{
+        use random_codecs::$codec as c;
         let input: &[c::Symbol] = &$input;
         let mut buf = vec![0u8; c::max_encoded_len(input.len())];
         let n = c::encode(input, &mut buf).expect("encodes");
@@ -263,6 +359,59 @@ fn derived_seeds() -> Vec<(&'static str, String, Vec<u8>)> {
     add("decode_stream", "random.bin", random_bytes(&mut rng, 64));
     add("decode_stream", "empty.bin", Vec::new());
 
+    // decode_random_codecs: real streams of the random spec's tagged codecs (100 symbols) and
+    // bare ones (7 symbols, one of the check's buffer sizes), and damaged or foreign ones.
+    {
+        use random_codecs::{r1, r10, r11, r2, r3, r5, r6, r9};
+        // A generator of its own, so the other targets' seeds do not move.
+        let mut rng = Rng(0xf022);
+        let target = "decode_random_codecs";
+        let r2_stream = random_stream!(r2, random_symbols(&mut rng, &r2::ALL, 100));
+        add(target, "r2_tans_l8.bin", r2_stream.clone());
+        add(
+            target,
+            "r6_rans_bytes.bin",
+            random_stream!(r6, random_symbols(&mut rng, &r6::ALPHABET, 100)),
+        );
+        let r9_stream = random_stream!(r9, random_symbols(&mut rng, &r9::ALPHABET, 100));
+        add(target, "r9_rans_search_l4.bin", r9_stream.clone());
+        add(
+            target,
+            "r9_truncated.bin",
+            r9_stream[..r9_stream.len() - 1].to_vec(),
+        );
+        add(
+            target,
+            "r10_rans_l2.bin",
+            random_stream!(r10, random_symbols(&mut rng, &r10::ALL, 100)),
+        );
+        let mut two = r2_stream[..].to_vec();
+        two.extend(random_stream!(r2, random_symbols(&mut rng, &r2::ALL, 20)));
+        add(target, "r2_two_streams.bin", two);
+        add(
+            target,
+            "r1_bare_rans_search.bin",
+            random_stream!(r1, random_symbols(&mut rng, &r1::ALPHABET, 7)),
+        );
+        add(
+            target,
+            "r3_bare_uniform.bin",
+            random_stream!(r3, random_symbols(&mut rng, &r3::ALL, 7)),
+        );
+        add(
+            target,
+            "r5_bare_tans_bytes.bin",
+            random_stream!(r5, random_symbols(&mut rng, &r5::ALPHABET, 7)),
+        );
+        add(
+            target,
+            "r11_bare_tans.bin",
+            random_stream!(r11, random_symbols(&mut rng, &r11::ALL, 7)),
+        );
+        add(target, "random.bin", random_bytes(&mut rng, 64));
+        add(target, "empty.bin", Vec::new());
+    }
+
     // encode_round_trip: bytes as mit_text symbols, and as token indices for the others.
     add("encode_round_trip", "licence.txt", text.clone());
     let mut unknown = text[..60.min(text.len())].to_vec();
@@ -319,6 +468,26 @@ fn derived_seeds_are_what_they_claim() {
     let mut out = vec![golden::five_bare::Symbol::A; 7];
     assert_eq!(
         golden::five_bare::decode(get("five_bare.bin"), &mut out),
+        Ok(7)
+    );
+    // The random spec's seeds: a tagged stream decodes whole and not once truncated; a bare
+    // one decodes into a buffer of its seven symbols.
+    let get = |name: &str| -> &[u8] {
+        &seeds
+            .iter()
+            .find(|(t, n, _)| *t == "decode_random_codecs" && n == name)
+            .expect("seed exists")
+            .2
+    };
+    let mut out = vec![0u8; 300];
+    assert_eq!(
+        random_codecs::r9::decode(get("r9_rans_search_l4.bin"), &mut out),
+        Ok(100)
+    );
+    assert!(random_codecs::r9::decode(get("r9_truncated.bin"), &mut out).is_err());
+    let mut out = vec![random_codecs::r11::ALL[0]; 7];
+    assert_eq!(
+        random_codecs::r11::decode(get("r11_bare_tans.bin"), &mut out),
         Ok(7)
     );
     // The spec seeds parse; the small one also renders (so the check exercises rendering).

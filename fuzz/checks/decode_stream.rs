@@ -51,7 +51,7 @@ macro_rules! check_codec {
     }};
 }
 
-fn assert_canonical<S, E: std::fmt::Debug>(
+pub fn assert_canonical<S, E: std::fmt::Debug>(
     codec: &str,
     symbols: &[S],
     stream: &[u8],

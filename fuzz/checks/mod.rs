@@ -11,3 +11,4 @@ pub mod golden {
 pub mod decode_stream;
 pub mod encode_round_trip;
 pub mod parse_spec;
+pub mod random_specs;
