@@ -549,6 +549,16 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             }
         }
     };
+    // Raw-value inputs note a value outside the alphabet as they go.
+    let note_absent = if check.is_empty() {
+        quote!()
+    } else {
+        quote! {
+            let mut absent = 0u32;
+            #check
+            self.absent |= absent;
+        }
+    };
     // What the encoding loop found about values outside the alphabet, for `refuse`.
     let absent_binding = if refuse.is_empty() {
         quote!(let _absent = e.absent;)
@@ -561,10 +571,10 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
         mod narrow {
             use super::*;
 
-            /// Most bits one step pushes: a symbol, or a lane's final state.
+            /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
+            /// buffer holds a marker bit above its pending bits; at or above
+            /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
             const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS { MAX_SYMBOL_BITS } else { TABLE_BITS };
-            /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-            /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
 
             /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
             /// loop (its stores are rare), so that the loop's values stay in registers.
@@ -619,13 +629,11 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             impl Encoding {
                 /// Puts one symbol into its lane's state.
                 #[inline(always)]
-                #[allow(unused_mut, clippy::modulo_one)]
+                #[allow(clippy::modulo_one)]
                 fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
                     let lane = self.lane % LANES;
                     let row = #row;
-                    let mut absent = 0u32;
-                    #check
-                    self.absent |= absent;
+                    #note_absent
                     let x = self.state[lane];
                     let (bits, high, next) = put_symbol(x, row);
                     // `(acc << bits) | (x & mask)`, as `x ^ (high << bits)` is the low bits.

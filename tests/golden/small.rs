@@ -417,14 +417,14 @@ pub mod mit_text {
     #[cfg(not(target_pointer_width = "64"))]
     mod narrow {
         use super::*;
-        /// Most bits one step pushes: a symbol, or a lane's final state.
+        /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
+        /// buffer holds a marker bit above its pending bits; at or above
+        /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS {
             MAX_SYMBOL_BITS
         } else {
             TABLE_BITS
         };
-        /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
         /// loop (its stores are rare), so that the loop's values stay in registers.
         struct Writer<'a> {
@@ -487,7 +487,7 @@ pub mod mit_text {
         impl Encoding {
             /// Puts one symbol into its lane's state.
             #[inline(always)]
-            #[allow(unused_mut, clippy::modulo_one)]
+            #[allow(clippy::modulo_one)]
             fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
                 let lane = self.lane % LANES;
                 let row = usize::from(symbol).min(123);
@@ -1339,14 +1339,14 @@ pub mod five {
     #[cfg(not(target_pointer_width = "64"))]
     mod narrow {
         use super::*;
-        /// Most bits one step pushes: a symbol, or a lane's final state.
+        /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
+        /// buffer holds a marker bit above its pending bits; at or above
+        /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS {
             MAX_SYMBOL_BITS
         } else {
             TABLE_BITS
         };
-        /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
         /// loop (its stores are rare), so that the loop's values stay in registers.
         struct Writer<'a> {
@@ -1409,12 +1409,10 @@ pub mod five {
         impl Encoding {
             /// Puts one symbol into its lane's state.
             #[inline(always)]
-            #[allow(unused_mut, clippy::modulo_one)]
+            #[allow(clippy::modulo_one)]
             fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
-                let mut absent = 0u32;
-                self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
@@ -2104,14 +2102,14 @@ pub mod skewed {
     #[cfg(not(target_pointer_width = "64"))]
     mod narrow {
         use super::*;
-        /// Most bits one step pushes: a symbol, or a lane's final state.
+        /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
+        /// buffer holds a marker bit above its pending bits; at or above
+        /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS {
             MAX_SYMBOL_BITS
         } else {
             TABLE_BITS
         };
-        /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
         /// loop (its stores are rare), so that the loop's values stay in registers.
         struct Writer<'a> {
@@ -2158,12 +2156,10 @@ pub mod skewed {
         impl Encoding {
             /// Puts one symbol into its lane's state.
             #[inline(always)]
-            #[allow(unused_mut, clippy::modulo_one)]
+            #[allow(clippy::modulo_one)]
             fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
-                let mut absent = 0u32;
-                self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
@@ -2853,14 +2849,14 @@ pub mod single {
     #[cfg(not(target_pointer_width = "64"))]
     mod narrow {
         use super::*;
-        /// Most bits one step pushes: a symbol, or a lane's final state.
+        /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
+        /// buffer holds a marker bit above its pending bits; at or above
+        /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS {
             MAX_SYMBOL_BITS
         } else {
             TABLE_BITS
         };
-        /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
         /// loop (its stores are rare), so that the loop's values stay in registers.
         struct Writer<'a> {
@@ -2907,12 +2903,10 @@ pub mod single {
         impl Encoding {
             /// Puts one symbol into its lane's state.
             #[inline(always)]
-            #[allow(unused_mut, clippy::modulo_one)]
+            #[allow(clippy::modulo_one)]
             fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
-                let mut absent = 0u32;
-                self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
@@ -3609,14 +3603,14 @@ pub mod five_bare {
     #[cfg(not(target_pointer_width = "64"))]
     mod narrow {
         use super::*;
-        /// Most bits one step pushes: a symbol, or a lane's final state.
+        /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
+        /// buffer holds a marker bit above its pending bits; at or above
+        /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS {
             MAX_SYMBOL_BITS
         } else {
             TABLE_BITS
         };
-        /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
         /// loop (its stores are rare), so that the loop's values stay in registers.
         struct Writer<'a> {
@@ -3679,12 +3673,10 @@ pub mod five_bare {
         impl Encoding {
             /// Puts one symbol into its lane's state.
             #[inline(always)]
-            #[allow(unused_mut, clippy::modulo_one)]
+            #[allow(clippy::modulo_one)]
             fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
-                let mut absent = 0u32;
-                self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
@@ -4769,14 +4761,14 @@ pub mod skewed_l8 {
     #[cfg(not(target_pointer_width = "64"))]
     mod narrow {
         use super::*;
-        /// Most bits one step pushes: a symbol, or a lane's final state.
+        /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
+        /// buffer holds a marker bit above its pending bits; at or above
+        /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS {
             MAX_SYMBOL_BITS
         } else {
             TABLE_BITS
         };
-        /// The encoder's bit buffer holds a marker bit above its pending bits; at or
-        /// above `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
         /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
         /// loop (its stores are rare), so that the loop's values stay in registers.
         struct Writer<'a> {
@@ -4823,12 +4815,10 @@ pub mod skewed_l8 {
         impl Encoding {
             /// Puts one symbol into its lane's state.
             #[inline(always)]
-            #[allow(unused_mut, clippy::modulo_one)]
+            #[allow(clippy::modulo_one)]
             fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
-                let mut absent = 0u32;
-                self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
