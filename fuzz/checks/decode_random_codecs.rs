@@ -7,7 +7,8 @@
 //! `tests/fuzz_seeds.rs`) expands them as `crate::random_codecs` and includes this file with
 //! `#[path]` beside `checks`.
 
-use crate::checks::decode_stream::assert_canonical;
+use crate::checks::decode_stream::check_codec;
+use crate::codec_of;
 use crate::random_codecs as random;
 
 // Zero and one reach the `OutputTooSmall` paths; seven is the frame size of the bare codecs'
@@ -31,65 +32,53 @@ pub const CODECS: [(&str, bool); 12] = [
     ("r11", false),
 ];
 
-// One macro rather than a trait: each module has its own `Symbol` and `Error` types. The
-// output buffers start filled with the first symbol: `ALPHABET[0]` for bytes, `ALL[0]` for
-// tokens.
-macro_rules! check_codec {
-    ($codec:ident, $stream:expr, $filler:expr) => {{
-        use random::$codec as c;
-        let stream: &[u8] = $stream;
-        for size in OUT_SIZES {
-            let mut out = vec![$filler; size];
-            if let Ok(n) = c::decode(stream, &mut out) {
-                assert!(
-                    n <= out.len(),
-                    "{}: decode count past the buffer",
-                    stringify!($codec)
-                );
-                assert_canonical::<c::Symbol, c::Error>(
-                    stringify!($codec),
-                    &out[..n],
-                    stream,
-                    c::max_encoded_len(n),
-                    c::encode,
-                );
-            }
-            let mut out = vec![$filler; size];
-            if let Ok((n, used)) = c::decode_prefix(stream, &mut out) {
-                assert!(
-                    n <= out.len(),
-                    "{}: prefix count past the buffer",
-                    stringify!($codec)
-                );
-                assert!(
-                    used <= stream.len(),
-                    "{}: prefix used past the input",
-                    stringify!($codec)
-                );
-                assert_canonical::<c::Symbol, c::Error>(
-                    stringify!($codec),
-                    &out[..n],
-                    &stream[..used],
-                    c::max_encoded_len(n),
-                    c::encode,
-                );
-            }
-        }
-    }};
-}
-
 /// Decodes `data` with every codec of the random spec (see the module docs).
 pub fn check_decode_random_codecs(data: &[u8]) {
-    check_codec!(r0, data, random::r0::ALPHABET[0]);
-    check_codec!(r1, data, random::r1::ALPHABET[0]);
-    check_codec!(r2, data, random::r2::ALL[0]);
-    check_codec!(r3, data, random::r3::ALL[0]);
-    check_codec!(r4, data, random::r4::ALL[0]);
-    check_codec!(r5, data, random::r5::ALPHABET[0]);
-    check_codec!(r6, data, random::r6::ALPHABET[0]);
-    check_codec!(r7, data, random::r7::ALL[0]);
-    check_codec!(r8, data, random::r8::ALL[0]);
-    check_codec!(r9, data, random::r9::ALPHABET[0]);
-    check_codec!(r10, data, random::r10::ALL[0]);
-    check_codec!(r11, data, random::r11::ALL[0]);
+    check_codec(
+        codec_of!(random::r0),
+        data,
+        random::r0::ALPHABET[0],
+        &OUT_SIZES,
+    );
+    check_codec(
+        codec_of!(random::r1),
+        data,
+        random::r1::ALPHABET[0],
+        &OUT_SIZES,
+    );
+    check_codec(codec_of!(random::r2), data, random::r2::ALL[0], &OUT_SIZES);
+    check_codec(codec_of!(random::r3), data, random::r3::ALL[0], &OUT_SIZES);
+    check_codec(codec_of!(random::r4), data, random::r4::ALL[0], &OUT_SIZES);
+    check_codec(
+        codec_of!(random::r5),
+        data,
+        random::r5::ALPHABET[0],
+        &OUT_SIZES,
+    );
+    check_codec(
+        codec_of!(random::r6),
+        data,
+        random::r6::ALPHABET[0],
+        &OUT_SIZES,
+    );
+    check_codec(codec_of!(random::r7), data, random::r7::ALL[0], &OUT_SIZES);
+    check_codec(codec_of!(random::r8), data, random::r8::ALL[0], &OUT_SIZES);
+    check_codec(
+        codec_of!(random::r9),
+        data,
+        random::r9::ALPHABET[0],
+        &OUT_SIZES,
+    );
+    check_codec(
+        codec_of!(random::r10),
+        data,
+        random::r10::ALL[0],
+        &OUT_SIZES,
+    );
+    check_codec(
+        codec_of!(random::r11),
+        data,
+        random::r11::ALL[0],
+        &OUT_SIZES,
+    );
 }
