@@ -199,32 +199,17 @@ fn licence(len: usize) -> Vec<u8> {
     text[..cut].to_vec()
 }
 
-/// Encodes with a golden codec, checks the stream decodes back, and returns it.
+/// Encodes with codec module `$m`, checks the stream decodes back, and returns it.
 macro_rules! stream {
-    ($codec:ident, $input:expr) => {{
-        use golden::$codec as c;
+    ($m:path, $input:expr) => {{
+        use $m as c;
         let input: &[c::Symbol] = &$input;
         let mut buf = vec![0u8; c::max_encoded_len(input.len())];
         let n = c::encode(input, &mut buf).expect("encodes");
         buf.truncate(n);
         let mut back = input.to_vec();
         assert_eq!(c::decode(&buf, &mut back), Ok(input.len()));
-        assert!(back == input, "{} round trip", stringify!($codec));
-        buf
-    }};
-}
-
-/// Encodes with a codec of the random spec, checks the stream decodes back, and returns it.
-macro_rules! random_stream {
-    ($codec:ident, $input:expr) => {{
-        use random_codecs::$codec as c;
-        let input: &[c::Symbol] = &$input;
-        let mut buf = vec![0u8; c::max_encoded_len(input.len())];
-        let n = c::encode(input, &mut buf).expect("encodes");
-        buf.truncate(n);
-        let mut back = input.to_vec();
-        assert_eq!(c::decode(&buf, &mut back), Ok(input.len()));
-        assert!(back == input, "{} round trip", stringify!($codec));
+        assert!(back == input, "{} round trip", stringify!($m));
         buf
     }};
 }
@@ -303,37 +288,46 @@ fn derived_seeds() -> Vec<(&'static str, String, Vec<u8>)> {
 
     // decode_stream: real streams of every golden codec, and damaged or foreign ones.
     let text = licence(300);
-    let mit = stream!(mit_text, text[..]);
-    let five_stream = stream!(five, random_symbols(&mut rng, &five::ALL, 100));
+    let mit = stream!(golden::mit_text, text[..]);
+    let five_stream = stream!(golden::five, random_symbols(&mut rng, &five::ALL, 100));
     add("decode_stream", "mit_text.bin", mit.clone());
     add("decode_stream", "five.bin", five_stream.clone());
     add(
         "decode_stream",
         "skewed.bin",
-        stream!(skewed, random_symbols(&mut rng, &skewed::ALL, 100)),
+        stream!(golden::skewed, random_symbols(&mut rng, &skewed::ALL, 100)),
     );
     add(
         "decode_stream",
         "single.bin",
-        stream!(single, [single::Symbol::Only; 100]),
+        stream!(golden::single, [single::Symbol::Only; 100]),
     );
     add(
         "decode_stream",
         "five_bare.bin",
-        stream!(five_bare, random_symbols(&mut rng, &five_bare::ALL, 7)),
+        stream!(
+            golden::five_bare,
+            random_symbols(&mut rng, &five_bare::ALL, 7)
+        ),
     );
     add(
         "decode_stream",
         "five_rans.bin",
-        stream!(five_rans, random_symbols(&mut rng, &five_rans::ALL, 100)),
+        stream!(
+            golden::five_rans,
+            random_symbols(&mut rng, &five_rans::ALL, 100)
+        ),
     );
     add(
         "decode_stream",
         "skewed_l8.bin",
-        stream!(skewed_l8, random_symbols(&mut rng, &skewed_l8::ALL, 100)),
+        stream!(
+            golden::skewed_l8,
+            random_symbols(&mut rng, &skewed_l8::ALL, 100)
+        ),
     );
-    let mut two = stream!(mit_text, b"permission is hereby granted"[..]);
-    two.extend(stream!(mit_text, b"the above copyright notice"[..]));
+    let mut two = stream!(golden::mit_text, b"permission is hereby granted"[..]);
+    two.extend(stream!(golden::mit_text, b"the above copyright notice"[..]));
     add("decode_stream", "mit_text_two_streams.bin", two);
     add(
         "decode_stream",
@@ -366,14 +360,20 @@ fn derived_seeds() -> Vec<(&'static str, String, Vec<u8>)> {
         // A generator of its own, so the other targets' seeds do not move.
         let mut rng = Rng(0xf022);
         let target = "decode_random_codecs";
-        let r2_stream = random_stream!(r2, random_symbols(&mut rng, &r2::ALL, 100));
+        let r2_stream = stream!(random_codecs::r2, random_symbols(&mut rng, &r2::ALL, 100));
         add(target, "r2_tans_l8.bin", r2_stream.clone());
         add(
             target,
             "r6_rans_bytes.bin",
-            random_stream!(r6, random_symbols(&mut rng, &r6::ALPHABET, 100)),
+            stream!(
+                random_codecs::r6,
+                random_symbols(&mut rng, &r6::ALPHABET, 100)
+            ),
         );
-        let r9_stream = random_stream!(r9, random_symbols(&mut rng, &r9::ALPHABET, 100));
+        let r9_stream = stream!(
+            random_codecs::r9,
+            random_symbols(&mut rng, &r9::ALPHABET, 100)
+        );
         add(target, "r9_rans_search_l4.bin", r9_stream.clone());
         add(
             target,
@@ -383,30 +383,39 @@ fn derived_seeds() -> Vec<(&'static str, String, Vec<u8>)> {
         add(
             target,
             "r10_rans_l2.bin",
-            random_stream!(r10, random_symbols(&mut rng, &r10::ALL, 100)),
+            stream!(random_codecs::r10, random_symbols(&mut rng, &r10::ALL, 100)),
         );
         let mut two = r2_stream[..].to_vec();
-        two.extend(random_stream!(r2, random_symbols(&mut rng, &r2::ALL, 20)));
+        two.extend(stream!(
+            random_codecs::r2,
+            random_symbols(&mut rng, &r2::ALL, 20)
+        ));
         add(target, "r2_two_streams.bin", two);
         add(
             target,
             "r1_bare_rans_search.bin",
-            random_stream!(r1, random_symbols(&mut rng, &r1::ALPHABET, 7)),
+            stream!(
+                random_codecs::r1,
+                random_symbols(&mut rng, &r1::ALPHABET, 7)
+            ),
         );
         add(
             target,
             "r3_bare_uniform.bin",
-            random_stream!(r3, random_symbols(&mut rng, &r3::ALL, 7)),
+            stream!(random_codecs::r3, random_symbols(&mut rng, &r3::ALL, 7)),
         );
         add(
             target,
             "r5_bare_tans_bytes.bin",
-            random_stream!(r5, random_symbols(&mut rng, &r5::ALPHABET, 7)),
+            stream!(
+                random_codecs::r5,
+                random_symbols(&mut rng, &r5::ALPHABET, 7)
+            ),
         );
         add(
             target,
             "r11_bare_tans.bin",
-            random_stream!(r11, random_symbols(&mut rng, &r11::ALL, 7)),
+            stream!(random_codecs::r11, random_symbols(&mut rng, &r11::ALL, 7)),
         );
         add(target, "random.bin", random_bytes(&mut rng, 64));
         add(target, "empty.bin", Vec::new());
