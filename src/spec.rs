@@ -273,8 +273,11 @@ impl Checker<'_> {
         for key in table.keys() {
             let k = key.get_ref().as_ref();
             if !CODEC_KEYS.contains(&k) {
-                let message = if k == "scale_bits" {
-                    "unknown key `scale_bits`: the table size is `table_bits` (log2 of the number of slots)".to_string()
+                // Another name for the table size (earlier versions had one) points to ours,
+                // unless it is a near miss of a key, which gets the usual suggestion.
+                let near = CODEC_KEYS.iter().any(|known| edit_distance(k, known) <= 2);
+                let message = if k.ends_with("_bits") && !near {
+                    format!("unknown key `{k}`: the table size is `table_bits` (log2 of the number of slots)")
                 } else {
                     unknown_key(k, CODEC_KEYS)
                 };
