@@ -35,11 +35,11 @@ pub fn tokens(input: &InputMap, absent: impl Fn(TokenStream) -> TokenStream) -> 
             error_display: quote!(),
         },
         InputMap::Rows(rows) => {
-            // Values past the rows land on one more row, an absent one (`put_rows`).
+            // Values past the rows land on the last row (an absent one: `InputMap::Rows`).
             let row = if rows.len() >= 256 {
                 quote!(usize::from(symbol))
             } else {
-                let last = proc_macro2::Literal::usize_unsuffixed(rows.len());
+                let last = proc_macro2::Literal::usize_unsuffixed(rows.len() - 1);
                 quote!(usize::from(symbol).min(#last))
             };
             let here = absent(quote!(row));
@@ -74,19 +74,17 @@ pub fn tokens(input: &InputMap, absent: impl Fn(TokenStream) -> TokenStream) -> 
     }
 }
 
-/// Rows of the encoding table for `input`, with the sentinel row of [`tokens`].
+/// Rows of the encoding table for `input`.
 pub fn row_count(input: &InputMap, symbols: usize) -> usize {
     match input {
         InputMap::Index => symbols,
-        InputMap::Rows(rows) if rows.len() >= 256 => rows.len(),
-        InputMap::Rows(rows) => rows.len() + 1,
+        InputMap::Rows(rows) => rows.len(),
     }
 }
 
 /// The encoding rows of one table, `per_line` cells a line: `cell(line, row)` writes the
 /// cell of a row, where `row` is the symbol of an input value or `None` for a value outside
-/// the alphabet. Raw-value inputs get one row per value up to the largest in the alphabet
-/// and one more for every larger value; enum inputs one row per symbol.
+/// the alphabet: the kind's rows for raw-value inputs, one row per symbol for enum inputs.
 pub fn put_rows(
     kind: &dyn Kind,
     input: &InputMap,
@@ -95,11 +93,7 @@ pub fn put_rows(
 ) -> Vec<String> {
     let rows: Vec<Option<usize>> = match input {
         InputMap::Index => (0..kind.alphabet_len()).map(Some).collect(),
-        InputMap::Rows(rows) => rows
-            .iter()
-            .map(|r| r.map(usize::from))
-            .chain((rows.len() < 256).then_some(None))
-            .collect(),
+        InputMap::Rows(rows) => rows.iter().map(|r| r.map(usize::from)).collect(),
     };
     rows.chunks(per_line)
         .enumerate()

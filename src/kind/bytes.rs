@@ -160,10 +160,15 @@ impl Kind for Bytes {
     }
 
     /// Rows for the byte values up to the largest in the alphabet; larger values are
-    /// refused by the encoder's input map.
+    /// refused through one absent row after them.
     fn input(&self) -> InputMap {
         let top = self.values.iter().copied().max().map_or(0, usize::from);
-        InputMap::Rows(self.index[..=top].to_vec())
+        let mut rows = self.index[..=top].to_vec();
+        // Larger values land on one more row, an absent one.
+        if rows.len() < 256 {
+            rows.push(None);
+        }
+        InputMap::Rows(rows)
     }
 
     fn symbol_items(&self) -> TokenStream {

@@ -90,9 +90,10 @@ pub enum InputMap {
     /// The input type is the symbol enum: `value as usize` is the symbol index.
     Index,
     /// The input is a raw value that indexes one row each; a row holds its symbol, or `None`
-    /// for values outside the alphabet (the encoder refuses them, and any value past the
-    /// last row). Kinds that code part of a value as raw extra bits after the symbol (integer
-    /// bins, escapes) will add those bits to this variant's rows.
+    /// for values outside the alphabet (the encoder refuses them). A value past the last row
+    /// lands on the last row, so rows that do not cover every value end in a `None`. Kinds
+    /// that code part of a value as raw extra bits after the symbol (integer bins, escapes)
+    /// will add those bits to this variant's rows.
     Rows(Vec<Option<u16>>),
 }
 
