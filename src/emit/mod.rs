@@ -89,7 +89,7 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     let framing = framing::tokens(spec.framing);
     let input = match &set.tables {
         // tANS marks an absent value by the top bit of its `run`, rANS by a flag.
-        Tables::Tans(_) => input::tokens(&plan.input, |row| quote!(u32::from(RUN[#row] >> 15))),
+        Tables::Tans(t) => input::tokens(&plan.input, |row| tans::absent(t, row)),
         Tables::Rans(_) => input::tokens(&plan.input, |row| quote!(u32::from(PUTS[#row].absent))),
     };
     let body = match &set.tables {
@@ -198,14 +198,20 @@ pub(crate) fn tail_word() -> TokenStream {
             const N: usize = ::core::mem::size_of::<Word>();
             match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
                 Some(w) => Word::from_le_bytes(*w),
-                None => {
-                    let mut w = [0u8; N];
-                    for (k, dst) in w.iter_mut().enumerate() {
-                        *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
-                    }
-                    Word::from_le_bytes(w)
-                }
+                None => word_tail(data, at),
             }
+        }
+
+        /// [`word`] at the end of `data`, byte by byte. Out of line (it runs once a stream
+        /// at most), so that the common load stays short.
+        #[cold]
+        #[inline(never)]
+        fn word_tail(data: &[u8], at: usize) -> Word {
+            let mut w = [0u8; ::core::mem::size_of::<Word>()];
+            for (k, dst) in w.iter_mut().enumerate() {
+                *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+            }
+            Word::from_le_bytes(w)
         }
 
         /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and

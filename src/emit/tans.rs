@@ -75,49 +75,21 @@ pub fn body(
     input: &InputTokens,
     rows: &mut RowSets,
 ) -> TokenStream {
-    let kind = plan.spec.kind.as_ref();
     let r = Rounds::new(tans, plan.spec.lanes as usize);
     let max_bits = Literal::usize_unsuffixed(r.max_bits);
     let header_max = &framing.header_max;
 
-    let shift = tans.step_shift();
-    let symbol_rows = rows.add(rows_of(&tans.decode, 8, |line, e| {
-        line.push_str(&kind.row_literal(usize::from(e.symbol)));
-        line.push_str(", ");
-    }));
-    let step_rows = rows.add(rows_of(&tans.decode, 16, |line, e| {
-        push_number(line, u64::from(e.base) | u64::from(e.bits) << shift);
-        line.push_str(", ");
-    }));
-    // An input value outside the alphabet has the top bit of its `run` set.
-    let spend_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
-        push_number(line, row.map_or(0, |s| u64::from(tans.puts[s].spend)));
-        line.push_str(", ");
-    }));
-    let run_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
-        push_number(line, row.map_or(0x8000, |s| u64::from(tans.puts[s].run)));
-        line.push_str(", ");
-    }));
-    let next_rows = rows.add(rows_of(&tans.next_state, 16, |line, &v| {
-        push_number(line, u64::from(v));
-        line.push_str(", ");
-    }));
-    let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
-    let spend = if tans.narrow_spend() {
-        quote!(u16)
-    } else {
-        quote!(u32)
-    };
+    let decode_tables = decode_tables(plan, tans, rows);
+    let put_tables = put_tables(plan, tans, rows);
     let state = if tans.next_bytes() == 1 {
         quote!(u8)
     } else {
         quote!(u16)
     };
-    let (step, step_shift) = if shift == 12 {
-        (quote!(u16), Literal::u32_unsuffixed(12))
-    } else {
-        (quote!(u32), Literal::u32_unsuffixed(16))
-    };
+    let next_rows = rows.add(rows_of(&tans.next_state, 16, |line, &v| {
+        push_number(line, u64::from(v));
+        line.push_str(", ");
+    }));
     let (count_check, end_check) = (count_check(tans), end_check(plan.spec.framing));
     let start = &framing.start;
     let decode_start = quote! {
@@ -168,27 +140,9 @@ pub fn body(
             (#header_max).saturating_add(bits / 8)
         }
 
-        /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
-        /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
-        /// and the next state.
-        #[inline(always)]
-        #[allow(clippy::useless_conversion)]
-        fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-            let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
-            let high = x >> bits;
-            let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
-            (bits, high, u32::from(next))
-        }
+        #put_tables
 
-        /// The decode step at table position `i`: the bits to read, and the position they
-        /// are added to.
-        #[inline(always)]
-        #[allow(clippy::useless_conversion)]
-        fn step(i: usize) -> (u32, usize) {
-            let step = u32::from(STEPS[i]);
-            let bits = step >> STEP_SHIFT;
-            (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
-        }
+        #decode_tables
 
         #[cfg(target_pointer_width = "64")]
         pub use wide::{decode_prefix, encode};
@@ -201,6 +155,42 @@ pub fn body(
 
         #word
 
+        /// For each symbol in alphabet order, the states of its copies in the table, left
+        /// to right (a state is `TABLE_LEN` + position).
+        static NEXT_STATE: [#state; TABLE_LEN] = #next_rows;
+    }
+}
+
+/// The decoding tables and `step`, which reads one entry. Symbols and steps stay in two
+/// tables: each is one load indexed by the position (a joined record costs an address
+/// computation more on Cortex-M, measured).
+fn decode_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+    let kind = plan.spec.kind.as_ref();
+    let shift = tans.step_shift();
+    let symbol_rows = rows.add(rows_of(&tans.decode, 8, |line, e| {
+        line.push_str(&kind.row_literal(usize::from(e.symbol)));
+        line.push_str(", ");
+    }));
+    let step_rows = rows.add(rows_of(&tans.decode, 16, |line, e| {
+        push_number(line, u64::from(e.base) | u64::from(e.bits) << shift);
+        line.push_str(", ");
+    }));
+    let (step, step_shift) = if shift == 12 {
+        (quote!(u16), Literal::u32_unsuffixed(12))
+    } else {
+        (quote!(u32), Literal::u32_unsuffixed(16))
+    };
+    quote! {
+        /// The decode step at table position `i`: its symbol, the bits to read, and the
+        /// position they are added to.
+        #[inline(always)]
+        #[allow(clippy::useless_conversion)]
+        fn step(i: usize) -> (Symbol, u32, usize) {
+            let step = u32::from(STEPS[i]);
+            let bits = step >> STEP_SHIFT;
+            (SYMBOLS[i], bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
+        }
+
         /// Where a decode step's bit count starts in its `STEPS` entry.
         const STEP_SHIFT: u32 = #step_shift;
 
@@ -211,19 +201,78 @@ pub fn body(
         /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
         /// `(step & (2^STEP_SHIFT - 1)) + b`.
         static STEPS: [#step; TABLE_LEN] = #step_rows;
+    }
+}
+
+/// The encoding tables and `put_symbol`, which reads one row: `spend | run << 16` in one
+/// table when the sum `x + spend` stays below 16 bits, else `SPEND` and `RUN` apart. An
+/// input value outside the alphabet has the top bit of its `run` set.
+fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+    let kind = plan.spec.kind.as_ref();
+    let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
+    if tans.joined_put() {
+        let put_rows = rows.add(input::put_rows(kind, &plan.input, 8, |line, row| {
+            let (spend, run) = row.map_or((0, 0x8000), |s| (tans.puts[s].spend, tans.puts[s].run));
+            push_number(line, u64::from(spend) | u64::from(run) << 16);
+            line.push_str(", ");
+        }));
+        return quote! {
+            /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+            /// count, the bits above them (`x >> bits`, the copy number whose state comes
+            /// next) and the next state.
+            #[inline(always)]
+            fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+                let put = PUT[row];
+                let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
+                let high = x >> bits;
+                let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
+                (bits, high, u32::from(next))
+            }
+
+            /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
+            /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+            /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
+            /// a value outside the alphabet.
+            static PUT: [u32; #put_len] = #put_rows;
+        };
+    }
+    let spend_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
+        push_number(line, row.map_or(0, |s| u64::from(tans.puts[s].spend)));
+        line.push_str(", ");
+    }));
+    let run_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
+        push_number(line, row.map_or(0x8000, |s| u64::from(tans.puts[s].run)));
+        line.push_str(", ");
+    }));
+    quote! {
+        /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+        /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
+        /// and the next state.
+        #[inline(always)]
+        fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+            let bits = x.wrapping_add(SPEND[row]) >> (TABLE_BITS + 1);
+            let high = x >> bits;
+            let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
+            (bits, high, u32::from(next))
+        }
 
         /// Encoding, by input value: from state `x` the encoder writes
         /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
         /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
         /// value outside the alphabet.
-        static SPEND: [#spend; #put_len] = #spend_rows;
+        static SPEND: [u32; #put_len] = #spend_rows;
 
         /// See [`SPEND`].
         static RUN: [u16; #put_len] = #run_rows;
+    }
+}
 
-        /// For each symbol in alphabet order, the states of its copies in the table, left
-        /// to right (a state is `TABLE_LEN` + position).
-        static NEXT_STATE: [#state; TABLE_LEN] = #next_rows;
+/// A row's absent flag (not zero for an input value outside the alphabet).
+pub fn absent(tans: &Tans, row: TokenStream) -> TokenStream {
+    if tans.joined_put() {
+        quote!(PUT[#row] >> 31)
+    } else {
+        quote!(u32::from(RUN[#row] >> 15))
     }
 }
 
@@ -455,9 +504,8 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                             buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                         }
                         let x = &mut state[i % LANES];
-                        let at_x = *x & MASK;
-                        *slot = SYMBOLS[at_x];
-                        let (bits, base) = step(at_x);
+                        let (symbol, bits, base) = step(*x & MASK);
+                        *slot = symbol;
                         *x = base + (buf & !(u64::MAX << bits)) as usize;
                         buf >>= bits;
                         at += bits as usize;
@@ -466,9 +514,8 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                 }
                 for (i, slot) in out.iter_mut().enumerate().skip(done) {
                     let x = &mut state[i % LANES];
-                    let at_x = *x & MASK;
-                    *slot = SYMBOLS[at_x];
-                    let (bits, base) = step(at_x);
+                    let (symbol, bits, base) = step(*x & MASK);
+                    *slot = symbol;
                     *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                     at += bits as usize;
                 }
@@ -511,17 +558,16 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
     let put16 = if inline_store {
         quote! {
             impl Writer<'_> {
-                /// Stores the low 16 bits of `half` in front of `pos`; `false` when `out` is
+                /// Stores the low 16 bits of `half` in front of `pos`, or notes that `out` is
                 /// too small.
                 #[inline(always)]
-                fn put16(&mut self, half: u32) -> bool {
+                fn put16(&mut self, half: u32) {
                     match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>) {
                         Some(dst) => {
                             *dst = (half as u16).to_le_bytes();
                             self.pos -= 2;
-                            true
                         }
-                        None => false,
+                        None => self.full = true,
                     }
                 }
 
@@ -531,22 +577,14 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
         quote!()
     };
     let store = if !inline_store {
-        quote! {
-            match writer.flush(self.acc) {
-                Some(rest) => self.acc = rest,
-                None => self.full = true,
-            }
-        }
+        quote!(self.acc = writer.flush(self.acc);)
     } else {
         quote! {
             // At least 17 bits pend: store the 16 oldest, just under the marker.
             let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
             let top = self.acc >> keep;
-            if writer.put16(top) {
-                self.acc -= (top - 1) << keep;
-            } else {
-                self.full = true;
-            }
+            writer.put16(top);
+            self.acc -= (top - 1) << keep;
         }
     };
     // Raw-value inputs note a value outside the alphabet as they go.
@@ -581,34 +619,50 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             struct Writer<'a> {
                 out: &'a mut [u8],
                 pos: usize,
+                /// Set when `out` turned out too small (the bits are dropped from then on).
+                full: bool,
             }
 
             impl Writer<'_> {
                 /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
-                /// in front of `pos`; returns the rest under the marker, or `None` when `out`
-                /// is too small.
+                /// in front of `pos`, or notes that `out` is too small; returns the rest under
+                /// the marker. Never fails, so that the loop carries no error.
                 #[inline(never)]
-                fn flush(&mut self, acc: u32) -> Option<u32> {
+                fn flush(&mut self, acc: u32) -> u32 {
                     let pending = 31u32.wrapping_sub(acc.leading_zeros());
                     let whole = (pending >> 3) as usize;
                     // The pending bits at the top of a word: its last `whole` bytes are stored.
                     let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
-                    let start = self.pos.checked_sub(whole)?;
                     match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>) {
-                        // Four bytes always: those below `start` are overwritten later.
-                        Some(dst) => *dst = bytes,
-                        None => {
-                            let dst = self.out.get_mut(start..self.pos)?;
-                            let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                        // Four bytes always: those below `pos - whole` are overwritten later.
+                        Some(dst) => {
+                            *dst = bytes;
+                            self.pos -= whole;
+                        }
+                        None => self.store_tail(bytes, whole),
+                    }
+                    // Keep the low `pending % 8` bits, with the marker just above them.
+                    let drop = 31 - (pending & 7);
+                    ((acc << drop) | 1 << 31) >> drop
+                }
+
+                /// Stores the last `whole` of `bytes` in front of `pos` byte by byte (the front
+                /// of `out`), or notes that `out` is too small. Out of line: the common store
+                /// then needs no stack.
+                #[inline(never)]
+                #[cold]
+                fn store_tail(&mut self, bytes: [u8; 4], whole: usize) {
+                    let start = self.pos.checked_sub(whole);
+                    let dst = start.and_then(|start| self.out.get_mut(start..self.pos));
+                    match (dst, bytes.get(4usize.wrapping_sub(whole)..)) {
+                        (Some(dst), Some(src)) => {
                             for (d, s) in dst.iter_mut().zip(src) {
                                 *d = *s;
                             }
+                            self.pos -= whole;
                         }
+                        _ => self.full = true,
                     }
-                    self.pos = start;
-                    // Keep the low `pending % 8` bits, with the marker just above them.
-                    let drop = 31 - (pending & 7);
-                    Some(((acc << drop) | 1 << 31) >> drop)
                 }
             }
 
@@ -622,11 +676,26 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 lane: usize,
                 /// Not zero once a value outside the alphabet was seen.
                 absent: u32,
-                /// Set when `out` turned out too small.
-                full: bool,
             }
 
             impl Encoding {
+                /// Puts `input` into the states, last symbol first. A function of its own, so
+                /// that only the loop's values compete for the registers.
+                #[inline(never)]
+                fn run(&mut self, writer: &mut Writer<'_>, input: &[Symbol]) {
+                    let mut e = Encoding { state: self.state, ..*self };
+                    // Two symbols a turn of the loop: half the loop's own instructions.
+                    let (rest, pairs) = input.as_rchunks::<2>();
+                    for &[a, b] in pairs.iter().rev() {
+                        e.one(writer, b);
+                        e.one(writer, a);
+                    }
+                    for &symbol in rest.iter().rev() {
+                        e.one(writer, symbol);
+                    }
+                    *self = e;
+                }
+
                 /// Puts one symbol into its lane's state.
                 #[inline(always)]
                 #[allow(clippy::modulo_one)]
@@ -648,48 +717,72 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
 
             /// The decoder's running values, kept in registers by the symbol loop.
             struct Decoding {
-                /// The stream from the reader's byte on, of which the low `used` bits are
-                /// used.
+                /// Unread stream bits under a marker bit: below `1 << MAX_SYMBOL_BITS` the
+                /// next symbol may need more than there are, and it is refilled.
                 buf: u32,
-                used: u32,
                 state: [usize; LANES],
                 lane: usize,
             }
 
             impl Decoding {
+                /// Decodes `out.len()` symbols. A function of its own, so that only the
+                /// loop's values compete for the registers.
+                #[inline(never)]
+                fn run(&mut self, reader: &mut Reader<'_>, out: &mut [Symbol]) {
+                    let mut d = Decoding { state: self.state, ..*self };
+                    // Two symbols a turn of the loop: half the loop's own instructions.
+                    let (pairs, rest) = out.as_chunks_mut::<2>();
+                    for [a, b] in pairs {
+                        d.one(reader, a);
+                        d.one(reader, b);
+                    }
+                    for slot in rest {
+                        d.one(reader, slot);
+                    }
+                    *self = d;
+                }
+
                 /// Decodes one symbol from its lane's state into `slot`.
                 #[inline(always)]
                 #[allow(clippy::modulo_one)]
                 fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                    if self.used > 32 - MAX_SYMBOL_BITS {
-                        (self.buf, self.used) = reader.refill(self.used);
+                    if self.buf < 1 << MAX_SYMBOL_BITS {
+                        self.buf = reader.refill(self.buf);
                     }
                     let lane = self.lane % LANES;
-                    let i = self.state[lane] & MASK;
-                    *slot = SYMBOLS[i];
-                    let (bits, base) = step(i);
+                    let (symbol, bits, base) = step(self.state[lane] & MASK);
+                    *slot = symbol;
                     self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                     self.buf >>= bits;
-                    self.used += bits;
                     self.lane = (lane + 1) % LANES;
                 }
             }
 
-            /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
-            /// symbol loop (refills are rare), so that the loop's values stay in registers.
+            /// Where the decoder reads. Kept out of the symbol loop (refills are rare), so
+            /// that the loop's values stay in registers.
             struct Reader<'a> {
                 data: &'a [u8],
-                byte: usize,
+                /// The stream bit just past the buffer's last loaded bit.
+                end: usize,
             }
 
             impl Reader<'_> {
-                /// Moves past the `used` bits of the buffer's first bytes and loads it again;
-                /// returns the buffer and how many of its low bits are already used (0 to 7).
+                /// Bits read so far.
+                fn at(&self, buf: u32) -> usize {
+                    let unread = 31u32.wrapping_sub(buf.leading_zeros());
+                    self.end.wrapping_sub(unread as usize)
+                }
+
+                /// Moves past the bits read from `buf` and loads it again: the word from the
+                /// byte before the next unread bit, less the 1 to 8 bits before it, so that
+                /// 24 to 31 bits and the marker fit.
                 #[inline(never)]
-                fn refill(&mut self, used: u32) -> (u32, u32) {
-                    self.byte += (used >> 3) as usize;
-                    let used = used & 7;
-                    (word(self.data, self.byte) >> used, used)
+                fn refill(&mut self, buf: u32) -> u32 {
+                    let before = self.at(buf).wrapping_sub(1);
+                    let first = before >> 3;
+                    self.end = (before | 7).wrapping_add(25);
+                    // Drops the bits before `at`: one, then `before & 7`.
+                    ((word(self.data, first) >> 1) | 1 << 31) >> (before & 7)
                 }
             }
 
@@ -700,7 +793,11 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             #[allow(clippy::modulo_one)]
             pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
                 let header = #header_len;
-                let mut writer = Writer { pos: out.len(), out };
+                let mut writer = Writer {
+                    pos: out.len(),
+                    out,
+                    full: false,
+                };
                 let state = [TABLE_LEN as u32; LANES];
                 // The pending bits under a marker bit: `1` alone is none.
                 let acc: u32 = 1;
@@ -711,18 +808,9 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     state,
                     lane: input.len().wrapping_sub(1) % LANES,
                     absent: 0,
-                    full: false,
                 };
-                // Two symbols a turn of the loop: half the loop's own instructions.
-                let (rest, pairs) = input.as_rchunks::<2>();
-                for &[a, b] in pairs.iter().rev() {
-                    e.one(&mut writer, b);
-                    e.one(&mut writer, a);
-                }
-                for &symbol in rest.iter().rev() {
-                    e.one(&mut writer, symbol);
-                }
-                if e.full {
+                e.run(&mut writer, input);
+                if writer.full {
                     return Err(Error::OutputTooSmall);
                 }
                 let Encoding {
@@ -734,15 +822,18 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 for &x in state.iter().rev() {
                     acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                     if acc >> (32 - MOST) != 0 {
-                        acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+                        acc = writer.flush(acc);
                     }
                 }
                 // Store the whole bytes first: up to 31 bits may pend, and the marker must stay
                 // inside the word when the padding goes under them.
-                let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+                let acc = writer.flush(acc);
                 let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
-                writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
-                let Writer { out, pos } = writer;
+                writer.flush(acc << pad);
+                let Writer { out, pos, full } = writer;
+                if full {
+                    return Err(Error::OutputTooSmall);
+                }
                 let len = move_to_front(out, pos, header)?;
                 #finish
                 Ok(len)
@@ -753,28 +844,17 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             #[allow(clippy::modulo_one)]
             pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
                 #decode_start
-                let mut reader = Reader {
-                    data: payload,
-                    byte: at >> 3,
-                };
-                let (buf, used) = reader.refill((at & 7) as u32);
+                // An empty buffer (the marker alone) at `at`, which is at least `TABLE_BITS`.
+                let mut reader = Reader { data: payload, end: at };
+                let buf = reader.refill(1);
                 let mut d = Decoding {
                     buf,
-                    used,
                     state,
                     lane: 0,
                 };
-                // Two symbols a turn of the loop: half the loop's own instructions.
-                let (pairs, rest) = out.as_chunks_mut::<2>();
-                for [a, b] in pairs {
-                    d.one(&mut reader, a);
-                    d.one(&mut reader, b);
-                }
-                for slot in rest {
-                    d.one(&mut reader, slot);
-                }
-                let Decoding { used, state, .. } = d;
-                let at = reader.byte * 8 + used as usize;
+                d.run(&mut reader, out);
+                let Decoding { buf, state, .. } = d;
+                let at = reader.at(buf);
                 #decode_end
             }
 

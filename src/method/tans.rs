@@ -103,7 +103,9 @@ impl Tans {
 /// Largest table whose next states fit a byte (states are `L .. 2L`).
 pub const NARROW_NEXT_TABLE_BITS: u32 = 7;
 
-/// Largest table whose [`Put::spend`] fits 16 bits (`spend < (table_bits + 1) << (table_bits + 1)`).
+/// Largest table whose [`Put::spend`] plus a state fits 16 bits
+/// (`x + spend < (table_bits + 1) << (table_bits + 1)`): `spend` and `run` then share one
+/// 32-bit entry, and the sum never carries into `run`.
 pub const NARROW_SPEND_TABLE_BITS: u32 = 11;
 
 impl Tans {
@@ -116,8 +118,8 @@ impl Tans {
         }
     }
 
-    /// Whether [`Put::spend`] is stored in 16 bits.
-    pub fn narrow_spend(&self) -> bool {
+    /// Whether [`Put::spend`] and [`Put::run`] share one 32-bit entry (`spend` low).
+    pub fn joined_put(&self) -> bool {
         self.table_bits <= NARROW_SPEND_TABLE_BITS
     }
 
@@ -173,22 +175,30 @@ impl Tans {
     }
 
     /// The emitted tables: `symbol_bytes` is the size of the generated `Symbol`, `put_rows`
-    /// the rows of the encoding tables. Each table is an array of one field (decode: the
-    /// symbol, and the step packed in one integer; encode: `spend` and `run`), so that the
-    /// hot loops load each with one instruction and no entry carries padding.
+    /// the rows of the encoding tables. An entry is what one step of a hot loop reads, so
+    /// that it costs the fewest loads from the fewest base registers (32-bit cores have few)
+    /// and carries no padding. Decode: the symbol, and the step packed in one integer, each one
+    /// load by position. Encode: `spend | run << 16` in 4 bytes (larger tables split them).
     pub fn layout(&self, symbol_bytes: usize, put_rows: usize, _absent: bool) -> TableLayout {
         let l = self.table_len();
         let step = if self.step_shift() == 12 { 2 } else { 4 };
-        let spend = if self.narrow_spend() { 2 } else { 4 };
-        TableLayout {
-            tables: vec![
-                LayoutEntry::new("SYMBOLS", "Symbol", l, &[symbol_bytes]),
-                LayoutEntry::new("STEPS", "step", l, &[step]),
-                LayoutEntry::new("SPEND", "spend", put_rows, &[spend]),
-                LayoutEntry::new("RUN", "u16", put_rows, &[2]),
-                LayoutEntry::new("NEXT_STATE", "state", l, &[self.next_bytes()]),
-            ],
+        let mut tables = vec![
+            LayoutEntry::new("SYMBOLS", "Symbol", l, &[symbol_bytes]),
+            LayoutEntry::new("STEPS", "step", l, &[step]),
+        ];
+        if self.joined_put() {
+            tables.push(LayoutEntry::new("PUT", "u32", put_rows, &[4]));
+        } else {
+            tables.push(LayoutEntry::new("SPEND", "u32", put_rows, &[4]));
+            tables.push(LayoutEntry::new("RUN", "u16", put_rows, &[2]));
         }
+        tables.push(LayoutEntry::new(
+            "NEXT_STATE",
+            "state",
+            l,
+            &[self.next_bytes()],
+        ));
+        TableLayout { tables }
     }
 }
 

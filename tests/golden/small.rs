@@ -159,566 +159,46 @@ pub mod mit_text {
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
-    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
-    /// and the next state.
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state.
     #[inline(always)]
-    #[allow(clippy::useless_conversion)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
+        let put = PUT[row];
+        let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
+        let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// The decode step at table position `i`: the bits to read, and the position they
-    /// are added to.
+    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
+    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
+    /// a value outside the alphabet.
+    static PUT: [u32; 124] = [
+        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 0 ..
+        2147483648, 2147483648, 32838976, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 8 ..
+        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 16 ..
+        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 24 ..
+        29690320, 2147483648, 5185024, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 32 ..
+        5382656, 5448192, 2147483648, 2147483648, 4855104, 2147483648, 6168064, 6365696, // 40 ..
+        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 48 ..
+        2147483648, 2147483648, 6431232, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 56 ..
+        2147483648, 5641344, 7281920, 7346560, 7674240, 7213536, 9050368, 9641216, // 64 ..
+        9442752, 9507296, 2147483648, 11674112, 11344000, 11999744, 11539520, 12325312, // 72 ..
+        14424576, 2147483648, 13832672, 15275264, 15602080, 17832448, 18293248, 18094464, // 80 ..
+        18686464, 18619648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 88 ..
+        2147483648, 18224384, 19470720, 19600896, 20125184, 19665184, 22222976, 22878720, // 96 ..
+        22746496, 22679904, 25371136, 2147483648, 24974848, 25762304, 25302080, 25694464, // 104 ..
+        28514688, 2147483648, 28382464, 28905984, 29495584, 32119040, 32842240, 32643456, // 112 ..
+        2147483648, 33103104, 33432064, 2147483648, // 120 ..
+    ];
+    /// The decode step at table position `i`: its symbol, the bits to read, and the
+    /// position they are added to.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn step(i: usize) -> (u32, usize) {
+    fn step(i: usize) -> (Symbol, u32, usize) {
         let step = u32::from(STEPS[i]);
         let bits = step >> STEP_SHIFT;
-        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
-    }
-    #[cfg(target_pointer_width = "64")]
-    pub use wide::{decode_prefix, encode};
-    #[cfg(not(target_pointer_width = "64"))]
-    pub use narrow::{decode_prefix, encode};
-    /// The 64-bit path: a 64-bit bit buffer, rounds of symbols with one bounds check.
-    #[cfg(target_pointer_width = "64")]
-    mod wide {
-        use super::*;
-        /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
-        const PER_LOAD: usize = 6;
-        /// Symbols encoded between two stores (fewer than 64 bits stay pending).
-        const PER_FLUSH: usize = 6;
-        /// Symbols in one decoder round (a multiple of `LANES`).
-        const DECODE_ROUND: usize = 8;
-        /// Symbols in one encoder round (a multiple of `LANES`).
-        const ENCODE_ROUND: usize = 6;
-        /// Stream bytes one decoder round may touch.
-        const DECODE_WINDOW: usize = 15;
-        /// Output bytes one encoder round may touch.
-        const ENCODE_WINDOW: usize = 15;
-        /// Shifts the low `bits` bits of `x` in under the pending bits of `acc` (the
-        /// stream is built back to front, so they come first): `high` is `x >> bits`.
-        #[inline(always)]
-        fn push(acc: u64, x: u32, high: u32, bits: u32) -> u64 {
-            (acc << bits) | u64::from(x ^ (high << bits))
-        }
-        /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
-        /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
-        /// bits already stored, which this shifts out.
-        #[inline(always)]
-        fn aligned(acc: u64, pending: u32) -> u64 {
-            acc.wrapping_shl(64u32.wrapping_sub(pending))
-        }
-        /// Stores the whole bytes of the pending bits in front of `pos`.
-        #[inline(always)]
-        fn store(
-            out: &mut [u8],
-            pos: &mut usize,
-            acc: u64,
-            pending: &mut u32,
-        ) -> Result<(), Error> {
-            let whole = (*pending >> 3) as usize;
-            let bytes = aligned(acc, *pending).to_le_bytes();
-            let (Some(start), Some(top)) = (
-                pos.checked_sub(whole),
-                bytes.get(8 - whole..),
-            ) else {
-                return Err(Error::OutputTooSmall);
-            };
-            let Some(dst) = out.get_mut(start..*pos) else {
-                return Err(Error::OutputTooSmall);
-            };
-            for (d, s) in dst.iter_mut().zip(top) {
-                *d = *s;
-            }
-            *pos = start;
-            *pending &= 7;
-            Ok(())
-        }
-        /// Encodes `input` into `out` as one stream; returns its length.
-        ///
-        /// The stream is written back to front at the end of `out`, then moved to the
-        /// front; `out` beyond the returned length is left unspecified.
-        #[allow(clippy::modulo_one)]
-        pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
-            let header = 3 + leb128_len(input.len());
-            let mut pos = out.len();
-            let mut state = [TABLE_LEN as u32; LANES];
-            let mut acc: u64 = 0;
-            let mut pending: u32 = 0;
-            let mut absent: u32 = 0;
-            let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
-            for (i, &symbol) in rest.iter().enumerate().rev() {
-                let row = usize::from(symbol).min(123);
-                absent |= u32::from(RUN[row] >> 15);
-                let x = state[i % LANES];
-                let (bits, high, next) = put_symbol(x, row);
-                acc = push(acc, x, high, bits);
-                state[i % LANES] = next;
-                pending += bits;
-                store(out, &mut pos, acc, &mut pending)?;
-            }
-            for round in rounds.iter().rev() {
-                let window = out
-                    .get_mut(..pos)
-                    .and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
-                if let Some(window) = window {
-                    let top = pos;
-                    for i in (0..ENCODE_ROUND).rev() {
-                        let symbol = round[i];
-                        let row = usize::from(symbol).min(123);
-                        absent |= u32::from(RUN[row] >> 15);
-                        let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, row);
-                        acc = push(acc, x, high, bits);
-                        state[i % LANES] = next;
-                        pending += bits;
-                        if i % PER_FLUSH == 0 {
-                            let at = (ENCODE_WINDOW - 8)
-                                .saturating_sub(top.wrapping_sub(pos));
-                            if let Some(dst) = window
-                                .get_mut(at..)
-                                .and_then(<[u8]>::first_chunk_mut::<8>)
-                            {
-                                *dst = aligned(acc, pending).to_le_bytes();
-                            }
-                            pos = pos.wrapping_sub((pending >> 3) as usize);
-                            pending &= 7;
-                        }
-                    }
-                } else {
-                    for i in (0..ENCODE_ROUND).rev() {
-                        let symbol = round[i];
-                        let row = usize::from(symbol).min(123);
-                        absent |= u32::from(RUN[row] >> 15);
-                        let x = state[i % LANES];
-                        let (bits, high, next) = put_symbol(x, row);
-                        acc = push(acc, x, high, bits);
-                        state[i % LANES] = next;
-                        pending += bits;
-                        store(out, &mut pos, acc, &mut pending)?;
-                    }
-                }
-            }
-            if absent != 0 {
-                let position = input
-                    .iter()
-                    .position(|&symbol| {
-                        u32::from(RUN[usize::from(symbol).min(123)] >> 15) != 0
-                    })
-                    .unwrap_or(0);
-                return Err(Error::UnknownSymbol { position });
-            }
-            for &x in state.iter().rev() {
-                acc = (acc << TABLE_BITS) | u64::from(x).wrapping_sub(TABLE_LEN as u64);
-                pending += TABLE_BITS;
-                store(out, &mut pos, acc, &mut pending)?;
-            }
-            let pad = (8 - pending % 8) % 8;
-            acc <<= pad;
-            pending += pad;
-            store(out, &mut pos, acc, &mut pending)?;
-            let len = move_to_front(out, pos, header)?;
-            write_header(out, input.len(), header, pad as u8);
-            Ok(len)
-        }
-        /// Decodes the stream at the front of `stream` (more may follow it); returns the
-        /// number of symbols and the number of bytes the stream took.
-        #[allow(clippy::modulo_one)]
-        pub fn decode_prefix(
-            stream: &[u8],
-            out: &mut [Symbol],
-        ) -> Result<(usize, usize), Error> {
-            let (count, header, pad) = read_header(stream)?;
-            let Some(out) = out.get_mut(..count) else {
-                return Err(Error::OutputTooSmall);
-            };
-            let payload = stream.get(header..).unwrap_or(&[]);
-            const ZERO_RUN: usize = 0;
-            let room = payload
-                .len()
-                .saturating_mul(8)
-                .saturating_sub(pad + LANES * TABLE_BITS as usize);
-            if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
-                return Err(Error::Truncated);
-            }
-            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
-                return Err(Error::Corrupt);
-            }
-            let mut at = pad;
-            let mut state = [0usize; LANES];
-            for x in state.iter_mut() {
-                *x = peek(payload, at) as usize & MASK;
-                at += TABLE_BITS as usize;
-            }
-            let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
-            let mut done = 0;
-            for round in rounds.iter_mut() {
-                let Some(window) = payload
-                    .get(at >> 3..)
-                    .and_then(<[u8]>::first_chunk::<DECODE_WINDOW>) else {
-                    break;
-                };
-                let first = at >> 3;
-                let mut buf = 0u64;
-                for (i, slot) in round.iter_mut().enumerate() {
-                    if i % PER_LOAD == 0 {
-                        buf = window_word(window, (at >> 3).wrapping_sub(first))
-                            >> (at & 7);
-                    }
-                    let x = &mut state[i % LANES];
-                    let at_x = *x & MASK;
-                    *slot = SYMBOLS[at_x];
-                    let (bits, base) = step(at_x);
-                    *x = base + (buf & !(u64::MAX << bits)) as usize;
-                    buf >>= bits;
-                    at += bits as usize;
-                }
-                done += DECODE_ROUND;
-            }
-            for (i, slot) in out.iter_mut().enumerate().skip(done) {
-                let x = &mut state[i % LANES];
-                let at_x = *x & MASK;
-                *slot = SYMBOLS[at_x];
-                let (bits, base) = step(at_x);
-                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
-                at += bits as usize;
-            }
-            if at.div_ceil(8) > payload.len() {
-                return Err(Error::Truncated);
-            }
-            if state.iter().any(|&x| x != 0) {
-                return Err(Error::Corrupt);
-            }
-            if !at.is_multiple_of(8) {
-                return Err(Error::Corrupt);
-            }
-            Ok((count, header + at.div_ceil(8)))
-        }
-        /// Eight bytes of `window` from `at` on, little-endian. The rounds never read past
-        /// `N - 8`; the `min` only lets the compiler see it and drop the bounds check.
-        #[inline(always)]
-        fn window_word<const N: usize>(window: &[u8; N], at: usize) -> u64 {
-            let at = if at < N - 8 { at } else { N - 8 };
-            match window.get(at..).and_then(<[u8]>::first_chunk::<8>) {
-                Some(w) => u64::from_le_bytes(*w),
-                None => 0,
-            }
-        }
-        /// The stream bits from bit `at` on, least significant first (57 or more valid).
-        #[inline(always)]
-        fn peek(data: &[u8], at: usize) -> u64 {
-            word(data, at >> 3) >> (at & 7)
-        }
-    }
-    /// The 32-bit path: a 32-bit bit buffer and one loop for every symbol.
-    #[cfg(not(target_pointer_width = "64"))]
-    mod narrow {
-        use super::*;
-        /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
-        /// buffer holds a marker bit above its pending bits; at or above
-        /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
-        const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS {
-            MAX_SYMBOL_BITS
-        } else {
-            TABLE_BITS
-        };
-        /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
-        /// loop (its stores are rare), so that the loop's values stay in registers.
-        struct Writer<'a> {
-            out: &'a mut [u8],
-            pos: usize,
-        }
-        impl Writer<'_> {
-            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
-            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
-            /// is too small.
-            #[inline(never)]
-            fn flush(&mut self, acc: u32) -> Option<u32> {
-                let pending = 31u32.wrapping_sub(acc.leading_zeros());
-                let whole = (pending >> 3) as usize;
-                let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
-                let start = self.pos.checked_sub(whole)?;
-                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
-                {
-                    Some(dst) => *dst = bytes,
-                    None => {
-                        let dst = self.out.get_mut(start..self.pos)?;
-                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
-                        for (d, s) in dst.iter_mut().zip(src) {
-                            *d = *s;
-                        }
-                    }
-                }
-                self.pos = start;
-                let drop = 31 - (pending & 7);
-                Some(((acc << drop) | 1 << 31) >> drop)
-            }
-        }
-        impl Writer<'_> {
-            /// Stores the low 16 bits of `half` in front of `pos`; `false` when `out` is
-            /// too small.
-            #[inline(always)]
-            fn put16(&mut self, half: u32) -> bool {
-                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
-                {
-                    Some(dst) => {
-                        *dst = (half as u16).to_le_bytes();
-                        self.pos -= 2;
-                        true
-                    }
-                    None => false,
-                }
-            }
-        }
-        /// The encoder's running values, kept in registers by the symbol loop.
-        struct Encoding {
-            /// The pending bits under a marker bit.
-            acc: u32,
-            state: [u32; LANES],
-            lane: usize,
-            /// Not zero once a value outside the alphabet was seen.
-            absent: u32,
-            /// Set when `out` turned out too small.
-            full: bool,
-        }
-        impl Encoding {
-            /// Puts one symbol into its lane's state.
-            #[inline(always)]
-            #[allow(clippy::modulo_one)]
-            fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
-                let lane = self.lane % LANES;
-                let row = usize::from(symbol).min(123);
-                let mut absent = 0u32;
-                absent |= u32::from(RUN[row] >> 15);
-                self.absent |= absent;
-                let x = self.state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                self.acc = ((self.acc ^ high) << bits) ^ x;
-                self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
-                if self.acc >> (32 - MOST) != 0 {
-                    let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
-                    let top = self.acc >> keep;
-                    if writer.put16(top) {
-                        self.acc -= (top - 1) << keep;
-                    } else {
-                        self.full = true;
-                    }
-                }
-            }
-        }
-        /// The decoder's running values, kept in registers by the symbol loop.
-        struct Decoding {
-            /// The stream from the reader's byte on, of which the low `used` bits are
-            /// used.
-            buf: u32,
-            used: u32,
-            state: [usize; LANES],
-            lane: usize,
-        }
-        impl Decoding {
-            /// Decodes one symbol from its lane's state into `slot`.
-            #[inline(always)]
-            #[allow(clippy::modulo_one)]
-            fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                if self.used > 32 - MAX_SYMBOL_BITS {
-                    (self.buf, self.used) = reader.refill(self.used);
-                }
-                let lane = self.lane % LANES;
-                let i = self.state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
-                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
-                self.buf >>= bits;
-                self.used += bits;
-                self.lane = (lane + 1) % LANES;
-            }
-        }
-        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
-        /// symbol loop (refills are rare), so that the loop's values stay in registers.
-        struct Reader<'a> {
-            data: &'a [u8],
-            byte: usize,
-        }
-        impl Reader<'_> {
-            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
-            /// returns the buffer and how many of its low bits are already used (0 to 7).
-            #[inline(never)]
-            fn refill(&mut self, used: u32) -> (u32, u32) {
-                self.byte += (used >> 3) as usize;
-                let used = used & 7;
-                (word(self.data, self.byte) >> used, used)
-            }
-        }
-        /// Encodes `input` into `out` as one stream; returns its length.
-        ///
-        /// The stream is written back to front at the end of `out`, then moved to the
-        /// front; `out` beyond the returned length is left unspecified.
-        #[allow(clippy::modulo_one)]
-        pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
-            let header = 3 + leb128_len(input.len());
-            let mut writer = Writer { pos: out.len(), out };
-            let state = [TABLE_LEN as u32; LANES];
-            let acc: u32 = 1;
-            let mut e = Encoding {
-                acc,
-                state,
-                lane: input.len().wrapping_sub(1) % LANES,
-                absent: 0,
-                full: false,
-            };
-            let (rest, pairs) = input.as_rchunks::<2>();
-            for &[a, b] in pairs.iter().rev() {
-                e.one(&mut writer, b);
-                e.one(&mut writer, a);
-            }
-            for &symbol in rest.iter().rev() {
-                e.one(&mut writer, symbol);
-            }
-            if e.full {
-                return Err(Error::OutputTooSmall);
-            }
-            let Encoding { mut acc, state, .. } = e;
-            let absent = e.absent;
-            if absent != 0 {
-                let position = input
-                    .iter()
-                    .position(|&symbol| {
-                        u32::from(RUN[usize::from(symbol).min(123)] >> 15) != 0
-                    })
-                    .unwrap_or(0);
-                return Err(Error::UnknownSymbol { position });
-            }
-            for &x in state.iter().rev() {
-                acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
-                if acc >> (32 - MOST) != 0 {
-                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
-                }
-            }
-            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
-            let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
-            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
-            let Writer { out, pos } = writer;
-            let len = move_to_front(out, pos, header)?;
-            write_header(out, input.len(), header, pad as u8);
-            Ok(len)
-        }
-        /// Decodes the stream at the front of `stream` (more may follow it); returns the
-        /// number of symbols and the number of bytes the stream took.
-        #[allow(clippy::modulo_one)]
-        pub fn decode_prefix(
-            stream: &[u8],
-            out: &mut [Symbol],
-        ) -> Result<(usize, usize), Error> {
-            let (count, header, pad) = read_header(stream)?;
-            let Some(out) = out.get_mut(..count) else {
-                return Err(Error::OutputTooSmall);
-            };
-            let payload = stream.get(header..).unwrap_or(&[]);
-            const ZERO_RUN: usize = 0;
-            let room = payload
-                .len()
-                .saturating_mul(8)
-                .saturating_sub(pad + LANES * TABLE_BITS as usize);
-            if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
-                return Err(Error::Truncated);
-            }
-            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
-                return Err(Error::Corrupt);
-            }
-            let mut at = pad;
-            let mut state = [0usize; LANES];
-            for x in state.iter_mut() {
-                *x = peek(payload, at) as usize & MASK;
-                at += TABLE_BITS as usize;
-            }
-            let mut reader = Reader {
-                data: payload,
-                byte: at >> 3,
-            };
-            let (buf, used) = reader.refill((at & 7) as u32);
-            let mut d = Decoding {
-                buf,
-                used,
-                state,
-                lane: 0,
-            };
-            let (pairs, rest) = out.as_chunks_mut::<2>();
-            for [a, b] in pairs {
-                d.one(&mut reader, a);
-                d.one(&mut reader, b);
-            }
-            for slot in rest {
-                d.one(&mut reader, slot);
-            }
-            let Decoding { used, state, .. } = d;
-            let at = reader.byte * 8 + used as usize;
-            if at.div_ceil(8) > payload.len() {
-                return Err(Error::Truncated);
-            }
-            if state.iter().any(|&x| x != 0) {
-                return Err(Error::Corrupt);
-            }
-            if !at.is_multiple_of(8) {
-                return Err(Error::Corrupt);
-            }
-            Ok((count, header + at.div_ceil(8)))
-        }
-        /// The stream bits from bit `at` on, least significant first (25 or more valid).
-        #[inline(always)]
-        fn peek(data: &[u8], at: usize) -> u32 {
-            word(data, at >> 3) >> (at & 7)
-        }
-    }
-    /// The bit buffer's word: the target's register.
-    #[cfg(target_pointer_width = "64")]
-    type Word = u64;
-    /// The bit buffer's word: the target's register.
-    #[cfg(not(target_pointer_width = "64"))]
-    type Word = u32;
-    /// A word of `data` from byte `at` on, little-endian, zeros past the end.
-    #[inline(always)]
-    fn word(data: &[u8], at: usize) -> Word {
-        const N: usize = ::core::mem::size_of::<Word>();
-        match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
-            Some(w) => Word::from_le_bytes(*w),
-            None => {
-                let mut w = [0u8; N];
-                for (k, dst) in w.iter_mut().enumerate() {
-                    *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
-                }
-                Word::from_le_bytes(w)
-            }
-        }
-    }
-    /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
-    /// returns its length. Copies in pieces no longer than the distance moved, so that
-    /// source and destination never overlap and no index can fail.
-    fn move_to_front(out: &mut [u8], from: usize, to: usize) -> Result<usize, Error> {
-        let (Some(gap), Some(len)) = (from.checked_sub(to), out.len().checked_sub(from))
-        else {
-            return Err(Error::OutputTooSmall);
-        };
-        let mut done = 0;
-        while gap > 0 && done < len {
-            let step = if len - done < gap { len - done } else { gap };
-            let Some((front, back)) = out.split_at_mut_checked(from + done) else {
-                break;
-            };
-            if let (Some(dst), Some(src)) = (
-                front.get_mut(to + done..),
-                back.get(..step),
-            ) {
-                for (d, s) in dst.iter_mut().zip(src) {
-                    *d = *s;
-                }
-            }
-            done += step;
-        }
-        Ok(to + len)
+        (SYMBOLS[i], bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
     /// Where a decode step's bit count starts in its `STEPS` entry.
     const STEP_SHIFT: u32 = 12;
@@ -826,31 +306,581 @@ pub mod mit_text {
         16576, 16592, 8224, 25024, 25024, 25024, 16624, 20512, 20576, 8228, 20640, 20832, 8232, 20896, 20896, 16400, // 480
         16432, 16592, 8236, 24640, 24640, 29056, 28800, 33024, 36864, 36864, 36864, 36864, 36864, 36864, 36864, 36864, // 496
     ];
-    /// Encoding, by input value: from state `x` the encoder writes
-    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
-    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
-    /// value outside the alphabet.
-    static SPEND: [u16; 124] = [
-        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 5440, 0, 0, 0, 0, 0, // 0 ..
-        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, // 16 ..
-        2512, 0, 7680, 0, 0, 0, 0, 0, 8704, 8704, 0, 0, 5440, 0, 7680, 8704, // 32 ..
-        0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 8704, 0, 0, 0, 0, 0, // 48 ..
-        0, 5248, 7424, 6528, 6528, 4576, 6400, 7424, 5568, 4576, 0, 8704, 6272, 6656, 5184, 4544, // 64 ..
-        6656, 0, 4576, 5376, 4512, 6656, 8704, 6528, 8704, 7424, 0, 0, 0, 0, 0, 0, // 80 ..
-        0, 5376, 6528, 5632, 5632, 4384, 6272, 6656, 5504, 4448, 8704, 0, 5632, 6656, 5184, 4352, // 96 ..
-        6528, 0, 5376, 4608, 4384, 6400, 8704, 6528, 0, 7424, 8704, 0, // 112 ..
-    ];
-    /// See [`SPEND`].
-    static RUN: [u16; 124] = [
-        32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 501, 32768, 32768, 32768, 32768, 32768, // 0 ..
-        32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, // 16 ..
-        453, 32768, 79, 32768, 32768, 32768, 32768, 32768, 82, 83, 32768, 32768, 74, 32768, 94, 97, // 32 ..
-        32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 32768, 98, 32768, 32768, 32768, 32768, 32768, // 48 ..
-        32768, 86, 111, 112, 117, 110, 138, 147, 144, 145, 32768, 178, 173, 183, 176, 188, // 64 ..
-        220, 32768, 211, 233, 238, 272, 279, 276, 285, 284, 32768, 32768, 32768, 32768, 32768, 32768, // 80 ..
-        32768, 278, 297, 299, 307, 300, 339, 349, 347, 346, 387, 32768, 381, 393, 386, 392, // 96 ..
-        435, 32768, 433, 441, 450, 490, 501, 498, 32768, 505, 510, 32768, // 112 ..
-    ];
+    #[cfg(target_pointer_width = "64")]
+    pub use wide::{decode_prefix, encode};
+    #[cfg(not(target_pointer_width = "64"))]
+    pub use narrow::{decode_prefix, encode};
+    /// The 64-bit path: a 64-bit bit buffer, rounds of symbols with one bounds check.
+    #[cfg(target_pointer_width = "64")]
+    mod wide {
+        use super::*;
+        /// Symbols decoded from one 64-bit load of the stream (at least 57 bits are unread).
+        const PER_LOAD: usize = 6;
+        /// Symbols encoded between two stores (fewer than 64 bits stay pending).
+        const PER_FLUSH: usize = 6;
+        /// Symbols in one decoder round (a multiple of `LANES`).
+        const DECODE_ROUND: usize = 8;
+        /// Symbols in one encoder round (a multiple of `LANES`).
+        const ENCODE_ROUND: usize = 6;
+        /// Stream bytes one decoder round may touch.
+        const DECODE_WINDOW: usize = 15;
+        /// Output bytes one encoder round may touch.
+        const ENCODE_WINDOW: usize = 15;
+        /// Shifts the low `bits` bits of `x` in under the pending bits of `acc` (the
+        /// stream is built back to front, so they come first): `high` is `x >> bits`.
+        #[inline(always)]
+        fn push(acc: u64, x: u32, high: u32, bits: u32) -> u64 {
+            (acc << bits) | u64::from(x ^ (high << bits))
+        }
+        /// The pending bits (the low `pending` of `acc`) moved to the top of a word: its
+        /// little-endian bytes end with the whole bytes to store. Above them `acc` holds
+        /// bits already stored, which this shifts out.
+        #[inline(always)]
+        fn aligned(acc: u64, pending: u32) -> u64 {
+            acc.wrapping_shl(64u32.wrapping_sub(pending))
+        }
+        /// Stores the whole bytes of the pending bits in front of `pos`.
+        #[inline(always)]
+        fn store(
+            out: &mut [u8],
+            pos: &mut usize,
+            acc: u64,
+            pending: &mut u32,
+        ) -> Result<(), Error> {
+            let whole = (*pending >> 3) as usize;
+            let bytes = aligned(acc, *pending).to_le_bytes();
+            let (Some(start), Some(top)) = (
+                pos.checked_sub(whole),
+                bytes.get(8 - whole..),
+            ) else {
+                return Err(Error::OutputTooSmall);
+            };
+            let Some(dst) = out.get_mut(start..*pos) else {
+                return Err(Error::OutputTooSmall);
+            };
+            for (d, s) in dst.iter_mut().zip(top) {
+                *d = *s;
+            }
+            *pos = start;
+            *pending &= 7;
+            Ok(())
+        }
+        /// Encodes `input` into `out` as one stream; returns its length.
+        ///
+        /// The stream is written back to front at the end of `out`, then moved to the
+        /// front; `out` beyond the returned length is left unspecified.
+        #[allow(clippy::modulo_one)]
+        pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
+            let header = 3 + leb128_len(input.len());
+            let mut pos = out.len();
+            let mut state = [TABLE_LEN as u32; LANES];
+            let mut acc: u64 = 0;
+            let mut pending: u32 = 0;
+            let mut absent: u32 = 0;
+            let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
+            for (i, &symbol) in rest.iter().enumerate().rev() {
+                let row = usize::from(symbol).min(123);
+                absent |= PUT[row] >> 31;
+                let x = state[i % LANES];
+                let (bits, high, next) = put_symbol(x, row);
+                acc = push(acc, x, high, bits);
+                state[i % LANES] = next;
+                pending += bits;
+                store(out, &mut pos, acc, &mut pending)?;
+            }
+            for round in rounds.iter().rev() {
+                let window = out
+                    .get_mut(..pos)
+                    .and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
+                if let Some(window) = window {
+                    let top = pos;
+                    for i in (0..ENCODE_ROUND).rev() {
+                        let symbol = round[i];
+                        let row = usize::from(symbol).min(123);
+                        absent |= PUT[row] >> 31;
+                        let x = state[i % LANES];
+                        let (bits, high, next) = put_symbol(x, row);
+                        acc = push(acc, x, high, bits);
+                        state[i % LANES] = next;
+                        pending += bits;
+                        if i % PER_FLUSH == 0 {
+                            let at = (ENCODE_WINDOW - 8)
+                                .saturating_sub(top.wrapping_sub(pos));
+                            if let Some(dst) = window
+                                .get_mut(at..)
+                                .and_then(<[u8]>::first_chunk_mut::<8>)
+                            {
+                                *dst = aligned(acc, pending).to_le_bytes();
+                            }
+                            pos = pos.wrapping_sub((pending >> 3) as usize);
+                            pending &= 7;
+                        }
+                    }
+                } else {
+                    for i in (0..ENCODE_ROUND).rev() {
+                        let symbol = round[i];
+                        let row = usize::from(symbol).min(123);
+                        absent |= PUT[row] >> 31;
+                        let x = state[i % LANES];
+                        let (bits, high, next) = put_symbol(x, row);
+                        acc = push(acc, x, high, bits);
+                        state[i % LANES] = next;
+                        pending += bits;
+                        store(out, &mut pos, acc, &mut pending)?;
+                    }
+                }
+            }
+            if absent != 0 {
+                let position = input
+                    .iter()
+                    .position(|&symbol| PUT[usize::from(symbol).min(123)] >> 31 != 0)
+                    .unwrap_or(0);
+                return Err(Error::UnknownSymbol { position });
+            }
+            for &x in state.iter().rev() {
+                acc = (acc << TABLE_BITS) | u64::from(x).wrapping_sub(TABLE_LEN as u64);
+                pending += TABLE_BITS;
+                store(out, &mut pos, acc, &mut pending)?;
+            }
+            let pad = (8 - pending % 8) % 8;
+            acc <<= pad;
+            pending += pad;
+            store(out, &mut pos, acc, &mut pending)?;
+            let len = move_to_front(out, pos, header)?;
+            write_header(out, input.len(), header, pad as u8);
+            Ok(len)
+        }
+        /// Decodes the stream at the front of `stream` (more may follow it); returns the
+        /// number of symbols and the number of bytes the stream took.
+        #[allow(clippy::modulo_one)]
+        pub fn decode_prefix(
+            stream: &[u8],
+            out: &mut [Symbol],
+        ) -> Result<(usize, usize), Error> {
+            let (count, header, pad) = read_header(stream)?;
+            let Some(out) = out.get_mut(..count) else {
+                return Err(Error::OutputTooSmall);
+            };
+            let payload = stream.get(header..).unwrap_or(&[]);
+            const ZERO_RUN: usize = 0;
+            let room = payload
+                .len()
+                .saturating_mul(8)
+                .saturating_sub(pad + LANES * TABLE_BITS as usize);
+            if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+                return Err(Error::Truncated);
+            }
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
+                return Err(Error::Corrupt);
+            }
+            let mut at = pad;
+            let mut state = [0usize; LANES];
+            for x in state.iter_mut() {
+                *x = peek(payload, at) as usize & MASK;
+                at += TABLE_BITS as usize;
+            }
+            let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
+            let mut done = 0;
+            for round in rounds.iter_mut() {
+                let Some(window) = payload
+                    .get(at >> 3..)
+                    .and_then(<[u8]>::first_chunk::<DECODE_WINDOW>) else {
+                    break;
+                };
+                let first = at >> 3;
+                let mut buf = 0u64;
+                for (i, slot) in round.iter_mut().enumerate() {
+                    if i % PER_LOAD == 0 {
+                        buf = window_word(window, (at >> 3).wrapping_sub(first))
+                            >> (at & 7);
+                    }
+                    let x = &mut state[i % LANES];
+                    let (symbol, bits, base) = step(*x & MASK);
+                    *slot = symbol;
+                    *x = base + (buf & !(u64::MAX << bits)) as usize;
+                    buf >>= bits;
+                    at += bits as usize;
+                }
+                done += DECODE_ROUND;
+            }
+            for (i, slot) in out.iter_mut().enumerate().skip(done) {
+                let x = &mut state[i % LANES];
+                let (symbol, bits, base) = step(*x & MASK);
+                *slot = symbol;
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                at += bits as usize;
+            }
+            if at.div_ceil(8) > payload.len() {
+                return Err(Error::Truncated);
+            }
+            if state.iter().any(|&x| x != 0) {
+                return Err(Error::Corrupt);
+            }
+            if !at.is_multiple_of(8) {
+                return Err(Error::Corrupt);
+            }
+            Ok((count, header + at.div_ceil(8)))
+        }
+        /// Eight bytes of `window` from `at` on, little-endian. The rounds never read past
+        /// `N - 8`; the `min` only lets the compiler see it and drop the bounds check.
+        #[inline(always)]
+        fn window_word<const N: usize>(window: &[u8; N], at: usize) -> u64 {
+            let at = if at < N - 8 { at } else { N - 8 };
+            match window.get(at..).and_then(<[u8]>::first_chunk::<8>) {
+                Some(w) => u64::from_le_bytes(*w),
+                None => 0,
+            }
+        }
+        /// The stream bits from bit `at` on, least significant first (57 or more valid).
+        #[inline(always)]
+        fn peek(data: &[u8], at: usize) -> u64 {
+            word(data, at >> 3) >> (at & 7)
+        }
+    }
+    /// The 32-bit path: a 32-bit bit buffer and one loop for every symbol.
+    #[cfg(not(target_pointer_width = "64"))]
+    mod narrow {
+        use super::*;
+        /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
+        /// buffer holds a marker bit above its pending bits; at or above
+        /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
+        const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS {
+            MAX_SYMBOL_BITS
+        } else {
+            TABLE_BITS
+        };
+        /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
+        /// loop (its stores are rare), so that the loop's values stay in registers.
+        struct Writer<'a> {
+            out: &'a mut [u8],
+            pos: usize,
+            /// Set when `out` turned out too small (the bits are dropped from then on).
+            full: bool,
+        }
+        impl Writer<'_> {
+            /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
+            /// in front of `pos`, or notes that `out` is too small; returns the rest under
+            /// the marker. Never fails, so that the loop carries no error.
+            #[inline(never)]
+            fn flush(&mut self, acc: u32) -> u32 {
+                let pending = 31u32.wrapping_sub(acc.leading_zeros());
+                let whole = (pending >> 3) as usize;
+                let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
+                {
+                    Some(dst) => {
+                        *dst = bytes;
+                        self.pos -= whole;
+                    }
+                    None => self.store_tail(bytes, whole),
+                }
+                let drop = 31 - (pending & 7);
+                ((acc << drop) | 1 << 31) >> drop
+            }
+            /// Stores the last `whole` of `bytes` in front of `pos` byte by byte (the front
+            /// of `out`), or notes that `out` is too small. Out of line: the common store
+            /// then needs no stack.
+            #[inline(never)]
+            #[cold]
+            fn store_tail(&mut self, bytes: [u8; 4], whole: usize) {
+                let start = self.pos.checked_sub(whole);
+                let dst = start.and_then(|start| self.out.get_mut(start..self.pos));
+                match (dst, bytes.get(4usize.wrapping_sub(whole)..)) {
+                    (Some(dst), Some(src)) => {
+                        for (d, s) in dst.iter_mut().zip(src) {
+                            *d = *s;
+                        }
+                        self.pos -= whole;
+                    }
+                    _ => self.full = true,
+                }
+            }
+        }
+        impl Writer<'_> {
+            /// Stores the low 16 bits of `half` in front of `pos`, or notes that `out` is
+            /// too small.
+            #[inline(always)]
+            fn put16(&mut self, half: u32) {
+                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
+                {
+                    Some(dst) => {
+                        *dst = (half as u16).to_le_bytes();
+                        self.pos -= 2;
+                    }
+                    None => self.full = true,
+                }
+            }
+        }
+        /// The encoder's running values, kept in registers by the symbol loop.
+        struct Encoding {
+            /// The pending bits under a marker bit.
+            acc: u32,
+            state: [u32; LANES],
+            lane: usize,
+            /// Not zero once a value outside the alphabet was seen.
+            absent: u32,
+        }
+        impl Encoding {
+            /// Puts `input` into the states, last symbol first. A function of its own, so
+            /// that only the loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, writer: &mut Writer<'_>, input: &[Symbol]) {
+                let mut e = Encoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (rest, pairs) = input.as_rchunks::<2>();
+                for &[a, b] in pairs.iter().rev() {
+                    e.one(writer, b);
+                    e.one(writer, a);
+                }
+                for &symbol in rest.iter().rev() {
+                    e.one(writer, symbol);
+                }
+                *self = e;
+            }
+            /// Puts one symbol into its lane's state.
+            #[inline(always)]
+            #[allow(clippy::modulo_one)]
+            fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
+                let lane = self.lane % LANES;
+                let row = usize::from(symbol).min(123);
+                let mut absent = 0u32;
+                absent |= PUT[row] >> 31;
+                self.absent |= absent;
+                let x = self.state[lane];
+                let (bits, high, next) = put_symbol(x, row);
+                self.acc = ((self.acc ^ high) << bits) ^ x;
+                self.state[lane] = next;
+                self.lane = (lane + LANES - 1) % LANES;
+                if self.acc >> (32 - MOST) != 0 {
+                    let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
+                    let top = self.acc >> keep;
+                    writer.put16(top);
+                    self.acc -= (top - 1) << keep;
+                }
+            }
+        }
+        /// The decoder's running values, kept in registers by the symbol loop.
+        struct Decoding {
+            /// Unread stream bits under a marker bit: below `1 << MAX_SYMBOL_BITS` the
+            /// next symbol may need more than there are, and it is refilled.
+            buf: u32,
+            state: [usize; LANES],
+            lane: usize,
+        }
+        impl Decoding {
+            /// Decodes `out.len()` symbols. A function of its own, so that only the
+            /// loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, reader: &mut Reader<'_>, out: &mut [Symbol]) {
+                let mut d = Decoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (pairs, rest) = out.as_chunks_mut::<2>();
+                for [a, b] in pairs {
+                    d.one(reader, a);
+                    d.one(reader, b);
+                }
+                for slot in rest {
+                    d.one(reader, slot);
+                }
+                *self = d;
+            }
+            /// Decodes one symbol from its lane's state into `slot`.
+            #[inline(always)]
+            #[allow(clippy::modulo_one)]
+            fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
+                if self.buf < 1 << MAX_SYMBOL_BITS {
+                    self.buf = reader.refill(self.buf);
+                }
+                let lane = self.lane % LANES;
+                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                *slot = symbol;
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.lane = (lane + 1) % LANES;
+            }
+        }
+        /// Where the decoder reads. Kept out of the symbol loop (refills are rare), so
+        /// that the loop's values stay in registers.
+        struct Reader<'a> {
+            data: &'a [u8],
+            /// The stream bit just past the buffer's last loaded bit.
+            end: usize,
+        }
+        impl Reader<'_> {
+            /// Bits read so far.
+            fn at(&self, buf: u32) -> usize {
+                let unread = 31u32.wrapping_sub(buf.leading_zeros());
+                self.end.wrapping_sub(unread as usize)
+            }
+            /// Moves past the bits read from `buf` and loads it again: the word from the
+            /// byte before the next unread bit, less the 1 to 8 bits before it, so that
+            /// 24 to 31 bits and the marker fit.
+            #[inline(never)]
+            fn refill(&mut self, buf: u32) -> u32 {
+                let before = self.at(buf).wrapping_sub(1);
+                let first = before >> 3;
+                self.end = (before | 7).wrapping_add(25);
+                ((word(self.data, first) >> 1) | 1 << 31) >> (before & 7)
+            }
+        }
+        /// Encodes `input` into `out` as one stream; returns its length.
+        ///
+        /// The stream is written back to front at the end of `out`, then moved to the
+        /// front; `out` beyond the returned length is left unspecified.
+        #[allow(clippy::modulo_one)]
+        pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
+            let header = 3 + leb128_len(input.len());
+            let mut writer = Writer {
+                pos: out.len(),
+                out,
+                full: false,
+            };
+            let state = [TABLE_LEN as u32; LANES];
+            let acc: u32 = 1;
+            let mut e = Encoding {
+                acc,
+                state,
+                lane: input.len().wrapping_sub(1) % LANES,
+                absent: 0,
+            };
+            e.run(&mut writer, input);
+            if writer.full {
+                return Err(Error::OutputTooSmall);
+            }
+            let Encoding { mut acc, state, .. } = e;
+            let absent = e.absent;
+            if absent != 0 {
+                let position = input
+                    .iter()
+                    .position(|&symbol| PUT[usize::from(symbol).min(123)] >> 31 != 0)
+                    .unwrap_or(0);
+                return Err(Error::UnknownSymbol { position });
+            }
+            for &x in state.iter().rev() {
+                acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
+                if acc >> (32 - MOST) != 0 {
+                    acc = writer.flush(acc);
+                }
+            }
+            let acc = writer.flush(acc);
+            let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
+            writer.flush(acc << pad);
+            let Writer { out, pos, full } = writer;
+            if full {
+                return Err(Error::OutputTooSmall);
+            }
+            let len = move_to_front(out, pos, header)?;
+            write_header(out, input.len(), header, pad as u8);
+            Ok(len)
+        }
+        /// Decodes the stream at the front of `stream` (more may follow it); returns the
+        /// number of symbols and the number of bytes the stream took.
+        #[allow(clippy::modulo_one)]
+        pub fn decode_prefix(
+            stream: &[u8],
+            out: &mut [Symbol],
+        ) -> Result<(usize, usize), Error> {
+            let (count, header, pad) = read_header(stream)?;
+            let Some(out) = out.get_mut(..count) else {
+                return Err(Error::OutputTooSmall);
+            };
+            let payload = stream.get(header..).unwrap_or(&[]);
+            const ZERO_RUN: usize = 0;
+            let room = payload
+                .len()
+                .saturating_mul(8)
+                .saturating_sub(pad + LANES * TABLE_BITS as usize);
+            if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
+                return Err(Error::Truncated);
+            }
+            if peek(payload, 0) & !(Word::MAX << pad) != 0 {
+                return Err(Error::Corrupt);
+            }
+            let mut at = pad;
+            let mut state = [0usize; LANES];
+            for x in state.iter_mut() {
+                *x = peek(payload, at) as usize & MASK;
+                at += TABLE_BITS as usize;
+            }
+            let mut reader = Reader { data: payload, end: at };
+            let buf = reader.refill(1);
+            let mut d = Decoding { buf, state, lane: 0 };
+            d.run(&mut reader, out);
+            let Decoding { buf, state, .. } = d;
+            let at = reader.at(buf);
+            if at.div_ceil(8) > payload.len() {
+                return Err(Error::Truncated);
+            }
+            if state.iter().any(|&x| x != 0) {
+                return Err(Error::Corrupt);
+            }
+            if !at.is_multiple_of(8) {
+                return Err(Error::Corrupt);
+            }
+            Ok((count, header + at.div_ceil(8)))
+        }
+        /// The stream bits from bit `at` on, least significant first (25 or more valid).
+        #[inline(always)]
+        fn peek(data: &[u8], at: usize) -> u32 {
+            word(data, at >> 3) >> (at & 7)
+        }
+    }
+    /// The bit buffer's word: the target's register.
+    #[cfg(target_pointer_width = "64")]
+    type Word = u64;
+    /// The bit buffer's word: the target's register.
+    #[cfg(not(target_pointer_width = "64"))]
+    type Word = u32;
+    /// A word of `data` from byte `at` on, little-endian, zeros past the end.
+    #[inline(always)]
+    fn word(data: &[u8], at: usize) -> Word {
+        const N: usize = ::core::mem::size_of::<Word>();
+        match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
+            Some(w) => Word::from_le_bytes(*w),
+            None => word_tail(data, at),
+        }
+    }
+    /// [`word`] at the end of `data`, byte by byte. Out of line (it runs once a stream
+    /// at most), so that the common load stays short.
+    #[cold]
+    #[inline(never)]
+    fn word_tail(data: &[u8], at: usize) -> Word {
+        let mut w = [0u8; ::core::mem::size_of::<Word>()];
+        for (k, dst) in w.iter_mut().enumerate() {
+            *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+        }
+        Word::from_le_bytes(w)
+    }
+    /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
+    /// returns its length. Copies in pieces no longer than the distance moved, so that
+    /// source and destination never overlap and no index can fail.
+    fn move_to_front(out: &mut [u8], from: usize, to: usize) -> Result<usize, Error> {
+        let (Some(gap), Some(len)) = (from.checked_sub(to), out.len().checked_sub(from))
+        else {
+            return Err(Error::OutputTooSmall);
+        };
+        let mut done = 0;
+        while gap > 0 && done < len {
+            let step = if len - done < gap { len - done } else { gap };
+            let Some((front, back)) = out.split_at_mut_checked(from + done) else {
+                break;
+            };
+            if let (Some(dst), Some(src)) = (
+                front.get_mut(to + done..),
+                back.get(..step),
+            ) {
+                for (d, s) in dst.iter_mut().zip(src) {
+                    *d = *s;
+                }
+            }
+            done += step;
+        }
+        Ok(to + len)
+    }
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
     static NEXT_STATE: [u16; TABLE_LEN] = [
@@ -950,8 +980,7 @@ pub mod mit_text {
     }
     const _: [(); 512] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 1024] = [(); ::core::mem::size_of_val(&STEPS)];
-    const _: [(); 248] = [(); ::core::mem::size_of_val(&SPEND)];
-    const _: [(); 248] = [(); ::core::mem::size_of_val(&RUN)];
+    const _: [(); 496] = [(); ::core::mem::size_of_val(&PUT)];
     const _: [(); 1024] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `five`: 5 symbols, tANS, 1 lane(s), table of 2^6 = 64 slots.
@@ -1094,25 +1123,54 @@ pub mod five {
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
-    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
-    /// and the next state.
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state.
     #[inline(always)]
-    #[allow(clippy::useless_conversion)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
+        let put = PUT[row];
+        let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
+        let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// The decode step at table position `i`: the bits to read, and the position they
-    /// are added to.
+    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
+    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
+    /// a value outside the alphabet.
+    static PUT: [u32; 5] = [
+        3145920, 192, 1245464, 2294064, 3014968, // a ..
+    ];
+    /// The decode step at table position `i`: its symbol, the bits to read, and the
+    /// position they are added to.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn step(i: usize) -> (u32, usize) {
+    fn step(i: usize) -> (Symbol, u32, usize) {
         let step = u32::from(STEPS[i]);
         let bits = step >> STEP_SHIFT;
-        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
+        (SYMBOLS[i], bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 0
+        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 8
+        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, // 16
+        Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::A, Symbol::B, Symbol::D, // 24
+        Symbol::E, Symbol::C, Symbol::A, Symbol::B, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 32
+        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 40
+        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 48
+        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 56
+    ];
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        12296, 8192, 8192, 12328, 12304, 12304, 8196, 8196, 12336, 8200, 8200, 12312, 12312, 12344, 8204, 8204, // 0
+        8208, 8208, 8192, 12320, 12320, 8212, 8212, 8196, 12328, 12328, 8216, 8216, 8200, 8220, 8220, 12336, // 16
+        12336, 8204, 8224, 8224, 8228, 8228, 8208, 12344, 12344, 8232, 8232, 8212, 8192, 8192, 8236, 8236, // 32
+        8216, 8240, 8240, 8196, 8196, 8220, 8244, 8244, 8248, 8248, 8224, 8200, 8252, 8252, 8228, 8204, // 48
+    ];
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
     #[cfg(not(target_pointer_width = "64"))]
@@ -1291,9 +1349,8 @@ pub mod five {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let at_x = *x & MASK;
-                    *slot = SYMBOLS[at_x];
-                    let (bits, base) = step(at_x);
+                    let (symbol, bits, base) = step(*x & MASK);
+                    *slot = symbol;
                     *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
@@ -1302,9 +1359,8 @@ pub mod five {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let at_x = *x & MASK;
-                *slot = SYMBOLS[at_x];
-                let (bits, base) = step(at_x);
+                let (symbol, bits, base) = step(*x & MASK);
+                *slot = symbol;
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
@@ -1352,46 +1408,60 @@ pub mod five {
         struct Writer<'a> {
             out: &'a mut [u8],
             pos: usize,
+            /// Set when `out` turned out too small (the bits are dropped from then on).
+            full: bool,
         }
         impl Writer<'_> {
             /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
-            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
-            /// is too small.
+            /// in front of `pos`, or notes that `out` is too small; returns the rest under
+            /// the marker. Never fails, so that the loop carries no error.
             #[inline(never)]
-            fn flush(&mut self, acc: u32) -> Option<u32> {
+            fn flush(&mut self, acc: u32) -> u32 {
                 let pending = 31u32.wrapping_sub(acc.leading_zeros());
                 let whole = (pending >> 3) as usize;
                 let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
-                let start = self.pos.checked_sub(whole)?;
                 match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
                 {
-                    Some(dst) => *dst = bytes,
-                    None => {
-                        let dst = self.out.get_mut(start..self.pos)?;
-                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                    Some(dst) => {
+                        *dst = bytes;
+                        self.pos -= whole;
+                    }
+                    None => self.store_tail(bytes, whole),
+                }
+                let drop = 31 - (pending & 7);
+                ((acc << drop) | 1 << 31) >> drop
+            }
+            /// Stores the last `whole` of `bytes` in front of `pos` byte by byte (the front
+            /// of `out`), or notes that `out` is too small. Out of line: the common store
+            /// then needs no stack.
+            #[inline(never)]
+            #[cold]
+            fn store_tail(&mut self, bytes: [u8; 4], whole: usize) {
+                let start = self.pos.checked_sub(whole);
+                let dst = start.and_then(|start| self.out.get_mut(start..self.pos));
+                match (dst, bytes.get(4usize.wrapping_sub(whole)..)) {
+                    (Some(dst), Some(src)) => {
                         for (d, s) in dst.iter_mut().zip(src) {
                             *d = *s;
                         }
+                        self.pos -= whole;
                     }
+                    _ => self.full = true,
                 }
-                self.pos = start;
-                let drop = 31 - (pending & 7);
-                Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
         impl Writer<'_> {
-            /// Stores the low 16 bits of `half` in front of `pos`; `false` when `out` is
+            /// Stores the low 16 bits of `half` in front of `pos`, or notes that `out` is
             /// too small.
             #[inline(always)]
-            fn put16(&mut self, half: u32) -> bool {
+            fn put16(&mut self, half: u32) {
                 match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
                 {
                     Some(dst) => {
                         *dst = (half as u16).to_le_bytes();
                         self.pos -= 2;
-                        true
                     }
-                    None => false,
+                    None => self.full = true,
                 }
             }
         }
@@ -1403,10 +1473,26 @@ pub mod five {
             lane: usize,
             /// Not zero once a value outside the alphabet was seen.
             absent: u32,
-            /// Set when `out` turned out too small.
-            full: bool,
         }
         impl Encoding {
+            /// Puts `input` into the states, last symbol first. A function of its own, so
+            /// that only the loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, writer: &mut Writer<'_>, input: &[Symbol]) {
+                let mut e = Encoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (rest, pairs) = input.as_rchunks::<2>();
+                for &[a, b] in pairs.iter().rev() {
+                    e.one(writer, b);
+                    e.one(writer, a);
+                }
+                for &symbol in rest.iter().rev() {
+                    e.one(writer, symbol);
+                }
+                *self = e;
+            }
             /// Puts one symbol into its lane's state.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
@@ -1421,55 +1507,75 @@ pub mod five {
                 if self.acc >> (32 - MOST) != 0 {
                     let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
                     let top = self.acc >> keep;
-                    if writer.put16(top) {
-                        self.acc -= (top - 1) << keep;
-                    } else {
-                        self.full = true;
-                    }
+                    writer.put16(top);
+                    self.acc -= (top - 1) << keep;
                 }
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
         struct Decoding {
-            /// The stream from the reader's byte on, of which the low `used` bits are
-            /// used.
+            /// Unread stream bits under a marker bit: below `1 << MAX_SYMBOL_BITS` the
+            /// next symbol may need more than there are, and it is refilled.
             buf: u32,
-            used: u32,
             state: [usize; LANES],
             lane: usize,
         }
         impl Decoding {
+            /// Decodes `out.len()` symbols. A function of its own, so that only the
+            /// loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, reader: &mut Reader<'_>, out: &mut [Symbol]) {
+                let mut d = Decoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (pairs, rest) = out.as_chunks_mut::<2>();
+                for [a, b] in pairs {
+                    d.one(reader, a);
+                    d.one(reader, b);
+                }
+                for slot in rest {
+                    d.one(reader, slot);
+                }
+                *self = d;
+            }
             /// Decodes one symbol from its lane's state into `slot`.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
             fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                if self.used > 32 - MAX_SYMBOL_BITS {
-                    (self.buf, self.used) = reader.refill(self.used);
+                if self.buf < 1 << MAX_SYMBOL_BITS {
+                    self.buf = reader.refill(self.buf);
                 }
                 let lane = self.lane % LANES;
-                let i = self.state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
+                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                *slot = symbol;
                 self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                 self.buf >>= bits;
-                self.used += bits;
                 self.lane = (lane + 1) % LANES;
             }
         }
-        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
-        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        /// Where the decoder reads. Kept out of the symbol loop (refills are rare), so
+        /// that the loop's values stay in registers.
         struct Reader<'a> {
             data: &'a [u8],
-            byte: usize,
+            /// The stream bit just past the buffer's last loaded bit.
+            end: usize,
         }
         impl Reader<'_> {
-            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
-            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            /// Bits read so far.
+            fn at(&self, buf: u32) -> usize {
+                let unread = 31u32.wrapping_sub(buf.leading_zeros());
+                self.end.wrapping_sub(unread as usize)
+            }
+            /// Moves past the bits read from `buf` and loads it again: the word from the
+            /// byte before the next unread bit, less the 1 to 8 bits before it, so that
+            /// 24 to 31 bits and the marker fit.
             #[inline(never)]
-            fn refill(&mut self, used: u32) -> (u32, u32) {
-                self.byte += (used >> 3) as usize;
-                let used = used & 7;
-                (word(self.data, self.byte) >> used, used)
+            fn refill(&mut self, buf: u32) -> u32 {
+                let before = self.at(buf).wrapping_sub(1);
+                let first = before >> 3;
+                self.end = (before | 7).wrapping_add(25);
+                ((word(self.data, first) >> 1) | 1 << 31) >> (before & 7)
             }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
@@ -1479,7 +1585,11 @@ pub mod five {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut writer = Writer { pos: out.len(), out };
+            let mut writer = Writer {
+                pos: out.len(),
+                out,
+                full: false,
+            };
             let state = [TABLE_LEN as u32; LANES];
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -1487,17 +1597,9 @@ pub mod five {
                 state,
                 lane: input.len().wrapping_sub(1) % LANES,
                 absent: 0,
-                full: false,
             };
-            let (rest, pairs) = input.as_rchunks::<2>();
-            for &[a, b] in pairs.iter().rev() {
-                e.one(&mut writer, b);
-                e.one(&mut writer, a);
-            }
-            for &symbol in rest.iter().rev() {
-                e.one(&mut writer, symbol);
-            }
-            if e.full {
+            e.run(&mut writer, input);
+            if writer.full {
                 return Err(Error::OutputTooSmall);
             }
             let Encoding { mut acc, state, .. } = e;
@@ -1505,13 +1607,16 @@ pub mod five {
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
-                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+                    acc = writer.flush(acc);
                 }
             }
-            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+            let acc = writer.flush(acc);
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
-            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
-            let Writer { out, pos } = writer;
+            writer.flush(acc << pad);
+            let Writer { out, pos, full } = writer;
+            if full {
+                return Err(Error::OutputTooSmall);
+            }
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -1545,27 +1650,12 @@ pub mod five {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut reader = Reader {
-                data: payload,
-                byte: at >> 3,
-            };
-            let (buf, used) = reader.refill((at & 7) as u32);
-            let mut d = Decoding {
-                buf,
-                used,
-                state,
-                lane: 0,
-            };
-            let (pairs, rest) = out.as_chunks_mut::<2>();
-            for [a, b] in pairs {
-                d.one(&mut reader, a);
-                d.one(&mut reader, b);
-            }
-            for slot in rest {
-                d.one(&mut reader, slot);
-            }
-            let Decoding { used, state, .. } = d;
-            let at = reader.byte * 8 + used as usize;
+            let mut reader = Reader { data: payload, end: at };
+            let buf = reader.refill(1);
+            let mut d = Decoding { buf, state, lane: 0 };
+            d.run(&mut reader, out);
+            let Decoding { buf, state, .. } = d;
+            let at = reader.at(buf);
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -1595,14 +1685,19 @@ pub mod five {
         const N: usize = ::core::mem::size_of::<Word>();
         match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
             Some(w) => Word::from_le_bytes(*w),
-            None => {
-                let mut w = [0u8; N];
-                for (k, dst) in w.iter_mut().enumerate() {
-                    *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
-                }
-                Word::from_le_bytes(w)
-            }
+            None => word_tail(data, at),
         }
+    }
+    /// [`word`] at the end of `data`, byte by byte. Out of line (it runs once a stream
+    /// at most), so that the common load stays short.
+    #[cold]
+    #[inline(never)]
+    fn word_tail(data: &[u8], at: usize) -> Word {
+        let mut w = [0u8; ::core::mem::size_of::<Word>()];
+        for (k, dst) in w.iter_mut().enumerate() {
+            *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+        }
+        Word::from_le_bytes(w)
     }
     /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
     /// returns its length. Copies in pieces no longer than the distance moved, so that
@@ -1630,39 +1725,6 @@ pub mod five {
         }
         Ok(to + len)
     }
-    /// Where a decode step's bit count starts in its `STEPS` entry.
-    const STEP_SHIFT: u32 = 12;
-    /// The symbol at each table position (the spread of symbols over the table).
-    static SYMBOLS: [Symbol; TABLE_LEN] = [
-        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 0
-        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 8
-        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, // 16
-        Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::A, Symbol::B, Symbol::D, // 24
-        Symbol::E, Symbol::C, Symbol::A, Symbol::B, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 32
-        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 40
-        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 48
-        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 56
-    ];
-    /// The decode step at each table position: after emitting the position's symbol the
-    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
-    /// `(step & (2^STEP_SHIFT - 1)) + b`.
-    static STEPS: [u16; TABLE_LEN] = [
-        12296, 8192, 8192, 12328, 12304, 12304, 8196, 8196, 12336, 8200, 8200, 12312, 12312, 12344, 8204, 8204, // 0
-        8208, 8208, 8192, 12320, 12320, 8212, 8212, 8196, 12328, 12328, 8216, 8216, 8200, 8220, 8220, 12336, // 16
-        12336, 8204, 8224, 8224, 8228, 8228, 8208, 12344, 12344, 8232, 8232, 8212, 8192, 8192, 8236, 8236, // 32
-        8216, 8240, 8240, 8196, 8196, 8220, 8244, 8244, 8248, 8248, 8224, 8200, 8252, 8252, 8228, 8204, // 48
-    ];
-    /// Encoding, by input value: from state `x` the encoder writes
-    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
-    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
-    /// value outside the alphabet.
-    static SPEND: [u16; 5] = [
-        192, 192, 280, 304, 312, // a ..
-    ];
-    /// See [`SPEND`].
-    static RUN: [u16; 5] = [
-        48, 0, 19, 35, 46, // a ..
-    ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
     static NEXT_STATE: [u8; TABLE_LEN] = [
@@ -1734,8 +1796,7 @@ pub mod five {
     }
     const _: [(); 64] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 128] = [(); ::core::mem::size_of_val(&STEPS)];
-    const _: [(); 10] = [(); ::core::mem::size_of_val(&SPEND)];
-    const _: [(); 10] = [(); ::core::mem::size_of_val(&RUN)];
+    const _: [(); 20] = [(); ::core::mem::size_of_val(&PUT)];
     const _: [(); 64] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `skewed`: 2 symbols, tANS, 1 lane(s), table of 2^7 = 128 slots.
@@ -1857,25 +1918,66 @@ pub mod skewed {
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
-    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
-    /// and the next state.
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state.
     #[inline(always)]
-    #[allow(clippy::useless_conversion)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
+        let put = PUT[row];
+        let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
+        let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// The decode step at table position `i`: the bits to read, and the position they
-    /// are added to.
+    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
+    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
+    /// a value outside the alphabet.
+    static PUT: [u32; 2] = [
+        851994, 6685488, // likely ..
+    ];
+    /// The decode step at table position `i`: its symbol, the bits to read, and the
+    /// position they are added to.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn step(i: usize) -> (u32, usize) {
+    fn step(i: usize) -> (Symbol, u32, usize) {
         let step = u32::from(STEPS[i]);
         let bits = step >> STEP_SHIFT;
-        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
+        (SYMBOLS[i], bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 0
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 8
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 16
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 24
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 32
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 40
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 48
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 56
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 64
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 72
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 80
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 88
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 96
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 104
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 112
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 120
+    ];
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        4198, 4200, 4202, 4204, 4206, 4208, 16464, 4210, 4212, 4214, 4216, 4218, 4220, 4222, 0, 1, // 0
+        16480, 2, 3, 4, 5, 6, 7, 8, 9, 10, 16496, 11, 12, 13, 14, 15, // 16
+        16, 17, 18, 19, 12288, 20, 21, 22, 23, 24, 25, 26, 27, 28, 12296, 29, // 32
+        30, 31, 32, 33, 34, 35, 36, 37, 12304, 38, 39, 40, 41, 42, 43, 44, // 48
+        45, 46, 12312, 47, 48, 49, 50, 51, 52, 53, 54, 55, 12320, 56, 57, 58, // 64
+        59, 60, 61, 62, 63, 64, 12328, 65, 66, 67, 68, 69, 70, 71, 72, 73, // 80
+        12336, 74, 75, 76, 77, 78, 79, 80, 81, 82, 12344, 83, 84, 85, 86, 87, // 96
+        88, 89, 90, 91, 12352, 92, 93, 94, 95, 96, 97, 98, 99, 100, 12360, 101, // 112
+    ];
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
     #[cfg(not(target_pointer_width = "64"))]
@@ -2054,9 +2156,8 @@ pub mod skewed {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let at_x = *x & MASK;
-                    *slot = SYMBOLS[at_x];
-                    let (bits, base) = step(at_x);
+                    let (symbol, bits, base) = step(*x & MASK);
+                    *slot = symbol;
                     *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
@@ -2065,9 +2166,8 @@ pub mod skewed {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let at_x = *x & MASK;
-                *slot = SYMBOLS[at_x];
-                let (bits, base) = step(at_x);
+                let (symbol, bits, base) = step(*x & MASK);
+                *slot = symbol;
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
@@ -2115,31 +2215,46 @@ pub mod skewed {
         struct Writer<'a> {
             out: &'a mut [u8],
             pos: usize,
+            /// Set when `out` turned out too small (the bits are dropped from then on).
+            full: bool,
         }
         impl Writer<'_> {
             /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
-            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
-            /// is too small.
+            /// in front of `pos`, or notes that `out` is too small; returns the rest under
+            /// the marker. Never fails, so that the loop carries no error.
             #[inline(never)]
-            fn flush(&mut self, acc: u32) -> Option<u32> {
+            fn flush(&mut self, acc: u32) -> u32 {
                 let pending = 31u32.wrapping_sub(acc.leading_zeros());
                 let whole = (pending >> 3) as usize;
                 let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
-                let start = self.pos.checked_sub(whole)?;
                 match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
                 {
-                    Some(dst) => *dst = bytes,
-                    None => {
-                        let dst = self.out.get_mut(start..self.pos)?;
-                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                    Some(dst) => {
+                        *dst = bytes;
+                        self.pos -= whole;
+                    }
+                    None => self.store_tail(bytes, whole),
+                }
+                let drop = 31 - (pending & 7);
+                ((acc << drop) | 1 << 31) >> drop
+            }
+            /// Stores the last `whole` of `bytes` in front of `pos` byte by byte (the front
+            /// of `out`), or notes that `out` is too small. Out of line: the common store
+            /// then needs no stack.
+            #[inline(never)]
+            #[cold]
+            fn store_tail(&mut self, bytes: [u8; 4], whole: usize) {
+                let start = self.pos.checked_sub(whole);
+                let dst = start.and_then(|start| self.out.get_mut(start..self.pos));
+                match (dst, bytes.get(4usize.wrapping_sub(whole)..)) {
+                    (Some(dst), Some(src)) => {
                         for (d, s) in dst.iter_mut().zip(src) {
                             *d = *s;
                         }
+                        self.pos -= whole;
                     }
+                    _ => self.full = true,
                 }
-                self.pos = start;
-                let drop = 31 - (pending & 7);
-                Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
         /// The encoder's running values, kept in registers by the symbol loop.
@@ -2150,10 +2265,26 @@ pub mod skewed {
             lane: usize,
             /// Not zero once a value outside the alphabet was seen.
             absent: u32,
-            /// Set when `out` turned out too small.
-            full: bool,
         }
         impl Encoding {
+            /// Puts `input` into the states, last symbol first. A function of its own, so
+            /// that only the loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, writer: &mut Writer<'_>, input: &[Symbol]) {
+                let mut e = Encoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (rest, pairs) = input.as_rchunks::<2>();
+                for &[a, b] in pairs.iter().rev() {
+                    e.one(writer, b);
+                    e.one(writer, a);
+                }
+                for &symbol in rest.iter().rev() {
+                    e.one(writer, symbol);
+                }
+                *self = e;
+            }
             /// Puts one symbol into its lane's state.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
@@ -2166,54 +2297,74 @@ pub mod skewed {
                 self.state[lane] = next;
                 self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
-                    match writer.flush(self.acc) {
-                        Some(rest) => self.acc = rest,
-                        None => self.full = true,
-                    }
+                    self.acc = writer.flush(self.acc);
                 }
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
         struct Decoding {
-            /// The stream from the reader's byte on, of which the low `used` bits are
-            /// used.
+            /// Unread stream bits under a marker bit: below `1 << MAX_SYMBOL_BITS` the
+            /// next symbol may need more than there are, and it is refilled.
             buf: u32,
-            used: u32,
             state: [usize; LANES],
             lane: usize,
         }
         impl Decoding {
+            /// Decodes `out.len()` symbols. A function of its own, so that only the
+            /// loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, reader: &mut Reader<'_>, out: &mut [Symbol]) {
+                let mut d = Decoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (pairs, rest) = out.as_chunks_mut::<2>();
+                for [a, b] in pairs {
+                    d.one(reader, a);
+                    d.one(reader, b);
+                }
+                for slot in rest {
+                    d.one(reader, slot);
+                }
+                *self = d;
+            }
             /// Decodes one symbol from its lane's state into `slot`.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
             fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                if self.used > 32 - MAX_SYMBOL_BITS {
-                    (self.buf, self.used) = reader.refill(self.used);
+                if self.buf < 1 << MAX_SYMBOL_BITS {
+                    self.buf = reader.refill(self.buf);
                 }
                 let lane = self.lane % LANES;
-                let i = self.state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
+                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                *slot = symbol;
                 self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                 self.buf >>= bits;
-                self.used += bits;
                 self.lane = (lane + 1) % LANES;
             }
         }
-        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
-        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        /// Where the decoder reads. Kept out of the symbol loop (refills are rare), so
+        /// that the loop's values stay in registers.
         struct Reader<'a> {
             data: &'a [u8],
-            byte: usize,
+            /// The stream bit just past the buffer's last loaded bit.
+            end: usize,
         }
         impl Reader<'_> {
-            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
-            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            /// Bits read so far.
+            fn at(&self, buf: u32) -> usize {
+                let unread = 31u32.wrapping_sub(buf.leading_zeros());
+                self.end.wrapping_sub(unread as usize)
+            }
+            /// Moves past the bits read from `buf` and loads it again: the word from the
+            /// byte before the next unread bit, less the 1 to 8 bits before it, so that
+            /// 24 to 31 bits and the marker fit.
             #[inline(never)]
-            fn refill(&mut self, used: u32) -> (u32, u32) {
-                self.byte += (used >> 3) as usize;
-                let used = used & 7;
-                (word(self.data, self.byte) >> used, used)
+            fn refill(&mut self, buf: u32) -> u32 {
+                let before = self.at(buf).wrapping_sub(1);
+                let first = before >> 3;
+                self.end = (before | 7).wrapping_add(25);
+                ((word(self.data, first) >> 1) | 1 << 31) >> (before & 7)
             }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
@@ -2223,7 +2374,11 @@ pub mod skewed {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut writer = Writer { pos: out.len(), out };
+            let mut writer = Writer {
+                pos: out.len(),
+                out,
+                full: false,
+            };
             let state = [TABLE_LEN as u32; LANES];
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -2231,17 +2386,9 @@ pub mod skewed {
                 state,
                 lane: input.len().wrapping_sub(1) % LANES,
                 absent: 0,
-                full: false,
             };
-            let (rest, pairs) = input.as_rchunks::<2>();
-            for &[a, b] in pairs.iter().rev() {
-                e.one(&mut writer, b);
-                e.one(&mut writer, a);
-            }
-            for &symbol in rest.iter().rev() {
-                e.one(&mut writer, symbol);
-            }
-            if e.full {
+            e.run(&mut writer, input);
+            if writer.full {
                 return Err(Error::OutputTooSmall);
             }
             let Encoding { mut acc, state, .. } = e;
@@ -2249,13 +2396,16 @@ pub mod skewed {
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
-                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+                    acc = writer.flush(acc);
                 }
             }
-            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+            let acc = writer.flush(acc);
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
-            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
-            let Writer { out, pos } = writer;
+            writer.flush(acc << pad);
+            let Writer { out, pos, full } = writer;
+            if full {
+                return Err(Error::OutputTooSmall);
+            }
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -2289,27 +2439,12 @@ pub mod skewed {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut reader = Reader {
-                data: payload,
-                byte: at >> 3,
-            };
-            let (buf, used) = reader.refill((at & 7) as u32);
-            let mut d = Decoding {
-                buf,
-                used,
-                state,
-                lane: 0,
-            };
-            let (pairs, rest) = out.as_chunks_mut::<2>();
-            for [a, b] in pairs {
-                d.one(&mut reader, a);
-                d.one(&mut reader, b);
-            }
-            for slot in rest {
-                d.one(&mut reader, slot);
-            }
-            let Decoding { used, state, .. } = d;
-            let at = reader.byte * 8 + used as usize;
+            let mut reader = Reader { data: payload, end: at };
+            let buf = reader.refill(1);
+            let mut d = Decoding { buf, state, lane: 0 };
+            d.run(&mut reader, out);
+            let Decoding { buf, state, .. } = d;
+            let at = reader.at(buf);
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -2339,14 +2474,19 @@ pub mod skewed {
         const N: usize = ::core::mem::size_of::<Word>();
         match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
             Some(w) => Word::from_le_bytes(*w),
-            None => {
-                let mut w = [0u8; N];
-                for (k, dst) in w.iter_mut().enumerate() {
-                    *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
-                }
-                Word::from_le_bytes(w)
-            }
+            None => word_tail(data, at),
         }
+    }
+    /// [`word`] at the end of `data`, byte by byte. Out of line (it runs once a stream
+    /// at most), so that the common load stays short.
+    #[cold]
+    #[inline(never)]
+    fn word_tail(data: &[u8], at: usize) -> Word {
+        let mut w = [0u8; ::core::mem::size_of::<Word>()];
+        for (k, dst) in w.iter_mut().enumerate() {
+            *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+        }
+        Word::from_le_bytes(w)
     }
     /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
     /// returns its length. Copies in pieces no longer than the distance moved, so that
@@ -2374,51 +2514,6 @@ pub mod skewed {
         }
         Ok(to + len)
     }
-    /// Where a decode step's bit count starts in its `STEPS` entry.
-    const STEP_SHIFT: u32 = 12;
-    /// The symbol at each table position (the spread of symbols over the table).
-    static SYMBOLS: [Symbol; TABLE_LEN] = [
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 0
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 8
-        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 16
-        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 24
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 32
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 40
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 48
-        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 56
-        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 64
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 72
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 80
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 88
-        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 96
-        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 104
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 112
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 120
-    ];
-    /// The decode step at each table position: after emitting the position's symbol the
-    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
-    /// `(step & (2^STEP_SHIFT - 1)) + b`.
-    static STEPS: [u16; TABLE_LEN] = [
-        4198, 4200, 4202, 4204, 4206, 4208, 16464, 4210, 4212, 4214, 4216, 4218, 4220, 4222, 0, 1, // 0
-        16480, 2, 3, 4, 5, 6, 7, 8, 9, 10, 16496, 11, 12, 13, 14, 15, // 16
-        16, 17, 18, 19, 12288, 20, 21, 22, 23, 24, 25, 26, 27, 28, 12296, 29, // 32
-        30, 31, 32, 33, 34, 35, 36, 37, 12304, 38, 39, 40, 41, 42, 43, 44, // 48
-        45, 46, 12312, 47, 48, 49, 50, 51, 52, 53, 54, 55, 12320, 56, 57, 58, // 64
-        59, 60, 61, 62, 63, 64, 12328, 65, 66, 67, 68, 69, 70, 71, 72, 73, // 80
-        12336, 74, 75, 76, 77, 78, 79, 80, 81, 82, 12344, 83, 84, 85, 86, 87, // 96
-        88, 89, 90, 91, 12352, 92, 93, 94, 95, 96, 97, 98, 99, 100, 12360, 101, // 112
-    ];
-    /// Encoding, by input value: from state `x` the encoder writes
-    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
-    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
-    /// value outside the alphabet.
-    static SPEND: [u16; 2] = [
-        26, 816, // likely ..
-    ];
-    /// See [`SPEND`].
-    static RUN: [u16; 2] = [
-        13, 102, // likely ..
-    ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
     static NEXT_STATE: [u8; TABLE_LEN] = [
@@ -2494,8 +2589,7 @@ pub mod skewed {
     }
     const _: [(); 128] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 256] = [(); ::core::mem::size_of_val(&STEPS)];
-    const _: [(); 4] = [(); ::core::mem::size_of_val(&SPEND)];
-    const _: [(); 4] = [(); ::core::mem::size_of_val(&RUN)];
+    const _: [(); 8] = [(); ::core::mem::size_of_val(&PUT)];
     const _: [(); 128] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `single`: 1 symbols, tANS, 1 lane(s), table of 2^1 = 2 slots.
@@ -2612,25 +2706,44 @@ pub mod single {
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
-    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
-    /// and the next state.
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state.
     #[inline(always)]
-    #[allow(clippy::useless_conversion)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
+        let put = PUT[row];
+        let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
+        let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// The decode step at table position `i`: the bits to read, and the position they
-    /// are added to.
+    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
+    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
+    /// a value outside the alphabet.
+    static PUT: [u32; 1] = [
+        0, // only
+    ];
+    /// The decode step at table position `i`: its symbol, the bits to read, and the
+    /// position they are added to.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn step(i: usize) -> (u32, usize) {
+    fn step(i: usize) -> (Symbol, u32, usize) {
         let step = u32::from(STEPS[i]);
         let bits = step >> STEP_SHIFT;
-        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
+        (SYMBOLS[i], bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::Only, Symbol::Only, // 0
+    ];
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        0, 1, // 0
+    ];
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
     #[cfg(not(target_pointer_width = "64"))]
@@ -2801,9 +2914,8 @@ pub mod single {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let at_x = *x & MASK;
-                    *slot = SYMBOLS[at_x];
-                    let (bits, base) = step(at_x);
+                    let (symbol, bits, base) = step(*x & MASK);
+                    *slot = symbol;
                     *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
@@ -2812,9 +2924,8 @@ pub mod single {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let at_x = *x & MASK;
-                *slot = SYMBOLS[at_x];
-                let (bits, base) = step(at_x);
+                let (symbol, bits, base) = step(*x & MASK);
+                *slot = symbol;
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
@@ -2862,31 +2973,46 @@ pub mod single {
         struct Writer<'a> {
             out: &'a mut [u8],
             pos: usize,
+            /// Set when `out` turned out too small (the bits are dropped from then on).
+            full: bool,
         }
         impl Writer<'_> {
             /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
-            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
-            /// is too small.
+            /// in front of `pos`, or notes that `out` is too small; returns the rest under
+            /// the marker. Never fails, so that the loop carries no error.
             #[inline(never)]
-            fn flush(&mut self, acc: u32) -> Option<u32> {
+            fn flush(&mut self, acc: u32) -> u32 {
                 let pending = 31u32.wrapping_sub(acc.leading_zeros());
                 let whole = (pending >> 3) as usize;
                 let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
-                let start = self.pos.checked_sub(whole)?;
                 match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
                 {
-                    Some(dst) => *dst = bytes,
-                    None => {
-                        let dst = self.out.get_mut(start..self.pos)?;
-                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                    Some(dst) => {
+                        *dst = bytes;
+                        self.pos -= whole;
+                    }
+                    None => self.store_tail(bytes, whole),
+                }
+                let drop = 31 - (pending & 7);
+                ((acc << drop) | 1 << 31) >> drop
+            }
+            /// Stores the last `whole` of `bytes` in front of `pos` byte by byte (the front
+            /// of `out`), or notes that `out` is too small. Out of line: the common store
+            /// then needs no stack.
+            #[inline(never)]
+            #[cold]
+            fn store_tail(&mut self, bytes: [u8; 4], whole: usize) {
+                let start = self.pos.checked_sub(whole);
+                let dst = start.and_then(|start| self.out.get_mut(start..self.pos));
+                match (dst, bytes.get(4usize.wrapping_sub(whole)..)) {
+                    (Some(dst), Some(src)) => {
                         for (d, s) in dst.iter_mut().zip(src) {
                             *d = *s;
                         }
+                        self.pos -= whole;
                     }
+                    _ => self.full = true,
                 }
-                self.pos = start;
-                let drop = 31 - (pending & 7);
-                Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
         /// The encoder's running values, kept in registers by the symbol loop.
@@ -2897,10 +3023,26 @@ pub mod single {
             lane: usize,
             /// Not zero once a value outside the alphabet was seen.
             absent: u32,
-            /// Set when `out` turned out too small.
-            full: bool,
         }
         impl Encoding {
+            /// Puts `input` into the states, last symbol first. A function of its own, so
+            /// that only the loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, writer: &mut Writer<'_>, input: &[Symbol]) {
+                let mut e = Encoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (rest, pairs) = input.as_rchunks::<2>();
+                for &[a, b] in pairs.iter().rev() {
+                    e.one(writer, b);
+                    e.one(writer, a);
+                }
+                for &symbol in rest.iter().rev() {
+                    e.one(writer, symbol);
+                }
+                *self = e;
+            }
             /// Puts one symbol into its lane's state.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
@@ -2913,54 +3055,74 @@ pub mod single {
                 self.state[lane] = next;
                 self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
-                    match writer.flush(self.acc) {
-                        Some(rest) => self.acc = rest,
-                        None => self.full = true,
-                    }
+                    self.acc = writer.flush(self.acc);
                 }
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
         struct Decoding {
-            /// The stream from the reader's byte on, of which the low `used` bits are
-            /// used.
+            /// Unread stream bits under a marker bit: below `1 << MAX_SYMBOL_BITS` the
+            /// next symbol may need more than there are, and it is refilled.
             buf: u32,
-            used: u32,
             state: [usize; LANES],
             lane: usize,
         }
         impl Decoding {
+            /// Decodes `out.len()` symbols. A function of its own, so that only the
+            /// loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, reader: &mut Reader<'_>, out: &mut [Symbol]) {
+                let mut d = Decoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (pairs, rest) = out.as_chunks_mut::<2>();
+                for [a, b] in pairs {
+                    d.one(reader, a);
+                    d.one(reader, b);
+                }
+                for slot in rest {
+                    d.one(reader, slot);
+                }
+                *self = d;
+            }
             /// Decodes one symbol from its lane's state into `slot`.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
             fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                if self.used > 32 - MAX_SYMBOL_BITS {
-                    (self.buf, self.used) = reader.refill(self.used);
+                if self.buf < 1 << MAX_SYMBOL_BITS {
+                    self.buf = reader.refill(self.buf);
                 }
                 let lane = self.lane % LANES;
-                let i = self.state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
+                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                *slot = symbol;
                 self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                 self.buf >>= bits;
-                self.used += bits;
                 self.lane = (lane + 1) % LANES;
             }
         }
-        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
-        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        /// Where the decoder reads. Kept out of the symbol loop (refills are rare), so
+        /// that the loop's values stay in registers.
         struct Reader<'a> {
             data: &'a [u8],
-            byte: usize,
+            /// The stream bit just past the buffer's last loaded bit.
+            end: usize,
         }
         impl Reader<'_> {
-            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
-            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            /// Bits read so far.
+            fn at(&self, buf: u32) -> usize {
+                let unread = 31u32.wrapping_sub(buf.leading_zeros());
+                self.end.wrapping_sub(unread as usize)
+            }
+            /// Moves past the bits read from `buf` and loads it again: the word from the
+            /// byte before the next unread bit, less the 1 to 8 bits before it, so that
+            /// 24 to 31 bits and the marker fit.
             #[inline(never)]
-            fn refill(&mut self, used: u32) -> (u32, u32) {
-                self.byte += (used >> 3) as usize;
-                let used = used & 7;
-                (word(self.data, self.byte) >> used, used)
+            fn refill(&mut self, buf: u32) -> u32 {
+                let before = self.at(buf).wrapping_sub(1);
+                let first = before >> 3;
+                self.end = (before | 7).wrapping_add(25);
+                ((word(self.data, first) >> 1) | 1 << 31) >> (before & 7)
             }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
@@ -2970,7 +3132,11 @@ pub mod single {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut writer = Writer { pos: out.len(), out };
+            let mut writer = Writer {
+                pos: out.len(),
+                out,
+                full: false,
+            };
             let state = [TABLE_LEN as u32; LANES];
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -2978,17 +3144,9 @@ pub mod single {
                 state,
                 lane: input.len().wrapping_sub(1) % LANES,
                 absent: 0,
-                full: false,
             };
-            let (rest, pairs) = input.as_rchunks::<2>();
-            for &[a, b] in pairs.iter().rev() {
-                e.one(&mut writer, b);
-                e.one(&mut writer, a);
-            }
-            for &symbol in rest.iter().rev() {
-                e.one(&mut writer, symbol);
-            }
-            if e.full {
+            e.run(&mut writer, input);
+            if writer.full {
                 return Err(Error::OutputTooSmall);
             }
             let Encoding { mut acc, state, .. } = e;
@@ -2996,13 +3154,16 @@ pub mod single {
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
-                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+                    acc = writer.flush(acc);
                 }
             }
-            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+            let acc = writer.flush(acc);
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
-            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
-            let Writer { out, pos } = writer;
+            writer.flush(acc << pad);
+            let Writer { out, pos, full } = writer;
+            if full {
+                return Err(Error::OutputTooSmall);
+            }
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -3028,27 +3189,12 @@ pub mod single {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut reader = Reader {
-                data: payload,
-                byte: at >> 3,
-            };
-            let (buf, used) = reader.refill((at & 7) as u32);
-            let mut d = Decoding {
-                buf,
-                used,
-                state,
-                lane: 0,
-            };
-            let (pairs, rest) = out.as_chunks_mut::<2>();
-            for [a, b] in pairs {
-                d.one(&mut reader, a);
-                d.one(&mut reader, b);
-            }
-            for slot in rest {
-                d.one(&mut reader, slot);
-            }
-            let Decoding { used, state, .. } = d;
-            let at = reader.byte * 8 + used as usize;
+            let mut reader = Reader { data: payload, end: at };
+            let buf = reader.refill(1);
+            let mut d = Decoding { buf, state, lane: 0 };
+            d.run(&mut reader, out);
+            let Decoding { buf, state, .. } = d;
+            let at = reader.at(buf);
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -3078,14 +3224,19 @@ pub mod single {
         const N: usize = ::core::mem::size_of::<Word>();
         match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
             Some(w) => Word::from_le_bytes(*w),
-            None => {
-                let mut w = [0u8; N];
-                for (k, dst) in w.iter_mut().enumerate() {
-                    *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
-                }
-                Word::from_le_bytes(w)
-            }
+            None => word_tail(data, at),
         }
+    }
+    /// [`word`] at the end of `data`, byte by byte. Out of line (it runs once a stream
+    /// at most), so that the common load stays short.
+    #[cold]
+    #[inline(never)]
+    fn word_tail(data: &[u8], at: usize) -> Word {
+        let mut w = [0u8; ::core::mem::size_of::<Word>()];
+        for (k, dst) in w.iter_mut().enumerate() {
+            *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+        }
+        Word::from_le_bytes(w)
     }
     /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
     /// returns its length. Copies in pieces no longer than the distance moved, so that
@@ -3113,29 +3264,6 @@ pub mod single {
         }
         Ok(to + len)
     }
-    /// Where a decode step's bit count starts in its `STEPS` entry.
-    const STEP_SHIFT: u32 = 12;
-    /// The symbol at each table position (the spread of symbols over the table).
-    static SYMBOLS: [Symbol; TABLE_LEN] = [
-        Symbol::Only, Symbol::Only, // 0
-    ];
-    /// The decode step at each table position: after emitting the position's symbol the
-    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
-    /// `(step & (2^STEP_SHIFT - 1)) + b`.
-    static STEPS: [u16; TABLE_LEN] = [
-        0, 1, // 0
-    ];
-    /// Encoding, by input value: from state `x` the encoder writes
-    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
-    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
-    /// value outside the alphabet.
-    static SPEND: [u16; 1] = [
-        0, // only
-    ];
-    /// See [`SPEND`].
-    static RUN: [u16; 1] = [
-        0, // only
-    ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
     static NEXT_STATE: [u8; TABLE_LEN] = [
@@ -3204,8 +3332,7 @@ pub mod single {
     }
     const _: [(); 2] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 4] = [(); ::core::mem::size_of_val(&STEPS)];
-    const _: [(); 2] = [(); ::core::mem::size_of_val(&SPEND)];
-    const _: [(); 2] = [(); ::core::mem::size_of_val(&RUN)];
+    const _: [(); 4] = [(); ::core::mem::size_of_val(&PUT)];
     const _: [(); 2] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `five_bare`: 5 symbols, tANS, 1 lane(s), table of 2^6 = 64 slots.
@@ -3348,25 +3475,54 @@ pub mod five_bare {
         (0usize).saturating_add(bits / 8)
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
-    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
-    /// and the next state.
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state.
     #[inline(always)]
-    #[allow(clippy::useless_conversion)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
+        let put = PUT[row];
+        let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
+        let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// The decode step at table position `i`: the bits to read, and the position they
-    /// are added to.
+    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
+    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
+    /// a value outside the alphabet.
+    static PUT: [u32; 5] = [
+        3145920, 192, 1245464, 2294064, 3014968, // a ..
+    ];
+    /// The decode step at table position `i`: its symbol, the bits to read, and the
+    /// position they are added to.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn step(i: usize) -> (u32, usize) {
+    fn step(i: usize) -> (Symbol, u32, usize) {
         let step = u32::from(STEPS[i]);
         let bits = step >> STEP_SHIFT;
-        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
+        (SYMBOLS[i], bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 0
+        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 8
+        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, // 16
+        Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::A, Symbol::B, Symbol::D, // 24
+        Symbol::E, Symbol::C, Symbol::A, Symbol::B, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 32
+        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 40
+        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 48
+        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 56
+    ];
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        12296, 8192, 8192, 12328, 12304, 12304, 8196, 8196, 12336, 8200, 8200, 12312, 12312, 12344, 8204, 8204, // 0
+        8208, 8208, 8192, 12320, 12320, 8212, 8212, 8196, 12328, 12328, 8216, 8216, 8200, 8220, 8220, 12336, // 16
+        12336, 8204, 8224, 8224, 8228, 8228, 8208, 12344, 12344, 8232, 8232, 8212, 8192, 8192, 8236, 8236, // 32
+        8216, 8240, 8240, 8196, 8196, 8220, 8244, 8244, 8248, 8248, 8224, 8200, 8252, 8252, 8228, 8204, // 48
+    ];
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
     #[cfg(not(target_pointer_width = "64"))]
@@ -3555,9 +3711,8 @@ pub mod five_bare {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let at_x = *x & MASK;
-                    *slot = SYMBOLS[at_x];
-                    let (bits, base) = step(at_x);
+                    let (symbol, bits, base) = step(*x & MASK);
+                    *slot = symbol;
                     *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
@@ -3566,9 +3721,8 @@ pub mod five_bare {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let at_x = *x & MASK;
-                *slot = SYMBOLS[at_x];
-                let (bits, base) = step(at_x);
+                let (symbol, bits, base) = step(*x & MASK);
+                *slot = symbol;
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
@@ -3616,46 +3770,60 @@ pub mod five_bare {
         struct Writer<'a> {
             out: &'a mut [u8],
             pos: usize,
+            /// Set when `out` turned out too small (the bits are dropped from then on).
+            full: bool,
         }
         impl Writer<'_> {
             /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
-            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
-            /// is too small.
+            /// in front of `pos`, or notes that `out` is too small; returns the rest under
+            /// the marker. Never fails, so that the loop carries no error.
             #[inline(never)]
-            fn flush(&mut self, acc: u32) -> Option<u32> {
+            fn flush(&mut self, acc: u32) -> u32 {
                 let pending = 31u32.wrapping_sub(acc.leading_zeros());
                 let whole = (pending >> 3) as usize;
                 let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
-                let start = self.pos.checked_sub(whole)?;
                 match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
                 {
-                    Some(dst) => *dst = bytes,
-                    None => {
-                        let dst = self.out.get_mut(start..self.pos)?;
-                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                    Some(dst) => {
+                        *dst = bytes;
+                        self.pos -= whole;
+                    }
+                    None => self.store_tail(bytes, whole),
+                }
+                let drop = 31 - (pending & 7);
+                ((acc << drop) | 1 << 31) >> drop
+            }
+            /// Stores the last `whole` of `bytes` in front of `pos` byte by byte (the front
+            /// of `out`), or notes that `out` is too small. Out of line: the common store
+            /// then needs no stack.
+            #[inline(never)]
+            #[cold]
+            fn store_tail(&mut self, bytes: [u8; 4], whole: usize) {
+                let start = self.pos.checked_sub(whole);
+                let dst = start.and_then(|start| self.out.get_mut(start..self.pos));
+                match (dst, bytes.get(4usize.wrapping_sub(whole)..)) {
+                    (Some(dst), Some(src)) => {
                         for (d, s) in dst.iter_mut().zip(src) {
                             *d = *s;
                         }
+                        self.pos -= whole;
                     }
+                    _ => self.full = true,
                 }
-                self.pos = start;
-                let drop = 31 - (pending & 7);
-                Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
         impl Writer<'_> {
-            /// Stores the low 16 bits of `half` in front of `pos`; `false` when `out` is
+            /// Stores the low 16 bits of `half` in front of `pos`, or notes that `out` is
             /// too small.
             #[inline(always)]
-            fn put16(&mut self, half: u32) -> bool {
+            fn put16(&mut self, half: u32) {
                 match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
                 {
                     Some(dst) => {
                         *dst = (half as u16).to_le_bytes();
                         self.pos -= 2;
-                        true
                     }
-                    None => false,
+                    None => self.full = true,
                 }
             }
         }
@@ -3667,10 +3835,26 @@ pub mod five_bare {
             lane: usize,
             /// Not zero once a value outside the alphabet was seen.
             absent: u32,
-            /// Set when `out` turned out too small.
-            full: bool,
         }
         impl Encoding {
+            /// Puts `input` into the states, last symbol first. A function of its own, so
+            /// that only the loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, writer: &mut Writer<'_>, input: &[Symbol]) {
+                let mut e = Encoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (rest, pairs) = input.as_rchunks::<2>();
+                for &[a, b] in pairs.iter().rev() {
+                    e.one(writer, b);
+                    e.one(writer, a);
+                }
+                for &symbol in rest.iter().rev() {
+                    e.one(writer, symbol);
+                }
+                *self = e;
+            }
             /// Puts one symbol into its lane's state.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
@@ -3685,55 +3869,75 @@ pub mod five_bare {
                 if self.acc >> (32 - MOST) != 0 {
                     let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
                     let top = self.acc >> keep;
-                    if writer.put16(top) {
-                        self.acc -= (top - 1) << keep;
-                    } else {
-                        self.full = true;
-                    }
+                    writer.put16(top);
+                    self.acc -= (top - 1) << keep;
                 }
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
         struct Decoding {
-            /// The stream from the reader's byte on, of which the low `used` bits are
-            /// used.
+            /// Unread stream bits under a marker bit: below `1 << MAX_SYMBOL_BITS` the
+            /// next symbol may need more than there are, and it is refilled.
             buf: u32,
-            used: u32,
             state: [usize; LANES],
             lane: usize,
         }
         impl Decoding {
+            /// Decodes `out.len()` symbols. A function of its own, so that only the
+            /// loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, reader: &mut Reader<'_>, out: &mut [Symbol]) {
+                let mut d = Decoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (pairs, rest) = out.as_chunks_mut::<2>();
+                for [a, b] in pairs {
+                    d.one(reader, a);
+                    d.one(reader, b);
+                }
+                for slot in rest {
+                    d.one(reader, slot);
+                }
+                *self = d;
+            }
             /// Decodes one symbol from its lane's state into `slot`.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
             fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                if self.used > 32 - MAX_SYMBOL_BITS {
-                    (self.buf, self.used) = reader.refill(self.used);
+                if self.buf < 1 << MAX_SYMBOL_BITS {
+                    self.buf = reader.refill(self.buf);
                 }
                 let lane = self.lane % LANES;
-                let i = self.state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
+                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                *slot = symbol;
                 self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                 self.buf >>= bits;
-                self.used += bits;
                 self.lane = (lane + 1) % LANES;
             }
         }
-        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
-        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        /// Where the decoder reads. Kept out of the symbol loop (refills are rare), so
+        /// that the loop's values stay in registers.
         struct Reader<'a> {
             data: &'a [u8],
-            byte: usize,
+            /// The stream bit just past the buffer's last loaded bit.
+            end: usize,
         }
         impl Reader<'_> {
-            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
-            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            /// Bits read so far.
+            fn at(&self, buf: u32) -> usize {
+                let unread = 31u32.wrapping_sub(buf.leading_zeros());
+                self.end.wrapping_sub(unread as usize)
+            }
+            /// Moves past the bits read from `buf` and loads it again: the word from the
+            /// byte before the next unread bit, less the 1 to 8 bits before it, so that
+            /// 24 to 31 bits and the marker fit.
             #[inline(never)]
-            fn refill(&mut self, used: u32) -> (u32, u32) {
-                self.byte += (used >> 3) as usize;
-                let used = used & 7;
-                (word(self.data, self.byte) >> used, used)
+            fn refill(&mut self, buf: u32) -> u32 {
+                let before = self.at(buf).wrapping_sub(1);
+                let first = before >> 3;
+                self.end = (before | 7).wrapping_add(25);
+                ((word(self.data, first) >> 1) | 1 << 31) >> (before & 7)
             }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
@@ -3743,7 +3947,11 @@ pub mod five_bare {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 0usize;
-            let mut writer = Writer { pos: out.len(), out };
+            let mut writer = Writer {
+                pos: out.len(),
+                out,
+                full: false,
+            };
             let state = [TABLE_LEN as u32; LANES];
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -3751,17 +3959,9 @@ pub mod five_bare {
                 state,
                 lane: input.len().wrapping_sub(1) % LANES,
                 absent: 0,
-                full: false,
             };
-            let (rest, pairs) = input.as_rchunks::<2>();
-            for &[a, b] in pairs.iter().rev() {
-                e.one(&mut writer, b);
-                e.one(&mut writer, a);
-            }
-            for &symbol in rest.iter().rev() {
-                e.one(&mut writer, symbol);
-            }
-            if e.full {
+            e.run(&mut writer, input);
+            if writer.full {
                 return Err(Error::OutputTooSmall);
             }
             let Encoding { mut acc, state, .. } = e;
@@ -3769,13 +3969,16 @@ pub mod five_bare {
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
-                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+                    acc = writer.flush(acc);
                 }
             }
-            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+            let acc = writer.flush(acc);
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
-            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
-            let Writer { out, pos } = writer;
+            writer.flush(acc << pad);
+            let Writer { out, pos, full } = writer;
+            if full {
+                return Err(Error::OutputTooSmall);
+            }
             let len = move_to_front(out, pos, header)?;
             if pad != 0 {
                 let mut i = 0;
@@ -3819,27 +4022,12 @@ pub mod five_bare {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut reader = Reader {
-                data: payload,
-                byte: at >> 3,
-            };
-            let (buf, used) = reader.refill((at & 7) as u32);
-            let mut d = Decoding {
-                buf,
-                used,
-                state,
-                lane: 0,
-            };
-            let (pairs, rest) = out.as_chunks_mut::<2>();
-            for [a, b] in pairs {
-                d.one(&mut reader, a);
-                d.one(&mut reader, b);
-            }
-            for slot in rest {
-                d.one(&mut reader, slot);
-            }
-            let Decoding { used, state, .. } = d;
-            let at = reader.byte * 8 + used as usize;
+            let mut reader = Reader { data: payload, end: at };
+            let buf = reader.refill(1);
+            let mut d = Decoding { buf, state, lane: 0 };
+            d.run(&mut reader, out);
+            let Decoding { buf, state, .. } = d;
+            let at = reader.at(buf);
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -3869,14 +4057,19 @@ pub mod five_bare {
         const N: usize = ::core::mem::size_of::<Word>();
         match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
             Some(w) => Word::from_le_bytes(*w),
-            None => {
-                let mut w = [0u8; N];
-                for (k, dst) in w.iter_mut().enumerate() {
-                    *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
-                }
-                Word::from_le_bytes(w)
-            }
+            None => word_tail(data, at),
         }
+    }
+    /// [`word`] at the end of `data`, byte by byte. Out of line (it runs once a stream
+    /// at most), so that the common load stays short.
+    #[cold]
+    #[inline(never)]
+    fn word_tail(data: &[u8], at: usize) -> Word {
+        let mut w = [0u8; ::core::mem::size_of::<Word>()];
+        for (k, dst) in w.iter_mut().enumerate() {
+            *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+        }
+        Word::from_le_bytes(w)
     }
     /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
     /// returns its length. Copies in pieces no longer than the distance moved, so that
@@ -3904,39 +4097,6 @@ pub mod five_bare {
         }
         Ok(to + len)
     }
-    /// Where a decode step's bit count starts in its `STEPS` entry.
-    const STEP_SHIFT: u32 = 12;
-    /// The symbol at each table position (the spread of symbols over the table).
-    static SYMBOLS: [Symbol; TABLE_LEN] = [
-        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 0
-        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 8
-        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, // 16
-        Symbol::D, Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::A, Symbol::B, Symbol::D, // 24
-        Symbol::E, Symbol::C, Symbol::A, Symbol::B, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 32
-        Symbol::E, Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::E, Symbol::A, Symbol::B, // 40
-        Symbol::C, Symbol::A, Symbol::B, Symbol::D, Symbol::E, Symbol::C, Symbol::A, Symbol::B, // 48
-        Symbol::A, Symbol::B, Symbol::C, Symbol::D, Symbol::A, Symbol::B, Symbol::C, Symbol::D, // 56
-    ];
-    /// The decode step at each table position: after emitting the position's symbol the
-    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
-    /// `(step & (2^STEP_SHIFT - 1)) + b`.
-    static STEPS: [u16; TABLE_LEN] = [
-        12296, 8192, 8192, 12328, 12304, 12304, 8196, 8196, 12336, 8200, 8200, 12312, 12312, 12344, 8204, 8204, // 0
-        8208, 8208, 8192, 12320, 12320, 8212, 8212, 8196, 12328, 12328, 8216, 8216, 8200, 8220, 8220, 12336, // 16
-        12336, 8204, 8224, 8224, 8228, 8228, 8208, 12344, 12344, 8232, 8232, 8212, 8192, 8192, 8236, 8236, // 32
-        8216, 8240, 8240, 8196, 8196, 8220, 8244, 8244, 8248, 8248, 8224, 8200, 8252, 8252, 8228, 8204, // 48
-    ];
-    /// Encoding, by input value: from state `x` the encoder writes
-    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
-    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
-    /// value outside the alphabet.
-    static SPEND: [u16; 5] = [
-        192, 192, 280, 304, 312, // a ..
-    ];
-    /// See [`SPEND`].
-    static RUN: [u16; 5] = [
-        48, 0, 19, 35, 46, // a ..
-    ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
     static NEXT_STATE: [u8; TABLE_LEN] = [
@@ -3947,8 +4107,7 @@ pub mod five_bare {
     ];
     const _: [(); 64] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 128] = [(); ::core::mem::size_of_val(&STEPS)];
-    const _: [(); 10] = [(); ::core::mem::size_of_val(&SPEND)];
-    const _: [(); 10] = [(); ::core::mem::size_of_val(&RUN)];
+    const _: [(); 20] = [(); ::core::mem::size_of_val(&PUT)];
     const _: [(); 64] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
 /// Codec `five_rans`: 5 symbols, rANS, 4 lane(s), table of 2^6 = 64 slots.
@@ -4252,14 +4411,19 @@ pub mod five_rans {
         const N: usize = ::core::mem::size_of::<Word>();
         match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
             Some(w) => Word::from_le_bytes(*w),
-            None => {
-                let mut w = [0u8; N];
-                for (k, dst) in w.iter_mut().enumerate() {
-                    *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
-                }
-                Word::from_le_bytes(w)
-            }
+            None => word_tail(data, at),
         }
+    }
+    /// [`word`] at the end of `data`, byte by byte. Out of line (it runs once a stream
+    /// at most), so that the common load stays short.
+    #[cold]
+    #[inline(never)]
+    fn word_tail(data: &[u8], at: usize) -> Word {
+        let mut w = [0u8; ::core::mem::size_of::<Word>()];
+        for (k, dst) in w.iter_mut().enumerate() {
+            *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+        }
+        Word::from_le_bytes(w)
     }
     /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
     /// returns its length. Copies in pieces no longer than the distance moved, so that
@@ -4516,25 +4680,66 @@ pub mod skewed_l8 {
         (3 + leb128_len(symbols)).saturating_add(bits / 8)
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
-    /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
-    /// and the next state.
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state.
     #[inline(always)]
-    #[allow(clippy::useless_conversion)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let bits = x.wrapping_add(u32::from(SPEND[row])) >> (TABLE_BITS + 1);
+        let put = PUT[row];
+        let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
-        let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
+        let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// The decode step at table position `i`: the bits to read, and the position they
-    /// are added to.
+    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
+    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
+    /// a value outside the alphabet.
+    static PUT: [u32; 2] = [
+        851994, 6685488, // likely ..
+    ];
+    /// The decode step at table position `i`: its symbol, the bits to read, and the
+    /// position they are added to.
     #[inline(always)]
     #[allow(clippy::useless_conversion)]
-    fn step(i: usize) -> (u32, usize) {
+    fn step(i: usize) -> (Symbol, u32, usize) {
         let step = u32::from(STEPS[i]);
         let bits = step >> STEP_SHIFT;
-        (bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
+        (SYMBOLS[i], bits, (step & !(u32::MAX << STEP_SHIFT)) as usize)
     }
+    /// Where a decode step's bit count starts in its `STEPS` entry.
+    const STEP_SHIFT: u32 = 12;
+    /// The symbol at each table position (the spread of symbols over the table).
+    static SYMBOLS: [Symbol; TABLE_LEN] = [
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 0
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 8
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 16
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 24
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 32
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 40
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 48
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 56
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 64
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 72
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 80
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 88
+        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 96
+        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 104
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 112
+        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 120
+    ];
+    /// The decode step at each table position: after emitting the position's symbol the
+    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
+    /// `(step & (2^STEP_SHIFT - 1)) + b`.
+    static STEPS: [u16; TABLE_LEN] = [
+        4198, 4200, 4202, 4204, 4206, 4208, 16464, 4210, 4212, 4214, 4216, 4218, 4220, 4222, 0, 1, // 0
+        16480, 2, 3, 4, 5, 6, 7, 8, 9, 10, 16496, 11, 12, 13, 14, 15, // 16
+        16, 17, 18, 19, 12288, 20, 21, 22, 23, 24, 25, 26, 27, 28, 12296, 29, // 32
+        30, 31, 32, 33, 34, 35, 36, 37, 12304, 38, 39, 40, 41, 42, 43, 44, // 48
+        45, 46, 12312, 47, 48, 49, 50, 51, 52, 53, 54, 55, 12320, 56, 57, 58, // 64
+        59, 60, 61, 62, 63, 64, 12328, 65, 66, 67, 68, 69, 70, 71, 72, 73, // 80
+        12336, 74, 75, 76, 77, 78, 79, 80, 81, 82, 12344, 83, 84, 85, 86, 87, // 96
+        88, 89, 90, 91, 12352, 92, 93, 94, 95, 96, 97, 98, 99, 100, 12360, 101, // 112
+    ];
     #[cfg(target_pointer_width = "64")]
     pub use wide::{decode_prefix, encode};
     #[cfg(not(target_pointer_width = "64"))]
@@ -4713,9 +4918,8 @@ pub mod skewed_l8 {
                             >> (at & 7);
                     }
                     let x = &mut state[i % LANES];
-                    let at_x = *x & MASK;
-                    *slot = SYMBOLS[at_x];
-                    let (bits, base) = step(at_x);
+                    let (symbol, bits, base) = step(*x & MASK);
+                    *slot = symbol;
                     *x = base + (buf & !(u64::MAX << bits)) as usize;
                     buf >>= bits;
                     at += bits as usize;
@@ -4724,9 +4928,8 @@ pub mod skewed_l8 {
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let at_x = *x & MASK;
-                *slot = SYMBOLS[at_x];
-                let (bits, base) = step(at_x);
+                let (symbol, bits, base) = step(*x & MASK);
+                *slot = symbol;
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
@@ -4774,31 +4977,46 @@ pub mod skewed_l8 {
         struct Writer<'a> {
             out: &'a mut [u8],
             pos: usize,
+            /// Set when `out` turned out too small (the bits are dropped from then on).
+            full: bool,
         }
         impl Writer<'_> {
             /// Stores the whole bytes of the pending bits (below the marker bit of `acc`)
-            /// in front of `pos`; returns the rest under the marker, or `None` when `out`
-            /// is too small.
+            /// in front of `pos`, or notes that `out` is too small; returns the rest under
+            /// the marker. Never fails, so that the loop carries no error.
             #[inline(never)]
-            fn flush(&mut self, acc: u32) -> Option<u32> {
+            fn flush(&mut self, acc: u32) -> u32 {
                 let pending = 31u32.wrapping_sub(acc.leading_zeros());
                 let whole = (pending >> 3) as usize;
                 let bytes = acc.wrapping_shl(32u32.wrapping_sub(pending)).to_le_bytes();
-                let start = self.pos.checked_sub(whole)?;
                 match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<4>)
                 {
-                    Some(dst) => *dst = bytes,
-                    None => {
-                        let dst = self.out.get_mut(start..self.pos)?;
-                        let src = bytes.get(4usize.wrapping_sub(whole)..)?;
+                    Some(dst) => {
+                        *dst = bytes;
+                        self.pos -= whole;
+                    }
+                    None => self.store_tail(bytes, whole),
+                }
+                let drop = 31 - (pending & 7);
+                ((acc << drop) | 1 << 31) >> drop
+            }
+            /// Stores the last `whole` of `bytes` in front of `pos` byte by byte (the front
+            /// of `out`), or notes that `out` is too small. Out of line: the common store
+            /// then needs no stack.
+            #[inline(never)]
+            #[cold]
+            fn store_tail(&mut self, bytes: [u8; 4], whole: usize) {
+                let start = self.pos.checked_sub(whole);
+                let dst = start.and_then(|start| self.out.get_mut(start..self.pos));
+                match (dst, bytes.get(4usize.wrapping_sub(whole)..)) {
+                    (Some(dst), Some(src)) => {
                         for (d, s) in dst.iter_mut().zip(src) {
                             *d = *s;
                         }
+                        self.pos -= whole;
                     }
+                    _ => self.full = true,
                 }
-                self.pos = start;
-                let drop = 31 - (pending & 7);
-                Some(((acc << drop) | 1 << 31) >> drop)
             }
         }
         /// The encoder's running values, kept in registers by the symbol loop.
@@ -4809,10 +5027,26 @@ pub mod skewed_l8 {
             lane: usize,
             /// Not zero once a value outside the alphabet was seen.
             absent: u32,
-            /// Set when `out` turned out too small.
-            full: bool,
         }
         impl Encoding {
+            /// Puts `input` into the states, last symbol first. A function of its own, so
+            /// that only the loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, writer: &mut Writer<'_>, input: &[Symbol]) {
+                let mut e = Encoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (rest, pairs) = input.as_rchunks::<2>();
+                for &[a, b] in pairs.iter().rev() {
+                    e.one(writer, b);
+                    e.one(writer, a);
+                }
+                for &symbol in rest.iter().rev() {
+                    e.one(writer, symbol);
+                }
+                *self = e;
+            }
             /// Puts one symbol into its lane's state.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
@@ -4825,54 +5059,74 @@ pub mod skewed_l8 {
                 self.state[lane] = next;
                 self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
-                    match writer.flush(self.acc) {
-                        Some(rest) => self.acc = rest,
-                        None => self.full = true,
-                    }
+                    self.acc = writer.flush(self.acc);
                 }
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
         struct Decoding {
-            /// The stream from the reader's byte on, of which the low `used` bits are
-            /// used.
+            /// Unread stream bits under a marker bit: below `1 << MAX_SYMBOL_BITS` the
+            /// next symbol may need more than there are, and it is refilled.
             buf: u32,
-            used: u32,
             state: [usize; LANES],
             lane: usize,
         }
         impl Decoding {
+            /// Decodes `out.len()` symbols. A function of its own, so that only the
+            /// loop's values compete for the registers.
+            #[inline(never)]
+            fn run(&mut self, reader: &mut Reader<'_>, out: &mut [Symbol]) {
+                let mut d = Decoding {
+                    state: self.state,
+                    ..*self
+                };
+                let (pairs, rest) = out.as_chunks_mut::<2>();
+                for [a, b] in pairs {
+                    d.one(reader, a);
+                    d.one(reader, b);
+                }
+                for slot in rest {
+                    d.one(reader, slot);
+                }
+                *self = d;
+            }
             /// Decodes one symbol from its lane's state into `slot`.
             #[inline(always)]
             #[allow(clippy::modulo_one)]
             fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                if self.used > 32 - MAX_SYMBOL_BITS {
-                    (self.buf, self.used) = reader.refill(self.used);
+                if self.buf < 1 << MAX_SYMBOL_BITS {
+                    self.buf = reader.refill(self.buf);
                 }
                 let lane = self.lane % LANES;
-                let i = self.state[lane] & MASK;
-                *slot = SYMBOLS[i];
-                let (bits, base) = step(i);
+                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                *slot = symbol;
                 self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                 self.buf >>= bits;
-                self.used += bits;
                 self.lane = (lane + 1) % LANES;
             }
         }
-        /// Where the decoder reads: the byte its bit buffer starts at. Kept out of the
-        /// symbol loop (refills are rare), so that the loop's values stay in registers.
+        /// Where the decoder reads. Kept out of the symbol loop (refills are rare), so
+        /// that the loop's values stay in registers.
         struct Reader<'a> {
             data: &'a [u8],
-            byte: usize,
+            /// The stream bit just past the buffer's last loaded bit.
+            end: usize,
         }
         impl Reader<'_> {
-            /// Moves past the `used` bits of the buffer's first bytes and loads it again;
-            /// returns the buffer and how many of its low bits are already used (0 to 7).
+            /// Bits read so far.
+            fn at(&self, buf: u32) -> usize {
+                let unread = 31u32.wrapping_sub(buf.leading_zeros());
+                self.end.wrapping_sub(unread as usize)
+            }
+            /// Moves past the bits read from `buf` and loads it again: the word from the
+            /// byte before the next unread bit, less the 1 to 8 bits before it, so that
+            /// 24 to 31 bits and the marker fit.
             #[inline(never)]
-            fn refill(&mut self, used: u32) -> (u32, u32) {
-                self.byte += (used >> 3) as usize;
-                let used = used & 7;
-                (word(self.data, self.byte) >> used, used)
+            fn refill(&mut self, buf: u32) -> u32 {
+                let before = self.at(buf).wrapping_sub(1);
+                let first = before >> 3;
+                self.end = (before | 7).wrapping_add(25);
+                ((word(self.data, first) >> 1) | 1 << 31) >> (before & 7)
             }
         }
         /// Encodes `input` into `out` as one stream; returns its length.
@@ -4882,7 +5136,11 @@ pub mod skewed_l8 {
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
             let header = 3 + leb128_len(input.len());
-            let mut writer = Writer { pos: out.len(), out };
+            let mut writer = Writer {
+                pos: out.len(),
+                out,
+                full: false,
+            };
             let state = [TABLE_LEN as u32; LANES];
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -4890,17 +5148,9 @@ pub mod skewed_l8 {
                 state,
                 lane: input.len().wrapping_sub(1) % LANES,
                 absent: 0,
-                full: false,
             };
-            let (rest, pairs) = input.as_rchunks::<2>();
-            for &[a, b] in pairs.iter().rev() {
-                e.one(&mut writer, b);
-                e.one(&mut writer, a);
-            }
-            for &symbol in rest.iter().rev() {
-                e.one(&mut writer, symbol);
-            }
-            if e.full {
+            e.run(&mut writer, input);
+            if writer.full {
                 return Err(Error::OutputTooSmall);
             }
             let Encoding { mut acc, state, .. } = e;
@@ -4908,13 +5158,16 @@ pub mod skewed_l8 {
             for &x in state.iter().rev() {
                 acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                 if acc >> (32 - MOST) != 0 {
-                    acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+                    acc = writer.flush(acc);
                 }
             }
-            let acc = writer.flush(acc).ok_or(Error::OutputTooSmall)?;
+            let acc = writer.flush(acc);
             let pad = (8 - 31u32.wrapping_sub(acc.leading_zeros()) % 8) % 8;
-            writer.flush(acc << pad).ok_or(Error::OutputTooSmall)?;
-            let Writer { out, pos } = writer;
+            writer.flush(acc << pad);
+            let Writer { out, pos, full } = writer;
+            if full {
+                return Err(Error::OutputTooSmall);
+            }
             let len = move_to_front(out, pos, header)?;
             write_header(out, input.len(), header, pad as u8);
             Ok(len)
@@ -4948,27 +5201,12 @@ pub mod skewed_l8 {
                 *x = peek(payload, at) as usize & MASK;
                 at += TABLE_BITS as usize;
             }
-            let mut reader = Reader {
-                data: payload,
-                byte: at >> 3,
-            };
-            let (buf, used) = reader.refill((at & 7) as u32);
-            let mut d = Decoding {
-                buf,
-                used,
-                state,
-                lane: 0,
-            };
-            let (pairs, rest) = out.as_chunks_mut::<2>();
-            for [a, b] in pairs {
-                d.one(&mut reader, a);
-                d.one(&mut reader, b);
-            }
-            for slot in rest {
-                d.one(&mut reader, slot);
-            }
-            let Decoding { used, state, .. } = d;
-            let at = reader.byte * 8 + used as usize;
+            let mut reader = Reader { data: payload, end: at };
+            let buf = reader.refill(1);
+            let mut d = Decoding { buf, state, lane: 0 };
+            d.run(&mut reader, out);
+            let Decoding { buf, state, .. } = d;
+            let at = reader.at(buf);
             if at.div_ceil(8) > payload.len() {
                 return Err(Error::Truncated);
             }
@@ -4998,14 +5236,19 @@ pub mod skewed_l8 {
         const N: usize = ::core::mem::size_of::<Word>();
         match data.get(at..).and_then(<[u8]>::first_chunk::<N>) {
             Some(w) => Word::from_le_bytes(*w),
-            None => {
-                let mut w = [0u8; N];
-                for (k, dst) in w.iter_mut().enumerate() {
-                    *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
-                }
-                Word::from_le_bytes(w)
-            }
+            None => word_tail(data, at),
         }
+    }
+    /// [`word`] at the end of `data`, byte by byte. Out of line (it runs once a stream
+    /// at most), so that the common load stays short.
+    #[cold]
+    #[inline(never)]
+    fn word_tail(data: &[u8], at: usize) -> Word {
+        let mut w = [0u8; ::core::mem::size_of::<Word>()];
+        for (k, dst) in w.iter_mut().enumerate() {
+            *dst = data.get(at.wrapping_add(k)).copied().unwrap_or(0);
+        }
+        Word::from_le_bytes(w)
     }
     /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
     /// returns its length. Copies in pieces no longer than the distance moved, so that
@@ -5033,51 +5276,6 @@ pub mod skewed_l8 {
         }
         Ok(to + len)
     }
-    /// Where a decode step's bit count starts in its `STEPS` entry.
-    const STEP_SHIFT: u32 = 12;
-    /// The symbol at each table position (the spread of symbols over the table).
-    static SYMBOLS: [Symbol; TABLE_LEN] = [
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 0
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 8
-        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 16
-        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 24
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 32
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 40
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 48
-        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 56
-        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 64
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 72
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 80
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 88
-        Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 96
-        Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 104
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, Symbol::Likely, Symbol::Likely, // 112
-        Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Likely, Symbol::Unlikely, Symbol::Likely, // 120
-    ];
-    /// The decode step at each table position: after emitting the position's symbol the
-    /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
-    /// `(step & (2^STEP_SHIFT - 1)) + b`.
-    static STEPS: [u16; TABLE_LEN] = [
-        4198, 4200, 4202, 4204, 4206, 4208, 16464, 4210, 4212, 4214, 4216, 4218, 4220, 4222, 0, 1, // 0
-        16480, 2, 3, 4, 5, 6, 7, 8, 9, 10, 16496, 11, 12, 13, 14, 15, // 16
-        16, 17, 18, 19, 12288, 20, 21, 22, 23, 24, 25, 26, 27, 28, 12296, 29, // 32
-        30, 31, 32, 33, 34, 35, 36, 37, 12304, 38, 39, 40, 41, 42, 43, 44, // 48
-        45, 46, 12312, 47, 48, 49, 50, 51, 52, 53, 54, 55, 12320, 56, 57, 58, // 64
-        59, 60, 61, 62, 63, 64, 12328, 65, 66, 67, 68, 69, 70, 71, 72, 73, // 80
-        12336, 74, 75, 76, 77, 78, 79, 80, 81, 82, 12344, 83, 84, 85, 86, 87, // 96
-        88, 89, 90, 91, 12352, 92, 93, 94, 95, 96, 97, 98, 99, 100, 12360, 101, // 112
-    ];
-    /// Encoding, by input value: from state `x` the encoder writes
-    /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
-    /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
-    /// value outside the alphabet.
-    static SPEND: [u16; 2] = [
-        26, 816, // likely ..
-    ];
-    /// See [`SPEND`].
-    static RUN: [u16; 2] = [
-        13, 102, // likely ..
-    ];
     /// For each symbol in alphabet order, the states of its copies in the table, left
     /// to right (a state is `TABLE_LEN` + position).
     static NEXT_STATE: [u8; TABLE_LEN] = [
@@ -5153,7 +5351,6 @@ pub mod skewed_l8 {
     }
     const _: [(); 128] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 256] = [(); ::core::mem::size_of_val(&STEPS)];
-    const _: [(); 4] = [(); ::core::mem::size_of_val(&SPEND)];
-    const _: [(); 4] = [(); ::core::mem::size_of_val(&RUN)];
+    const _: [(); 8] = [(); ::core::mem::size_of_val(&PUT)];
     const _: [(); 128] = [(); ::core::mem::size_of_val(&NEXT_STATE)];
 }
