@@ -61,8 +61,6 @@ struct Parts<'a> {
     /// end (the end checks), the same on both paths.
     decode_start: TokenStream,
     decode_end: TokenStream,
-    /// Bits a symbol costs on average (the tables' rate for the training data).
-    rate: f64,
     framing: &'a FramingTokens,
     input: &'a InputTokens,
     finish: TokenStream,
@@ -119,7 +117,6 @@ pub fn body(
     let parts = Parts {
         decode_start,
         decode_end,
-        rate: plan.report.exact_rate,
         framing,
         input,
         finish: finish(plan.spec.framing),
@@ -551,42 +548,6 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
     } = parts.input;
     let (finish, decode_start, decode_end) =
         (&parts.finish, &parts.decode_start, &parts.decode_end);
-    // Codecs of few bits a symbol store rarely: an out-of-line store keeps the loop's
-    // registers free. Above two bits a symbol an inline 16-bit store costs fewer
-    // instructions (measured on the device bench).
-    let inline_store = parts.rate >= 2.0;
-    let put16 = if inline_store {
-        quote! {
-            impl Writer<'_> {
-                /// Stores the low 16 bits of `half` in front of `pos`, or notes that `out` is
-                /// too small.
-                #[inline(always)]
-                fn put16(&mut self, half: u32) {
-                    match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>) {
-                        Some(dst) => {
-                            *dst = (half as u16).to_le_bytes();
-                            self.pos -= 2;
-                        }
-                        None => self.full = true,
-                    }
-                }
-
-            }
-        }
-    } else {
-        quote!()
-    };
-    let store = if !inline_store {
-        quote!(self.acc = writer.flush(self.acc);)
-    } else {
-        quote! {
-            // At least 17 bits pend: store the 16 oldest, just under the marker.
-            let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
-            let top = self.acc >> keep;
-            writer.put16(top);
-            self.acc -= (top - 1) << keep;
-        }
-    };
     // Raw-value inputs note a value outside the alphabet as they go.
     let note_absent = if check.is_empty() {
         quote!()
@@ -666,8 +627,6 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 }
             }
 
-            #put16
-
             /// The encoder's running values, kept in registers by the symbol loop.
             struct Encoding {
                 /// The pending bits under a marker bit.
@@ -710,7 +669,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     self.state[lane] = next;
                     self.lane = (lane + LANES - 1) % LANES;
                     if self.acc >> (32 - MOST) != 0 {
-                        #store
+                        self.acc = writer.flush(self.acc);
                     }
                 }
             }

@@ -596,21 +596,6 @@ pub mod mit_text {
                 }
             }
         }
-        impl Writer<'_> {
-            /// Stores the low 16 bits of `half` in front of `pos`, or notes that `out` is
-            /// too small.
-            #[inline(always)]
-            fn put16(&mut self, half: u32) {
-                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
-                {
-                    Some(dst) => {
-                        *dst = (half as u16).to_le_bytes();
-                        self.pos -= 2;
-                    }
-                    None => self.full = true,
-                }
-            }
-        }
         /// The encoder's running values, kept in registers by the symbol loop.
         struct Encoding {
             /// The pending bits under a marker bit.
@@ -654,10 +639,7 @@ pub mod mit_text {
                 self.state[lane] = next;
                 self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
-                    let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
-                    let top = self.acc >> keep;
-                    writer.put16(top);
-                    self.acc -= (top - 1) << keep;
+                    self.acc = writer.flush(self.acc);
                 }
             }
         }
@@ -1450,21 +1432,6 @@ pub mod five {
                 }
             }
         }
-        impl Writer<'_> {
-            /// Stores the low 16 bits of `half` in front of `pos`, or notes that `out` is
-            /// too small.
-            #[inline(always)]
-            fn put16(&mut self, half: u32) {
-                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
-                {
-                    Some(dst) => {
-                        *dst = (half as u16).to_le_bytes();
-                        self.pos -= 2;
-                    }
-                    None => self.full = true,
-                }
-            }
-        }
         /// The encoder's running values, kept in registers by the symbol loop.
         struct Encoding {
             /// The pending bits under a marker bit.
@@ -1505,10 +1472,7 @@ pub mod five {
                 self.state[lane] = next;
                 self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
-                    let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
-                    let top = self.acc >> keep;
-                    writer.put16(top);
-                    self.acc -= (top - 1) << keep;
+                    self.acc = writer.flush(self.acc);
                 }
             }
         }
@@ -3812,21 +3776,6 @@ pub mod five_bare {
                 }
             }
         }
-        impl Writer<'_> {
-            /// Stores the low 16 bits of `half` in front of `pos`, or notes that `out` is
-            /// too small.
-            #[inline(always)]
-            fn put16(&mut self, half: u32) {
-                match self.out.get_mut(..self.pos).and_then(<[u8]>::last_chunk_mut::<2>)
-                {
-                    Some(dst) => {
-                        *dst = (half as u16).to_le_bytes();
-                        self.pos -= 2;
-                    }
-                    None => self.full = true,
-                }
-            }
-        }
         /// The encoder's running values, kept in registers by the symbol loop.
         struct Encoding {
             /// The pending bits under a marker bit.
@@ -3867,10 +3816,7 @@ pub mod five_bare {
                 self.state[lane] = next;
                 self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
-                    let keep = 15u32.wrapping_sub(self.acc.leading_zeros());
-                    let top = self.acc >> keep;
-                    writer.put16(top);
-                    self.acc -= (top - 1) << keep;
+                    self.acc = writer.flush(self.acc);
                 }
             }
         }
