@@ -66,18 +66,24 @@ impl Choice for Lookup {
 /// How streams are delimited (FORMAT.md).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Framing {
-    /// Header with format version, fingerprint and symbol count: self-delimiting, and a
-    /// decoder refuses streams of other tables.
+    /// A 16-bit fingerprint and the symbol count: self-delimiting (streams can follow one
+    /// another), and a decoder refuses streams of other tables. For storage.
     Tagged,
-    /// Payload only, for fixed-size frames: the caller knows the symbol count (the output
-    /// length), and nothing identifies the tables.
+    /// An 8-bit check of the tables and the symbol count, and the payload to the end of the
+    /// stream: for radio frames, whose length the link knows.
+    Compact,
+    /// Payload only, to the end of the stream: the caller knows the symbol count (the
+    /// output length), and nothing identifies the tables.
     Bare,
 }
 
 impl Choice for Framing {
     const KEY: &'static str = "framing";
-    const OPTIONS: &'static [(&'static str, Self)] =
-        &[("tagged", Framing::Tagged), ("bare", Framing::Bare)];
+    const OPTIONS: &'static [(&'static str, Self)] = &[
+        ("tagged", Framing::Tagged),
+        ("compact", Framing::Compact),
+        ("bare", Framing::Bare),
+    ];
 }
 
 /// A piece of training data, as declared (files are read by the load stage).
@@ -519,7 +525,10 @@ impl Checker<'_> {
         };
         let expected = {
             let names: Vec<String> = T::OPTIONS.iter().map(|(n, _)| format!("\"{n}\"")).collect();
-            names.join(" or ")
+            match names.split_last() {
+                Some((last, rest)) if !rest.is_empty() => format!("{} or {last}", rest.join(", ")),
+                _ => names.join(""),
+            }
         };
         match v.get_ref() {
             DeValue::String(s) => match T::OPTIONS.iter().find(|(n, _)| *n == s.as_ref()) {

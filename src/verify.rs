@@ -12,21 +12,36 @@ use crate::method::Tables;
 use crate::model::Model;
 use crate::spec::Framing;
 
-/// Stream format version, in the high nibble of the first header byte.
-pub const FORMAT_VERSION: u8 = 2;
-/// First header byte with the padding count (low three bits) cleared.
-pub const TAG: u8 = FORMAT_VERSION << 4;
+/// Stream format version; it is hashed into the fingerprint, so a stream of another version
+/// is refused as written by other tables.
+pub const FORMAT_VERSION: u8 = 3;
+
+/// One-lane tANS streams of compact or bare framing with at most this many symbols try
+/// [`SEARCH_STARTS`] starting states and keep the shortest stream (FORMAT.md, "Frames").
+pub const SEARCH_SYMBOLS: usize = 256;
+/// Starting states tried by that search.
+pub const SEARCH_STARTS: usize = 16;
+/// Bits a compact or bare tANS decoder may read past the end of the stream, as zeros: the
+/// trailing zeros an encoder leaves out.
+pub const PAST_END_BITS: usize = 64;
+
+/// The compact header's check byte: the fingerprint's two bytes folded by XOR.
+pub fn check_byte(fingerprint: u16) -> u8 {
+    let [lo, hi] = fingerprint.to_le_bytes();
+    lo ^ hi
+}
 
 /// What the reference decoder found wrong with a stream.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum StreamError {
-    UnknownFormat,
     WrongCodec,
     BadLength,
     TooLong,
     Truncated,
     Corrupt,
     TrailingBytes,
+    /// Bare streams: the stream does not hold exactly the asked-for count of symbols.
+    CountMismatch,
 }
 
 /// FNV-1a, 64 bits (Fowler, Noll, Vo; common practice): small, fixed, and the same
@@ -74,10 +89,22 @@ pub fn fnv1a(parts: &[&[u8]]) -> u64 {
 /// format version, the kind, the method, the lanes, the table size, the alphabet and the
 /// layout (the spread for tANS, the slots for rANS), folded to 16 bits.
 pub fn fingerprint(kind_tag: u8, alphabet: &[u8], tables: &Tables, lanes: u32) -> u16 {
+    fingerprint_of_version(FORMAT_VERSION, kind_tag, alphabet, tables, lanes)
+}
+
+/// [`fingerprint`] as format `version` computes it: a stream of another version carries
+/// another fingerprint, and is refused as written by other tables.
+pub fn fingerprint_of_version(
+    version: u8,
+    kind_tag: u8,
+    alphabet: &[u8],
+    tables: &Tables,
+    lanes: u32,
+) -> u16 {
     let (method, layout) = tables.identity();
     let h = fnv1a(&[
         &[
-            FORMAT_VERSION,
+            version,
             kind_tag,
             tables.table_bits() as u8,
             method,
@@ -107,7 +134,7 @@ pub fn leb128(mut v: u64) -> Vec<u8> {
 pub struct Reference<'a> {
     tables: &'a Tables,
     fingerprint: u16,
-    bare: bool,
+    framing: Framing,
     lanes: usize,
     /// tANS: for each symbol, the table positions of its copies, left to right.
     positions: Vec<Vec<u32>>,
@@ -142,7 +169,7 @@ impl<'a> Reference<'a> {
         Reference {
             tables,
             fingerprint,
-            bare: framing == Framing::Bare,
+            framing,
             lanes: lanes as usize,
             positions,
             number,
@@ -156,28 +183,86 @@ impl<'a> Reference<'a> {
 
     /// Encodes symbol indices into a whole stream (header and payload).
     pub fn encode(&self, symbols: &[u16]) -> Vec<u8> {
-        let (payload, pad) = match self.tables {
+        let payload = match self.tables {
             Tables::Tans(t) => self.encode_tans(t, symbols),
-            Tables::Rans(r) => (self.encode_rans(r, symbols), 0),
+            Tables::Rans(r) => self.encode_rans(r, symbols),
         };
-        if self.bare {
-            return payload;
-        }
-        let mut out = vec![TAG | pad];
-        out.extend_from_slice(&self.fingerprint.to_le_bytes());
+        let mut out = match self.framing {
+            Framing::Tagged => self.fingerprint.to_le_bytes().to_vec(),
+            Framing::Compact => vec![check_byte(self.fingerprint)],
+            Framing::Bare => return payload,
+        };
         out.extend(leb128(symbols.len() as u64));
         out.extend(payload);
         out
     }
 
-    /// tANS payload and its padding count. Symbol `i` belongs to lane `i % lanes`.
-    fn encode_tans(&self, tans: &Tans, symbols: &[u16]) -> (Vec<u8>, u8) {
+    /// The positions of `s`'s copies in the order an encoder tries them as a lane's
+    /// starting state: table positions in bit-reversed counting order (0, L/2, L/4, 3L/4,
+    /// ...), the most aligned first, so that the bits the next symbol writes of it are
+    /// most often zeros.
+    fn starts(&self, tans: &Tans, s: u16, limit: usize) -> Vec<u32> {
+        let r = tans.table_bits;
+        (0..1u32 << r)
+            .map(|i| i.reverse_bits() >> (32 - r))
+            .filter(|&p| tans.spread[p as usize] == s)
+            .take(limit)
+            .collect()
+    }
+
+    /// tANS payload. Symbol `i` belongs to lane `i % lanes`; a lane's last symbol is its
+    /// starting state's, and costs no bits. Compact and bare streams of one lane try several
+    /// starting states and keep the shortest stream; they leave out trailing zeros.
+    fn encode_tans(&self, tans: &Tans, symbols: &[u16]) -> Vec<u8> {
+        let n = symbols.len();
+        let used = n.min(self.lanes);
+        // Each used lane's last symbol, lane by lane.
+        let mut last = vec![0u16; used];
+        for (i, &s) in symbols.iter().enumerate().skip(n - used) {
+            last[i % self.lanes] = s;
+        }
+        let framed = self.framing == Framing::Tagged;
+        let tries = if !framed && self.lanes == 1 && n <= SEARCH_SYMBOLS {
+            SEARCH_STARTS
+        } else {
+            1
+        };
+        let mut best: Option<Vec<bool>> = None;
+        let first: Vec<u32> = last.iter().map(|&s| self.starts(tans, s, 1)[0]).collect();
+        let tried: Vec<Vec<u32>> = match last.first() {
+            Some(&s) if tries > 1 => self
+                .starts(tans, s, tries)
+                .into_iter()
+                .map(|p| vec![p])
+                .collect(),
+            _ => vec![first],
+        };
+        for start in tried {
+            let mut bits = self.tans_bits(tans, symbols, &start);
+            if !framed {
+                // Trailing zeros read as zeros past the end: leave them out, up to the limit.
+                let end = bits.iter().rposition(|&b| b).map_or(0, |i| i + 1);
+                bits.truncate(end.max(bits.len().saturating_sub(PAST_END_BITS)));
+            }
+            if best
+                .as_ref()
+                .is_none_or(|b| bits.len().div_ceil(8) < b.len().div_ceil(8))
+            {
+                best = Some(bits);
+            }
+        }
+        pack(&best.unwrap_or_default())
+    }
+
+    /// The payload bits, in reading order, for the lanes' starting positions `start`.
+    fn tans_bits(&self, tans: &Tans, symbols: &[u16], start: &[u32]) -> Vec<bool> {
         let r = tans.table_bits;
         let l = 1u32 << r;
+        let n = symbols.len();
         // Chunks in the order the encoder produces them; the decoder reads them backwards.
-        let mut chunks: Vec<(u32, u32)> = Vec::with_capacity(symbols.len() + self.lanes);
-        let mut x = vec![l; self.lanes];
-        for (i, &s) in symbols.iter().enumerate().rev() {
+        let mut chunks: Vec<(u32, u32)> = Vec::with_capacity(n + self.lanes);
+        let mut x: Vec<u32> = start.iter().map(|&p| l + p).collect();
+        for (i, &s) in symbols.iter().enumerate().rev().skip(start.len()) {
             let x = &mut x[i % self.lanes];
             let q = tans.slots[usize::from(s)];
             let mut k = 0;
@@ -196,14 +281,7 @@ impl<'a> Reference<'a> {
                 bits.push((value >> b) & 1 == 1);
             }
         }
-        let pad = (8 - bits.len() % 8) % 8;
-        if self.bare {
-            // Payload only; the padding goes at the end, where the decoder stops anyway.
-            bits.extend(std::iter::repeat_n(false, pad));
-            return (pack(&bits), 0);
-        }
-        let padded: Vec<bool> = std::iter::repeat_n(false, pad).chain(bits).collect();
-        (pack(&padded), pad as u8)
+        bits
     }
 
     /// rANS payload: the lanes' final states, then the renormalisation words in read order.
@@ -238,70 +316,60 @@ impl<'a> Reference<'a> {
         stream: &[u8],
         limit: usize,
     ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
-        if self.bare {
-            return self.payload(stream, 0, 0, limit);
-        }
-        let (&tag, rest) = stream.split_first().ok_or(StreamError::Truncated)?;
-        if tag & 0xf8 != TAG {
-            return Err(StreamError::UnknownFormat);
-        }
-        let pad = usize::from(tag & 7);
-        if rest.len() < 2 {
-            return Err(StreamError::Truncated);
-        }
-        if u16::from_le_bytes([rest[0], rest[1]]) != self.fingerprint {
-            return Err(StreamError::WrongCodec);
-        }
-        let mut pos = 3;
-        let mut count: u64 = 0;
-        let mut shift = 0;
-        loop {
-            let &b = stream.get(pos).ok_or(StreamError::Truncated)?;
-            pos += 1;
-            if shift == 63 && b > 1 || shift > 63 {
-                return Err(StreamError::BadLength);
-            }
-            count |= u64::from(b & 0x7f) << shift;
-            if b & 0x80 == 0 {
-                if b == 0 && shift > 0 {
-                    return Err(StreamError::BadLength);
+        let pos = match self.framing {
+            Framing::Bare => return self.payload(stream, 0, limit),
+            Framing::Tagged => {
+                if stream.len() < 2 {
+                    return Err(StreamError::Truncated);
                 }
-                break;
+                if u16::from_le_bytes([stream[0], stream[1]]) != self.fingerprint {
+                    return Err(StreamError::WrongCodec);
+                }
+                2
             }
-            shift += 7;
-        }
-        let count = usize::try_from(count).map_err(|_| StreamError::TooLong)?;
+            Framing::Compact => {
+                let &check = stream.first().ok_or(StreamError::Truncated)?;
+                if check != check_byte(self.fingerprint) {
+                    return Err(StreamError::WrongCodec);
+                }
+                1
+            }
+        };
+        let (count, pos) = read_count(stream, pos)?;
         if count > limit {
             return Err(StreamError::TooLong);
         }
-        self.payload(stream, pos, pad, count)
+        self.payload(stream, pos, count)
+    }
+
+    /// Bare streams report every failure of their end checks as a count mismatch: nothing
+    /// else in them tells a wrong count from damage.
+    fn bare_or(&self, e: StreamError) -> StreamError {
+        if self.framing == Framing::Bare {
+            StreamError::CountMismatch
+        } else {
+            e
+        }
     }
 
     fn payload(
         &self,
         stream: &[u8],
         pos: usize,
-        pad: usize,
         count: usize,
     ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
         match self.tables {
-            Tables::Tans(t) => self.payload_tans(t, stream, pos, pad, count),
-            Tables::Rans(r) => {
-                if pad != 0 {
-                    return Err(StreamError::Corrupt);
-                }
-                self.payload_rans(r, stream, pos, count)
-            }
+            Tables::Tans(t) => self.payload_tans(t, stream, pos, count),
+            Tables::Rans(r) => self.payload_rans(r, stream, pos, count),
         }
     }
 
-    /// Decodes `count` symbols from the tANS payload at `stream[pos..]`, after `pad` zero bits.
+    /// Decodes `count` symbols from the tANS payload at `stream[pos..]`.
     fn payload_tans(
         &self,
         tans: &Tans,
         stream: &[u8],
         pos: usize,
-        pad: usize,
         count: usize,
     ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
         let r = tans.table_bits;
@@ -311,12 +379,7 @@ impl<'a> Reference<'a> {
                 .get(i / 8)
                 .is_some_and(|&byte| (byte >> (i % 8)) & 1 == 1)
         };
-        for i in 0..pad {
-            if bit(i) {
-                return Err(StreamError::Corrupt);
-            }
-        }
-        let mut at = pad;
+        let mut at = 0;
         let mut read = |k: u32| -> u32 {
             let mut v = 0;
             for b in 0..k {
@@ -325,27 +388,44 @@ impl<'a> Reference<'a> {
             }
             v
         };
-        let mut state: Vec<usize> = (0..self.lanes).map(|_| read(r) as usize).collect();
+        let used = count.min(self.lanes);
+        let mut state: Vec<usize> = (0..used).map(|_| read(r) as usize).collect();
         let mut out = Vec::with_capacity(count.min(1 << 20));
         for i in 0..count {
             let state = &mut state[i % self.lanes];
             let s = tans.spread[*state];
-            let o = self.number[*state];
-            let k = r - (31 - o.leading_zeros());
             out.push(s);
-            *state = (((o << k) | read(k)) - (1u32 << r)) as usize;
+            // A lane's last symbol is its final state's: no bits after it.
+            if i + self.lanes < count {
+                let o = self.number[*state];
+                let k = r - (31 - o.leading_zeros());
+                *state = (((o << k) | read(k)) - (1u32 << r)) as usize;
+            }
         }
-        if at > payload.len() * 8 {
-            return Err(StreamError::Truncated);
+        let len = payload.len() * 8;
+        if self.framing == Framing::Tagged {
+            // The stream ends at the byte of the last bit read, in zero padding.
+            if at > len {
+                return Err(StreamError::Truncated);
+            }
+            if (at..at.div_ceil(8) * 8).any(bit) {
+                return Err(StreamError::Corrupt);
+            }
+            return Ok((out, pos + at.div_ceil(8)));
         }
-        if state.iter().any(|&s| s != 0) {
-            return Err(StreamError::Corrupt);
+        // Compact and bare: the payload runs to the end of the stream, its trailing zeros
+        // left out: every byte was reached, no more than `PAST_END_BITS` were read past
+        // the end, and the bits after the last one read are zero.
+        if at + 8 <= len {
+            return Err(self.bare_or(StreamError::TrailingBytes));
         }
-        // Bare streams end in zero padding up to the byte boundary; tagged ones exactly on it.
-        if self.bare && (at..at.div_ceil(8) * 8).any(bit) || !self.bare && !at.is_multiple_of(8) {
-            return Err(StreamError::Corrupt);
+        if at > len + PAST_END_BITS {
+            return Err(self.bare_or(StreamError::Truncated));
         }
-        Ok((out, pos + at.div_ceil(8)))
+        if (at..len).any(bit) {
+            return Err(self.bare_or(StreamError::Corrupt));
+        }
+        Ok((out, stream.len()))
     }
 
     /// Decodes `count` symbols from the rANS payload at `stream[pos..]`.
@@ -360,14 +440,14 @@ impl<'a> Reference<'a> {
         let payload = &stream[pos..];
         let first = 4 * self.lanes;
         if payload.len() < first {
-            return Err(StreamError::Truncated);
+            return Err(self.bare_or(StreamError::Truncated));
         }
         let mut x: Vec<u64> = payload[..first]
             .chunks(4)
             .map(|w| u64::from(u32::from_le_bytes([w[0], w[1], w[2], w[3]])))
             .collect();
         if x.iter().any(|&x| x < u64::from(RANS_LOW)) {
-            return Err(StreamError::Corrupt);
+            return Err(self.bare_or(StreamError::Corrupt));
         }
         let mut at = first;
         let mut out = Vec::with_capacity(count.min(1 << 20));
@@ -384,12 +464,25 @@ impl<'a> Reference<'a> {
             out.push(s as u16);
         }
         if at > payload.len() {
-            return Err(StreamError::Truncated);
+            return Err(self.bare_or(StreamError::Truncated));
         }
         if x.iter().any(|&x| x != u64::from(RANS_LOW)) {
-            return Err(StreamError::Corrupt);
+            return Err(self.bare_or(StreamError::Corrupt));
+        }
+        // Compact and bare streams end at the end of the stream.
+        if self.framing != Framing::Tagged && at < payload.len() {
+            return Err(self.bare_or(StreamError::TrailingBytes));
         }
         Ok((out, pos + at))
+    }
+}
+
+/// Bytes of the header of a stream of `symbols` symbols.
+pub fn header_len(framing: Framing, symbols: usize) -> usize {
+    match framing {
+        Framing::Tagged => 2 + leb128(symbols as u64).len(),
+        Framing::Compact => 1 + leb128(symbols as u64).len(),
+        Framing::Bare => 0,
     }
 }
 
@@ -401,8 +494,7 @@ pub struct Verified {
     pub symbols: u64,
     /// Whole streams, headers included.
     pub stream_bytes: u64,
-    /// Payload bits (state and symbol bits; no header; padding excluded for tagged streams,
-    /// included for bare ones).
+    /// Payload bits (no header; padding included).
     pub payload_bits: u64,
 }
 
@@ -442,18 +534,35 @@ pub fn verify(
                     )))
                 }
             }
-            let (header, pad) = match framing {
-                Framing::Tagged => (
-                    3 + leb128(piece.len() as u64).len(),
-                    u64::from(stream[0] & 7),
-                ),
-                Framing::Bare => (0, 0),
-            };
+            let header = header_len(framing, piece.len());
             v.symbols += piece.len() as u64;
             v.stream_bytes += stream.len() as u64;
-            v.payload_bits += (stream.len() - header) as u64 * 8 - pad;
+            v.payload_bits += (stream.len() - header) as u64 * 8;
         }
         v.sequences += 1;
     }
     Ok(v)
+}
+
+/// The LEB128 symbol count at `stream[pos..]` and the position after it.
+fn read_count(stream: &[u8], mut pos: usize) -> std::result::Result<(usize, usize), StreamError> {
+    let mut count: u64 = 0;
+    let mut shift = 0;
+    loop {
+        let &b = stream.get(pos).ok_or(StreamError::Truncated)?;
+        pos += 1;
+        if shift == 63 && b > 1 || shift > 63 {
+            return Err(StreamError::BadLength);
+        }
+        count |= u64::from(b & 0x7f) << shift;
+        if b & 0x80 == 0 {
+            if b == 0 && shift > 0 {
+                return Err(StreamError::BadLength);
+            }
+            break;
+        }
+        shift += 7;
+    }
+    let count = usize::try_from(count).map_err(|_| StreamError::TooLong)?;
+    Ok((count, pos))
 }

@@ -142,6 +142,10 @@ fn random_spec_covers_every_option() {
                 "rans {rans}, bare {bare}"
             );
         }
+        assert!(
+            any(&|c| c.rans == rans && c.compact),
+            "rans {rans}, compact"
+        );
     }
     assert!(any(&|c| c.rans && c.search) && any(&|c| c.rans && !c.search));
     for lanes in [1, 2, 4, 8] {

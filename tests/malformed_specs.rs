@@ -420,9 +420,9 @@ fn wrong_types() -> Vec<Case> {
         bytes("method_boolean", "method = true")
             .at(4, 10, "a", "`method` must be one of \"tans\" or \"rans\", found a boolean"),
         bytes("framing_unknown", "framing = \"framed\"")
-            .at(4, 11, "a", "unknown framing \"framed\": expected \"tagged\" or \"bare\""),
+            .at(4, 11, "a", "unknown framing \"framed\": expected \"tagged\", \"compact\" or \"bare\""),
         bytes("framing_table", "framing = { bare = true }")
-            .at(4, 11, "a", "`framing` must be one of \"tagged\" or \"bare\", found a table"),
+            .at(4, 11, "a", "`framing` must be one of \"tagged\", \"compact\" or \"bare\", found a table"),
         Case::new("symbol_lookup_integer", &["[codec.a]", "kind = \"bytes\"", "text = \"a\"", "method = \"rans\"", "symbol_lookup = 0"])
             .at(5, 17, "a", "`symbol_lookup` must be one of \"table\" or \"search\", found an integer"),
         bytes("lanes_float", "lanes = 2.0")

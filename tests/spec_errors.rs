@@ -240,7 +240,7 @@ fn type_errors_name_the_codec_and_the_key() {
     let cases: &[(&str, &str)] = &[
         ("lanes = \"4\"\n", "codecs.toml:5:9: codec `a`: `lanes` must be an integer, found a string"),
         ("method = 2\n", "codecs.toml:5:10: codec `a`: `method` must be one of \"tans\" or \"rans\", found an integer"),
-        ("framing = [\"bare\"]\n", "codecs.toml:5:11: codec `a`: `framing` must be one of \"tagged\" or \"bare\", found an array"),
+        ("framing = [\"bare\"]\n", "codecs.toml:5:11: codec `a`: `framing` must be one of \"tagged\", \"compact\" or \"bare\", found an array"),
         ("text = 5\n", "codecs.toml:5:8: codec `a`: `text` must be a string, found an integer"),
         ("samples = [3]\n", "codecs.toml:5:12: codec `a`: `samples` must be a path string, found an integer"),
     ];

@@ -1,6 +1,6 @@
 //! Arbitrary bytes as a stream for every codec of the random spec
-//! (`fuzz/seeds/random_specs.toml`, from `random_specs.rs`): decoding must never panic, and any
-//! stream it accepts must be the one `encode` writes for those symbols.
+//! (`fuzz/seeds/random_specs.toml`, from `random_specs.rs`): decoding must never panic, and the
+//! symbols of any stream it accepts must survive a re-encoding.
 //!
 //! Not part of `checks/mod.rs`: the codecs are expanded by `precast_macros::codecs!`, whose path
 //! is relative to the including crate, so each includer (the fuzz target and

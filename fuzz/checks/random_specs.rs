@@ -47,6 +47,9 @@ pub struct RandomCodec {
     pub search: bool,
     pub lanes: u32,
     pub bare: bool,
+    /// Compact framing: every seventh of the codecs drawn bare (decided without a draw of
+    /// its own, so that the other codecs stay as they were).
+    pub compact: bool,
 }
 
 /// Smallest table (log2 of its size, at least 1) with room for `n` symbols.
@@ -95,7 +98,8 @@ pub fn codecs() -> Vec<RandomCodec> {
             let rans = rng.coin();
             let search = rans && rng.coin();
             let lanes = [1, 2, 4, 8][rng.below(4) as usize];
-            let bare = rng.coin();
+            let frame = rng.coin();
+            let (bare, compact) = (frame && k % 7 != 0, frame && k % 7 == 0);
             RandomCodec {
                 name: format!("r{k}"),
                 bytes,
@@ -106,6 +110,7 @@ pub fn codecs() -> Vec<RandomCodec> {
                 search,
                 lanes,
                 bare,
+                compact,
             }
         })
         .collect()
@@ -160,8 +165,12 @@ pub fn spec_text() -> String {
         if c.lanes != 1 || explicit {
             out.push_str(&format!("lanes = {}\n", c.lanes));
         }
-        if c.bare || explicit {
-            let framing = if c.bare { "bare" } else { "tagged" };
+        if c.bare || c.compact || explicit {
+            let framing = match (c.bare, c.compact) {
+                (true, _) => "bare",
+                (_, true) => "compact",
+                _ => "tagged",
+            };
             out.push_str(&format!("framing = \"{framing}\"\n"));
         }
     }

@@ -1,5 +1,6 @@
-//! How streams are delimited, for both methods: the tagged header (format version, padding
-//! count, fingerprint, LEB128 symbol count) or none at all (bare). FORMAT.md has the layout.
+//! How streams are delimited, for both methods: the tagged header (fingerprint, LEB128 symbol
+//! count), the compact one (check byte, count) or none at all (bare), the errors each can
+//! give, and `symbol_count`. FORMAT.md has the layout.
 
 use crate::spec::Framing;
 use proc_macro2::TokenStream;
@@ -7,52 +8,214 @@ use quote::quote;
 
 /// The framing pieces a method's encoder and decoder splice in.
 pub struct FramingTokens {
+    pub framing: Framing,
     /// `const` expression: the largest header for `symbols` symbols.
     pub header_max: TokenStream,
     /// The header length for `input`.
     pub header_len: TokenStream,
-    /// Decoder start: binds `count`, `header` and `pad`, and narrows `out` to `count`.
+    /// Decoder start: binds `count` and `header`, and narrows `out` to `count`.
     pub start: TokenStream,
     /// Items the framing needs at module level.
     pub items: TokenStream,
+    /// The `Error` variants of the decoder, and their `Display` arms.
+    pub error_variants: TokenStream,
+    pub error_display: TokenStream,
+}
+
+/// The ways a stream can fail its checks, named as in FORMAT.md.
+#[derive(Clone, Copy)]
+pub enum Failure {
+    Truncated,
+    Corrupt,
+    TrailingBytes,
+}
+
+impl FramingTokens {
+    /// The error for `failure`: bare streams give one error for all of them, since nothing
+    /// in a bare stream tells a wrong count (the output's length) from damage.
+    pub fn error(&self, failure: Failure) -> TokenStream {
+        match (self.framing, failure) {
+            (Framing::Bare, _) => quote!(Error::CountMismatch),
+            (_, Failure::Truncated) => quote!(Error::Truncated),
+            (_, Failure::Corrupt) => quote!(Error::Corrupt),
+            (_, Failure::TrailingBytes) => quote!(Error::TrailingBytes),
+        }
+    }
+
+    /// Whether the stream runs to the end of what the decoder is given (compact and bare),
+    /// rather than delimiting itself (tagged).
+    pub fn to_the_end(&self) -> bool {
+        self.framing != Framing::Tagged
+    }
+
+    /// Encoder end: writes the header in front of the stream. Nothing for bare streams.
+    pub fn write_header(&self) -> TokenStream {
+        match self.framing {
+            Framing::Bare => TokenStream::new(),
+            _ => quote!(write_header(out, input.len(), header);),
+        }
+    }
+
+    /// The public entry points over the method's `decode_prefix`: `decode` for every
+    /// framing, `decode_prefix` itself for tagged streams.
+    pub fn entry_points(&self) -> TokenStream {
+        match self.framing {
+            Framing::Tagged => quote! {
+                /// Decodes one whole stream into `out`; returns the number of symbols.
+                pub fn decode(stream: &[u8], out: &mut [Symbol]) -> Result<usize, Error> {
+                    let (count, used) = decode_prefix(stream, out)?;
+                    if used != stream.len() {
+                        return Err(Error::TrailingBytes);
+                    }
+                    Ok(count)
+                }
+            },
+            Framing::Compact => quote! {
+                /// Decodes one whole stream (the stream runs to the end of `stream`) into
+                /// `out`; returns the number of symbols.
+                pub fn decode(stream: &[u8], out: &mut [Symbol]) -> Result<usize, Error> {
+                    decode_prefix(stream, out).map(|(count, _)| count)
+                }
+            },
+            Framing::Bare => quote! {
+                /// Decodes one whole bare stream into `out`: exactly `out.len()` symbols, the
+                /// count the caller knows (the stream does not carry it).
+                pub fn decode(stream: &[u8], out: &mut [Symbol]) -> Result<usize, Error> {
+                    decode_prefix(stream, out).map(|(count, _)| count)
+                }
+            },
+        }
+    }
 }
 
 pub fn tokens(framing: Framing) -> FramingTokens {
+    let (error_variants, error_display) = errors(framing);
+    let (header_max, header_len, start, items) = match framing {
+        Framing::Tagged | Framing::Compact => {
+            let id = if framing == Framing::Tagged {
+                quote!(2)
+            } else {
+                quote!(1)
+            };
+            (
+                quote!(#id + leb128_len(symbols)),
+                quote!(#id + leb128_len(input.len())),
+                quote! {
+                    let (count, header) = read_header(stream)?;
+                    let Some(out) = out.get_mut(..count) else {
+                        return Err(Error::OutputTooSmall);
+                    };
+                },
+                header_items(framing),
+            )
+        }
+        Framing::Bare => (
+            quote!(0usize),
+            quote!(0usize),
+            quote! {
+                // Bare: the output's length is the symbol count, and there is no header.
+                let (count, header) = (out.len(), 0usize);
+            },
+            TokenStream::new(),
+        ),
+    };
+    FramingTokens {
+        framing,
+        header_max,
+        header_len,
+        start,
+        items,
+        error_variants,
+        error_display,
+    }
+}
+
+/// The decoder's `Error` variants (after `OutputTooSmall` and the input's own) and their
+/// messages: only those the framing can give.
+fn errors(framing: Framing) -> (TokenStream, TokenStream) {
     match framing {
-        Framing::Tagged => FramingTokens {
-            header_max: quote!(3 + leb128_len(symbols)),
-            header_len: quote!(3 + leb128_len(input.len())),
-            start: quote! {
-                let (count, header, pad) = read_header(stream)?;
-                let Some(out) = out.get_mut(..count) else {
-                    return Err(Error::OutputTooSmall);
+        Framing::Bare => (
+            quote! {
+                /// The stream does not decode to exactly `out.len()` symbols: the count is
+                /// not the one it was written with, or the stream was damaged.
+                CountMismatch,
+            },
+            quote! {
+                Error::CountMismatch => f.write_str("the stream does not hold exactly the asked-for number of symbols"),
+            },
+        ),
+        Framing::Tagged | Framing::Compact => (
+            quote! {
+                /// The stream was written by other tables: another codec, spec or format
+                /// version.
+                WrongCodec,
+                /// The symbol count in the stream header is malformed.
+                BadLength,
+                /// The stream ends before its last symbol.
+                Truncated,
+                /// The stream fails its end check: some of its bits were changed.
+                Corrupt,
+                /// Bytes follow the end of the stream.
+                TrailingBytes,
+            },
+            quote! {
+                Error::WrongCodec => f.write_str("the stream was written by another codec"),
+                Error::BadLength => f.write_str("the stream header has a malformed symbol count"),
+                Error::Truncated => f.write_str("the stream is truncated"),
+                Error::Corrupt => f.write_str("the stream is corrupt"),
+                Error::TrailingBytes => f.write_str("bytes follow the end of the stream"),
+            },
+        ),
+    }
+}
+
+/// The header's writer and reader, and `symbol_count`.
+fn header_items(framing: Framing) -> TokenStream {
+    let (id_len, write_id, check_id) = match framing {
+        Framing::Tagged => (
+            quote!(2),
+            quote! {
+                if let Some(dst) = out.first_chunk_mut::<2>() {
+                    *dst = FINGERPRINT.to_le_bytes();
+                }
+            },
+            quote! {
+                let Some(&id) = stream.first_chunk::<2>() else {
+                    return Err(Error::Truncated);
                 };
+                if u16::from_le_bytes(id) != FINGERPRINT {
+                    return Err(Error::WrongCodec);
+                }
             },
-            items: tagged_items(),
-        },
-        Framing::Bare => FramingTokens {
-            header_max: quote!(0usize),
-            header_len: quote!(0usize),
-            start: quote! {
-                // Bare: the output length is the symbol count.
-                let (count, header, pad) = (out.len(), 0usize, 0usize);
+        ),
+        _ => (
+            quote!(1),
+            quote! {
+                if let Some(dst) = out.first_mut() {
+                    *dst = CHECK;
+                }
             },
-            items: TokenStream::new(),
-        },
-    }
-}
-
-/// Encoder end: writes the header in front of the stream, with `pad` padding bits (a `u8`
-/// expression). Nothing for bare streams.
-pub fn write_header(framing: Framing, pad: TokenStream) -> TokenStream {
-    match framing {
-        Framing::Tagged => quote!(write_header(out, input.len(), header, #pad);),
-        Framing::Bare => TokenStream::new(),
-    }
-}
-
-fn tagged_items() -> TokenStream {
+            quote! {
+                let Some(&id) = stream.first() else {
+                    return Err(Error::Truncated);
+                };
+                if id != CHECK {
+                    return Err(Error::WrongCodec);
+                }
+            },
+        ),
+    };
+    let check = if framing == Framing::Compact {
+        quote! {
+            /// The compact header's first byte: the fingerprint's two bytes folded by XOR.
+            const CHECK: u8 = FINGERPRINT.to_le_bytes()[0] ^ FINGERPRINT.to_le_bytes()[1];
+        }
+    } else {
+        TokenStream::new()
+    };
     quote! {
+        #check
+
         const fn leb128_len(mut n: usize) -> usize {
             let mut len = 1;
             while n >= 0x80 {
@@ -63,37 +226,29 @@ fn tagged_items() -> TokenStream {
         }
 
         /// Writes the header of a stream of `symbols` symbols into the first `header` bytes of
-        /// `out`, with `pad` padding bits.
+        /// `out`.
         #[inline(always)]
-        fn write_header(out: &mut [u8], symbols: usize, header: usize, pad: u8) {
-            if let Some(dst) = out.get_mut(..3) {
-                let [lo, hi] = FINGERPRINT.to_le_bytes();
-                dst.copy_from_slice(&[(FORMAT_VERSION << 4) | pad, lo, hi]);
-            }
+        fn write_header(out: &mut [u8], symbols: usize, header: usize) {
+            #write_id
             let mut n = symbols;
-            for dst in out.iter_mut().take(header).skip(3) {
+            for dst in out.iter_mut().take(header).skip(#id_len) {
                 *dst = (n & 0x7f) as u8 | if n >= 0x80 { 0x80 } else { 0 };
                 n >>= 7;
             }
         }
 
-        /// Header: (symbol count, header length, padding bits).
-        fn read_header(stream: &[u8]) -> Result<(usize, usize, usize), Error> {
-            let Some(&tag) = stream.first() else {
-                return Err(Error::Truncated);
-            };
-            if tag & 0xf8 != FORMAT_VERSION << 4 {
-                return Err(Error::UnknownFormat);
-            }
-            let (Some(&lo), Some(&hi)) = (stream.get(1), stream.get(2)) else {
-                return Err(Error::Truncated);
-            };
-            if u16::from_le_bytes([lo, hi]) != FINGERPRINT {
-                return Err(Error::WrongCodec);
-            }
+        /// The number of symbols in the stream at the front of `stream`, read from its header
+        /// (for sizing the output before decoding).
+        pub fn symbol_count(stream: &[u8]) -> Result<usize, Error> {
+            read_header(stream).map(|(count, _)| count)
+        }
+
+        /// Header: (symbol count, header length).
+        fn read_header(stream: &[u8]) -> Result<(usize, usize), Error> {
+            #check_id
             let mut count: u64 = 0;
             let mut shift = 0u32;
-            let mut pos = 3;
+            let mut pos = #id_len;
             loop {
                 let Some(&b) = stream.get(pos) else {
                     return Err(Error::Truncated);
@@ -112,7 +267,7 @@ fn tagged_items() -> TokenStream {
                 shift += 7;
             }
             match usize::try_from(count) {
-                Ok(count) => Ok((count, pos, usize::from(tag & 7))),
+                Ok(count) => Ok((count, pos)),
                 Err(_) => Err(Error::BadLength),
             }
         }

@@ -13,6 +13,7 @@ pub mod tans;
 use crate::error::{Error, Result};
 use crate::method::{TableLayout, Tables};
 use crate::plan::CodecPlan;
+use crate::spec::Framing;
 use crate::verify::FORMAT_VERSION;
 use proc_macro2::{Ident, Literal, Span, TokenStream};
 use quote::quote;
@@ -84,6 +85,11 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     let fingerprint = Literal::u16_unsuffixed(plan.fingerprint);
     let format_version = Literal::u8_unsuffixed(FORMAT_VERSION);
     let lanes = Literal::usize_unsuffixed(spec.lanes as usize);
+    let fingerprint_doc = match spec.framing {
+        Framing::Tagged => " Identifies these tables (and the format version) in every stream's header; a stream with another one is refused.",
+        Framing::Compact => " Identifies these tables (and the format version); a compact stream's first byte is its two bytes folded by XOR.",
+        Framing::Bare => " Identifies these tables (and the format version). Bare streams do not carry it: nothing in them tells whose they are.",
+    };
     let module_doc = docs(&plan.report.doc_lines());
     let symbol_items = spec.kind.symbol_items();
     let framing = framing::tokens(spec.framing);
@@ -98,6 +104,9 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     };
     let layout_check = layout_check(&set.layout);
     let framing_items = &framing.items;
+    let framing_errors = &framing.error_variants;
+    let framing_display = &framing.error_display;
+    let entry_points = framing.entry_points();
     let input::InputTokens {
         error_variant,
         error_display,
@@ -116,7 +125,7 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
             pub const ALPHABET_LEN: usize = #alphabet_len;
             /// Interleaved coder states: symbol `i` of a stream belongs to lane `i % LANES`.
             pub const LANES: usize = #lanes;
-            /// Identifies these tables in every stream; a stream with another one is refused.
+            #[doc = #fingerprint_doc]
             pub const FINGERPRINT: u16 = #fingerprint;
             /// Version of the stream format these functions read and write (FORMAT.md).
             pub const FORMAT_VERSION: u8 = #format_version;
@@ -132,18 +141,7 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
                 /// The output buffer is too small; [`max_encoded_len`] always suffices.
                 OutputTooSmall,
                 #error_variant
-                /// The stream is not in a format version this decoder reads.
-                UnknownFormat,
-                /// The stream was written by other tables: another codec, spec or version.
-                WrongCodec,
-                /// The symbol count in the stream header is malformed.
-                BadLength,
-                /// The stream ends before its last symbol.
-                Truncated,
-                /// The stream fails its end check: some of its bits were changed.
-                Corrupt,
-                /// Bytes follow the end of the stream.
-                TrailingBytes,
+                #framing_errors
             }
 
             impl ::core::fmt::Display for Error {
@@ -151,26 +149,14 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
                     match self {
                         Error::OutputTooSmall => f.write_str("the output buffer is too small"),
                         #error_display
-                        Error::UnknownFormat => f.write_str("the stream is not in a format this decoder reads"),
-                        Error::WrongCodec => f.write_str("the stream was written by another codec"),
-                        Error::BadLength => f.write_str("the stream header has a malformed symbol count"),
-                        Error::Truncated => f.write_str("the stream is truncated"),
-                        Error::Corrupt => f.write_str("the stream is corrupt"),
-                        Error::TrailingBytes => f.write_str("bytes follow the end of the stream"),
+                        #framing_display
                     }
                 }
             }
 
             impl ::core::error::Error for Error {}
 
-            /// Decodes one whole stream into `out`; returns the number of symbols.
-            pub fn decode(stream: &[u8], out: &mut [Symbol]) -> Result<usize, Error> {
-                let (count, used) = decode_prefix(stream, out)?;
-                if used != stream.len() {
-                    return Err(Error::TrailingBytes);
-                }
-                Ok(count)
-            }
+            #entry_points
 
             #body
 
@@ -215,12 +201,17 @@ pub(crate) fn tail_word() -> TokenStream {
         }
 
         /// Moves the stream written at `out[from..]` to `out[to..]` (`to <= from`) and
-        /// returns its length. Copies in pieces no longer than the distance moved, so that
-        /// source and destination never overlap and no index can fail.
-        fn move_to_front(out: &mut [u8], from: usize, to: usize) -> Result<usize, Error> {
+        /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
+        /// to the end of its last byte. Without, copies in pieces no longer than the distance
+        /// moved, so that source and destination never overlap and no index can fail.
+        fn move_to_front(out: &mut [u8], from: usize, to: usize, pad: u32) -> Result<usize, Error> {
             let (Some(gap), Some(len)) = (from.checked_sub(to), out.len().checked_sub(from)) else {
                 return Err(Error::OutputTooSmall);
             };
+            if pad != 0 {
+                shift_to_front(out, from, to, pad & 7);
+                return Ok(to + len);
+            }
             let mut done = 0;
             while gap > 0 && done < len {
                 let step = if len - done < gap { len - done } else { gap };
@@ -235,6 +226,27 @@ pub(crate) fn tail_word() -> TokenStream {
                 done += step;
             }
             Ok(to + len)
+        }
+
+        /// [`move_to_front`] shifted by `pad` bits, a word at a time, then byte by byte.
+        /// Forwards with `to <= from`: every byte is read before a write can reach it.
+        fn shift_to_front(out: &mut [u8], from: usize, to: usize, pad: u32) {
+            let mut i = 0usize;
+            while let Some(&five) = out.get(from.wrapping_add(i)..).and_then(<[u8]>::first_chunk::<5>) {
+                let [a, b, c, d, e] = five;
+                let word = u32::from_le_bytes([a, b, c, d]) >> pad | u32::from(e) << (32 - pad);
+                if let Some(dst) = out.get_mut(to.wrapping_add(i)..).and_then(<[u8]>::first_chunk_mut::<4>) {
+                    *dst = word.to_le_bytes();
+                }
+                i = i.wrapping_add(4);
+            }
+            while let Some(&b) = out.get(from.wrapping_add(i)) {
+                let next = out.get(from.wrapping_add(i).wrapping_add(1)).copied().unwrap_or(0);
+                if let Some(dst) = out.get_mut(to.wrapping_add(i)) {
+                    *dst = b >> pad | next << (8 - pad);
+                }
+                i = i.wrapping_add(1);
+            }
         }
     }
 }

@@ -2,7 +2,7 @@
 //! `[2^16, 2^32)` that moves in 16-bit words, encoded without division (a reciprocal per
 //! symbol), decoded by a slot table or a search over the cumulative slots.
 
-use super::framing::{self, FramingTokens};
+use super::framing::{Failure, FramingTokens};
 use super::input::{self, InputTokens};
 use super::rows::{push_number, rows_of, RowSets};
 use crate::method::rans::Rans;
@@ -44,7 +44,25 @@ pub fn body(
     } else {
         quote!()
     };
-    let finish = framing::write_header(plan.spec.framing, quote!(0));
+    let finish = framing.write_header();
+    let truncated = framing.error(Failure::Truncated);
+    let corrupt = framing.error(Failure::Corrupt);
+    // Compact and bare streams run to the end of the stream.
+    let exact_end = if framing.to_the_end() {
+        let trailing = framing.error(Failure::TrailingBytes);
+        quote! {
+            if at < payload.len() {
+                return Err(#trailing);
+            }
+        }
+    } else {
+        TokenStream::new()
+    };
+    let prefix_vis = if framing.to_the_end() {
+        TokenStream::new()
+    } else {
+        quote!(pub)
+    };
     let word = super::tail_word();
     let absent = matches!(plan.input, crate::kind::InputMap::Rows(_));
     let put_rows = rows.add(input::put_rows(kind, &plan.input, 1, |line, row| {
@@ -81,7 +99,7 @@ pub fn body(
                 let words = (payload.len() - 4 * LANES) as u64 / 2;
                 let room = words.saturating_mul(17).saturating_add(16 * LANES as u64);
                 if (count as u64).saturating_mul(MIN_COST) >> 10 > room {
-                    return Err(Error::Truncated);
+                    return Err(#truncated);
                 }
             }
         }
@@ -245,7 +263,7 @@ pub fn body(
                 *dst = x.to_le_bytes();
                 pos -= 4;
             }
-            let len = move_to_front(out, pos, header)?;
+            let len = move_to_front(out, pos, header, 0)?;
             #finish
             Ok(len)
         }
@@ -253,15 +271,11 @@ pub fn body(
         /// Decodes the stream at the front of `stream` (more may follow it); returns the
         /// number of symbols and the number of bytes the stream took.
         #[allow(clippy::modulo_one)]
-        pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
+        #prefix_vis fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
             #start
-            // rANS streams carry no padding.
-            if pad != 0 {
-                return Err(Error::Corrupt);
-            }
             let payload = stream.get(header..).unwrap_or(&[]);
             let Some(head) = payload.first_chunk::<#state_bytes>() else {
-                return Err(Error::Truncated);
+                return Err(#truncated);
             };
             #count_check
             let mut state = [0u32; LANES];
@@ -269,7 +283,7 @@ pub fn body(
                 *x = u32::from_le_bytes(*bytes);
             }
             if state.iter().any(|&x| x < LOW) {
-                return Err(Error::Corrupt);
+                return Err(#corrupt);
             }
             let mut at = 4 * LANES;
             let (rounds, _) = out.as_chunks_mut::<LANES>();
@@ -307,11 +321,12 @@ pub fn body(
                 };
             }
             if at > payload.len() {
-                return Err(Error::Truncated);
+                return Err(#truncated);
             }
             if state.iter().any(|&x| x != LOW) {
-                return Err(Error::Corrupt);
+                return Err(#corrupt);
             }
+            #exact_end
             Ok((count, header + at))
         }
 

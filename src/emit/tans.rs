@@ -13,7 +13,7 @@
 //!
 //! Both write and read the same streams (FORMAT.md).
 
-use super::framing::{self, FramingTokens};
+use super::framing::{Failure, FramingTokens};
 use super::input::{self, InputTokens};
 use super::rows::{push_number, rows_of, RowSets};
 use crate::method::tans::Tans;
@@ -60,10 +60,15 @@ struct Parts<'a> {
     /// The decoder's start (header, count and padding checks, the lanes' first states) and
     /// end (the end checks), the same on both paths.
     decode_start: TokenStream,
+    /// Decodes the lanes' last symbols from their final states.
+    decode_tail: TokenStream,
     decode_end: TokenStream,
     framing: &'a FramingTokens,
     input: &'a InputTokens,
     finish: TokenStream,
+    /// The encoder's start: `head` (the symbols put into the states), `used` lanes, and the
+    /// lanes' starting states from their last symbols.
+    encode_start: TokenStream,
 }
 
 pub fn body(
@@ -88,38 +93,50 @@ pub fn body(
         push_number(line, u64::from(v));
         line.push_str(", ");
     }));
-    let (count_check, end_check) = (count_check(tans), end_check(plan.spec.framing));
+    let count_check = count_check(tans, framing);
     let start = &framing.start;
     let decode_start = quote! {
         #start
         let payload = stream.get(header..).unwrap_or(&[]);
         #count_check
-        if peek(payload, 0) & !(Word::MAX << pad) != 0 {
-            return Err(Error::Corrupt);
-        }
-        let mut at = pad;
+        // Lanes with a symbol: each has its first state in front of the payload.
+        let used = if count < LANES { count } else { LANES };
+        let mut at = 0usize;
         let mut state = [0usize; LANES];
-        for x in state.iter_mut() {
+        for x in state.iter_mut().take(used) {
             *x = peek(payload, at) as usize & MASK;
             at += TABLE_BITS as usize;
         }
+        // A lane's last symbol is its final state's: `tail` is decoded without reading.
+        let Some((head, tail)) = out.split_at_mut_checked(count - used) else {
+            return Err(Error::OutputTooSmall);
+        };
     };
-    let decode_end = quote! {
-        if at.div_ceil(8) > payload.len() {
-            return Err(Error::Truncated);
+    let decode_tail = quote! {
+        for (i, slot) in tail.iter_mut().enumerate() {
+            *slot = step(state[(count - used + i) % LANES] & MASK).0;
         }
-        if state.iter().any(|&x| x != 0) {
-            return Err(Error::Corrupt);
-        }
-        #end_check
-        Ok((count, header + at.div_ceil(8)))
     };
+    let decode_end = end_check(framing);
     let parts = Parts {
         decode_start,
+        decode_tail,
         decode_end,
         framing,
         input,
-        finish: finish(plan.spec.framing),
+        finish: finish(framing),
+        encode_start: encode_start(plan, input),
+    };
+    let start_items = start_items(plan, input);
+    let (prefix_vis, past_end) = if framing.to_the_end() {
+        let past_end = quote! {
+            /// Bits a decoder may read past the end of the stream, as zeros: the trailing zeros
+            /// the encoder leaves out.
+            const PAST_END_BITS: usize = 64;
+        };
+        (TokenStream::new(), past_end)
+    } else {
+        (quote!(pub), TokenStream::new())
     };
     let wide = wide(&r, &parts);
     let narrow = narrow(&parts);
@@ -141,10 +158,18 @@ pub fn body(
 
         #decode_tables
 
+        #start_items
+
+        #past_end
+
         #[cfg(target_pointer_width = "64")]
-        pub use wide::{decode_prefix, encode};
+        pub use wide::encode;
+        #[cfg(target_pointer_width = "64")]
+        #prefix_vis use wide::decode_prefix;
         #[cfg(not(target_pointer_width = "64"))]
-        pub use narrow::{decode_prefix, encode};
+        pub use narrow::encode;
+        #[cfg(not(target_pointer_width = "64"))]
+        #prefix_vis use narrow::decode_prefix;
 
         #wide
 
@@ -273,49 +298,77 @@ pub fn absent(tans: &Tans, row: TokenStream) -> TokenStream {
     }
 }
 
-/// The end of `encode`: the header, or for bare streams the padding moved to the end.
-fn finish(framing: Framing) -> TokenStream {
-    match framing {
-        Framing::Tagged => framing::write_header(Framing::Tagged, quote!(pad as u8)),
-        Framing::Bare => quote! {
-            // Bare: move the padding from the front to the end of the payload.
-            if pad != 0 {
-                let mut i = 0;
-                while i < len {
-                    let next = if i + 1 < len { out.get(i + 1).copied().unwrap_or(0) } else { 0 };
-                    if let Some(b) = out.get_mut(i) {
-                        *b = (*b >> pad) | (next << (8 - pad));
-                    }
-                    i += 1;
-                }
+/// The end of `encode`, after the payload was moved to the front behind the header: compact
+/// and bare streams leave out trailing zero bytes (at most 8, the decoder reads as many past
+/// the end); then the header.
+fn finish(framing: &FramingTokens) -> TokenStream {
+    let header = framing.write_header();
+    let trim = if framing.to_the_end() {
+        quote! {
+            // The decoder reads zeros past the end: trailing zero bytes are left out.
+            let mut len = len;
+            let mut cut = 0;
+            while cut < PAST_END_BITS / 8 && len > header && out.get(len.wrapping_sub(1)) == Some(&0) {
+                len -= 1;
+                cut += 1;
             }
-        },
+        }
+    } else {
+        TokenStream::new()
+    };
+    quote! {
+        #trim
+        #header
     }
 }
 
-/// The decoder's last check: the stream ends on a byte boundary (tagged: one stream, one
-/// encoding) or in zero padding (bare).
-fn end_check(framing: Framing) -> TokenStream {
-    match framing {
-        Framing::Tagged => quote! {
-            if !at.is_multiple_of(8) {
-                return Err(Error::Corrupt);
+/// The decoder's end checks (FORMAT.md). Tagged: the stream ends at the byte of the last bit
+/// read, in zero padding. Compact and bare: the payload runs to the end of the stream, every
+/// byte of it was reached, no more than `PAST_END_BITS` bits were read past it, and the bits
+/// after the last one read are zero.
+fn end_check(framing: &FramingTokens) -> TokenStream {
+    let truncated = framing.error(Failure::Truncated);
+    let corrupt = framing.error(Failure::Corrupt);
+    let trailing = framing.error(Failure::TrailingBytes);
+    if framing.to_the_end() {
+        quote! {
+            let len = payload.len().saturating_mul(8);
+            if at.saturating_add(8) <= len {
+                return Err(#trailing);
             }
-        },
-        Framing::Bare => quote! {
-            if peek(payload, at) as u8 & !(u8::MAX << ((8 - at % 8) % 8)) != 0 {
-                return Err(Error::Corrupt);
+            if at > len.saturating_add(PAST_END_BITS) {
+                return Err(#truncated);
             }
-        },
+            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+                return Err(#corrupt);
+            }
+            Ok((count, stream.len()))
+        }
+    } else {
+        quote! {
+            if at > payload.len().saturating_mul(8) {
+                return Err(#truncated);
+            }
+            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+                return Err(#corrupt);
+            }
+            Ok((count, header + at.div_ceil(8)))
+        }
     }
 }
 
 /// Refuses a count the payload cannot hold, before decoding (FORMAT.md).
-fn count_check(tans: &Tans) -> TokenStream {
+fn count_check(tans: &Tans, framing: &FramingTokens) -> TokenStream {
     let Some(run) = tans.zero_run() else {
         return TokenStream::new();
     };
     let run = Literal::usize_unsuffixed(run);
+    let room = if framing.to_the_end() {
+        quote!(.saturating_add(PAST_END_BITS))
+    } else {
+        TokenStream::new()
+    };
+    let truncated = framing.error(Failure::Truncated);
     quote! {
         // An honest stream reads a bit at least every `ZERO_RUN + 1` symbols of a lane: a
         // count its payload cannot hold is refused before any decoding.
@@ -323,9 +376,154 @@ fn count_check(tans: &Tans) -> TokenStream {
         let room = payload
             .len()
             .saturating_mul(8)
-            .saturating_sub(pad + LANES * TABLE_BITS as usize);
+            #room
+            .saturating_sub(LANES * TABLE_BITS as usize);
         if (count / (ZERO_RUN + 1)).saturating_sub(LANES) > room {
-            return Err(Error::Truncated);
+            return Err(#truncated);
+        }
+    }
+}
+
+/// The encoder's start: the symbols split into `head`, put into the lanes' states one by one,
+/// and the last symbol of each lane, which picks the lane's starting state (a copy of it, so
+/// that it costs no bits). One-lane compact and bare streams of up to `SEARCH_SYMBOLS` symbols
+/// try `SEARCH_STARTS` copies and keep the one that gives the shortest stream.
+fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
+    let InputTokens {
+        row,
+        declare,
+        check,
+        ..
+    } = input;
+    let check_tail = if check.is_empty() {
+        TokenStream::new()
+    } else {
+        quote! {
+            let symbol = last;
+            let row = #row;
+            #check
+        }
+    };
+    let search = searches(plan);
+    let tries = if search {
+        quote!(if n <= SEARCH_SYMBOLS {
+            SEARCH_STARTS
+        } else {
+            1
+        })
+    } else {
+        quote!(1)
+    };
+    quote! {
+        let n = input.len();
+        let used = if n < LANES { n } else { LANES };
+        let (Some(head), Some(tail)) = (input.get(..n - used), input.get(n - used..)) else {
+            return Err(Error::OutputTooSmall);
+        };
+        #declare
+        let mut state = [TABLE_LEN as u32; LANES];
+        for (i, &last) in tail.iter().enumerate() {
+            #check_tail
+            state[(n - used + i) % LANES] = start(head, last, #tries);
+        }
+    }
+}
+
+/// Whether the encoder tries several starting states: one-lane compact and bare streams,
+/// whose trailing zeros are left out.
+fn searches(plan: &CodecPlan) -> bool {
+    plan.spec.framing != Framing::Tagged && plan.spec.lanes == 1
+}
+
+/// `start`: a lane's starting state from its last symbol; with the search, `trial` too.
+fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
+    let position = quote! {
+        /// The table position at number `i` of the order the encoder tries starting states
+        /// in: bit-reversed counting (0, L/2, L/4, 3L/4, ...), the most aligned first, so
+        /// that the next symbol's bits taken from the state are most often zeros.
+        #[inline(always)]
+        fn position(i: u32) -> usize {
+            (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
+        }
+    };
+    if !searches(plan) {
+        return quote! {
+            #position
+
+            /// The starting state of a lane whose last symbol is `last`: its first copy in
+            /// [`position`] order (that symbol then costs no bits).
+            fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
+                let mut i = 0;
+                while i < TABLE_LEN as u32 {
+                    let p = position(i);
+                    if SYMBOLS[p] == last {
+                        return (TABLE_LEN + p) as u32;
+                    }
+                    i += 1;
+                }
+                TABLE_LEN as u32
+            }
+        };
+    }
+    let row = &input.row;
+    quote! {
+        #position
+
+        /// Streams of up to this many symbols try several starting states.
+        const SEARCH_SYMBOLS: usize = 256;
+        /// Starting states tried.
+        const SEARCH_STARTS: usize = 16;
+
+        /// The starting state of the lane whose last symbol is `last` (a copy of it, so that
+        /// it costs no bits): of its first `tries` copies in [`position`] order, the one that
+        /// gives the shortest stream for `head` (the first on a tie).
+        fn start(head: &[Symbol], last: Symbol, tries: usize) -> u32 {
+            let mut best = (usize::MAX, TABLE_LEN as u32);
+            let mut found = 0;
+            let mut i = 0;
+            while i < TABLE_LEN as u32 && found < tries {
+                let p = position(i);
+                if SYMBOLS[p] == last {
+                    let x = (TABLE_LEN + p) as u32;
+                    if tries == 1 {
+                        return x;
+                    }
+                    let bytes = trial(head, x);
+                    if bytes < best.0 {
+                        best = (bytes, x);
+                    }
+                    found += 1;
+                }
+                i += 1;
+            }
+            best.1
+        }
+
+        /// The payload bytes `head` takes from starting state `x` once its trailing zeros
+        /// (up to `PAST_END_BITS`) are left out: a dry run of the encoder that counts the
+        /// bits, and the zeros at the end of the stream (the first bits written).
+        fn trial(head: &[Symbol], mut x: u32) -> usize {
+            let mut bits = TABLE_BITS as usize;
+            let mut zeros = 0u32;
+            let mut clean = true;
+            for &symbol in head.iter().rev() {
+                let row = #row;
+                let (k, high, next) = put_symbol(x, row);
+                if clean {
+                    let low = x ^ (high << k);
+                    // Read least significant first, a field ends in its high zeros.
+                    zeros = zeros.wrapping_add(k.wrapping_sub(32 - low.leading_zeros()));
+                    clean = low == 0;
+                }
+                bits = bits.wrapping_add(k as usize);
+                x = next;
+            }
+            if clean {
+                let first = x.wrapping_sub(TABLE_LEN as u32);
+                zeros = zeros.wrapping_add(first.leading_zeros().wrapping_sub(32 - TABLE_BITS));
+            }
+            let cut = if (zeros as usize) < 64 { zeros as usize } else { 64 };
+            bits.saturating_sub(cut).div_ceil(8)
         }
     }
 }
@@ -343,14 +541,11 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
     .map(Literal::usize_unsuffixed);
     let FramingTokens { header_len, .. } = parts.framing;
     let InputTokens {
-        row,
-        declare,
-        check,
-        refuse,
-        ..
+        row, check, refuse, ..
     } = parts.input;
     let (finish, decode_start, decode_end) =
         (&parts.finish, &parts.decode_start, &parts.decode_end);
+    let (encode_start, decode_tail) = (&parts.encode_start, &parts.decode_tail);
     quote! {
         /// The 64-bit path: a 64-bit bit buffer, rounds of symbols with one bounds check.
         #[cfg(target_pointer_width = "64")]
@@ -412,13 +607,12 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
             pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
                 let header = #header_len;
                 let mut pos = out.len();
-                let mut state = [TABLE_LEN as u32; LANES];
+                #encode_start
                 // Bits not yet stored, the low `pending` of `acc`; fewer than 8 between stores.
                 let mut acc: u64 = 0;
                 let mut pending: u32 = 0;
-                #declare
                 // Symbols go in backwards, so the last, partial round comes first.
-                let (rounds, rest) = input.as_chunks::<ENCODE_ROUND>();
+                let (rounds, rest) = head.as_chunks::<ENCODE_ROUND>();
                 for (i, &symbol) in rest.iter().enumerate().rev() {
                     let row = #row;
                     #check
@@ -467,8 +661,9 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                     }
                 }
                 #refuse
-                // The final states, lane 0 in front, then zero padding to a whole byte.
-                for &x in state.iter().rev() {
+                // The final states of the used lanes, lane 0 in front, then zero padding to a
+                // whole byte, moved to the end when the stream goes to the front.
+                for &x in state.iter().take(used).rev() {
                     acc = (acc << TABLE_BITS) | u64::from(x).wrapping_sub(TABLE_LEN as u64);
                     pending += TABLE_BITS;
                     store(out, &mut pos, acc, &mut pending)?;
@@ -477,7 +672,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                 acc <<= pad;
                 pending += pad;
                 store(out, &mut pos, acc, &mut pending)?;
-                let len = move_to_front(out, pos, header)?;
+                let len = move_to_front(out, pos, header, pad)?;
                 #finish
                 Ok(len)
             }
@@ -487,7 +682,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
             #[allow(clippy::modulo_one)]
             pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
                 #decode_start
-                let (rounds, _) = out.as_chunks_mut::<DECODE_ROUND>();
+                let (rounds, _) = head.as_chunks_mut::<DECODE_ROUND>();
                 let mut done = 0;
                 for round in rounds.iter_mut() {
                     let Some(window) = payload.get(at >> 3..).and_then(<[u8]>::first_chunk::<DECODE_WINDOW>) else {
@@ -509,13 +704,14 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                     }
                     done += DECODE_ROUND;
                 }
-                for (i, slot) in out.iter_mut().enumerate().skip(done) {
+                for (i, slot) in head.iter_mut().enumerate().skip(done) {
                     let x = &mut state[i % LANES];
                     let (symbol, bits, base) = step(*x & MASK);
                     *slot = symbol;
                     *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                     at += bits as usize;
                 }
+                #decode_tail
                 #decode_end
             }
 
@@ -548,6 +744,13 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
     } = parts.input;
     let (finish, decode_start, decode_end) =
         (&parts.finish, &parts.decode_start, &parts.decode_end);
+    let (encode_start, decode_tail) = (&parts.encode_start, &parts.decode_tail);
+    // The encoder's start notes an absent last symbol in `absent` for raw-value inputs.
+    let absent_start = if check.is_empty() {
+        quote!(absent: 0)
+    } else {
+        quote!(absent)
+    };
     // Raw-value inputs note a value outside the alphabet as they go.
     let note_absent = if check.is_empty() {
         quote!()
@@ -757,7 +960,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     out,
                     full: false,
                 };
-                let state = [TABLE_LEN as u32; LANES];
+                #encode_start
                 // The pending bits under a marker bit: `1` alone is none.
                 let acc: u32 = 1;
                 // Symbols go in backwards: the decoder reads the last one's bits first.
@@ -765,10 +968,10 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 let mut e = Encoding {
                     acc,
                     state,
-                    lane: input.len().wrapping_sub(1) % LANES,
-                    absent: 0,
+                    lane: head.len().wrapping_sub(1) % LANES,
+                    #absent_start,
                 };
-                e.run(&mut writer, input);
+                e.run(&mut writer, head);
                 if writer.full {
                     return Err(Error::OutputTooSmall);
                 }
@@ -777,8 +980,9 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 } = e;
                 #absent_binding
                 #refuse
-                // The final states, lane 0 in front, then zero padding to a whole byte.
-                for &x in state.iter().rev() {
+                // The final states of the used lanes, lane 0 in front, then zero padding to a
+                // whole byte, moved to the end when the stream goes to the front.
+                for &x in state.iter().take(used).rev() {
                     acc = (acc << TABLE_BITS) | x.wrapping_sub(TABLE_LEN as u32);
                     if acc >> (32 - MOST) != 0 {
                         acc = writer.flush(acc);
@@ -793,7 +997,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 if full {
                     return Err(Error::OutputTooSmall);
                 }
-                let len = move_to_front(out, pos, header)?;
+                let len = move_to_front(out, pos, header, pad)?;
                 #finish
                 Ok(len)
             }
@@ -803,7 +1007,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             #[allow(clippy::modulo_one)]
             pub fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
                 #decode_start
-                // An empty buffer (the marker alone) at `at`, which is at least `TABLE_BITS`.
+                // An empty buffer (the marker alone) at `at`.
                 let mut reader = Reader { data: payload, end: at };
                 let buf = reader.refill(1);
                 let mut d = Decoding {
@@ -811,9 +1015,10 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     state,
                     lane: 0,
                 };
-                d.run(&mut reader, out);
+                d.run(&mut reader, head);
                 let Decoding { buf, state, .. } = d;
                 let at = reader.at(buf);
+                #decode_tail
                 #decode_end
             }
 
