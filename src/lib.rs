@@ -218,6 +218,16 @@ fn flash_advice(plan: &plan::CodecPlan) -> Option<String> {
                     choice.candidate.describe(),
                     report::excess_percent(choice.rate, report.entropy).unwrap_or(0.0)
                 ),
+                // The budget did not hold it back: no size gets there.
+                sizing::BudgetHint::Unreachable { best }
+                    if c.rate <= best.rate + best.rate * sizing::TIE =>
+                {
+                    format!(
+                        "codec `{name}`: no tables up to table_bits = {} come within {limit} % of the entropy; the chosen ones ({}) code {excess:.2} % above it with {bytes} bytes ({skewed})",
+                        spec::MAX_TABLE_BITS,
+                        c.candidate.describe()
+                    )
+                }
                 sizing::BudgetHint::Unreachable { best } => format!(
                     "{held}; no budget brings it under {limit} %: the lowest rate of any size is {:.2} % above ({}, {} bytes) ({skewed})",
                     report::excess_percent(best.rate, report.entropy).unwrap_or(0.0),
@@ -226,9 +236,10 @@ fn flash_advice(plan: &plan::CodecPlan) -> Option<String> {
                 ),
             }
         }
-        Some((sizing::Rule::LowestRate, _, _)) => format!(
-            "codec `{name}`: no tables up to table_bits = {} come within {limit} % of the entropy; table_bits = {bits} codes {excess:.2} % above it with {bytes} bytes of tables ({skewed})",
-            spec::MAX_TABLE_BITS
+        Some((sizing::Rule::LowestRate, c, _)) => format!(
+            "codec `{name}`: no tables up to table_bits = {} come within {limit} % of the entropy; the chosen ones ({}) code {excess:.2} % above it with {bytes} bytes ({skewed})",
+            spec::MAX_TABLE_BITS,
+            c.candidate.describe()
         ),
         _ => {
             let hint = match plan::table_bits_for_excess(plan, limit) {
