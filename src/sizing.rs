@@ -6,7 +6,7 @@
 //! - With a flash budget: the lowest rate among the candidates that fit; rates within
 //!   [`TIE`] of the lowest tie, and ties go to faster decoding (tANS, rANS with its table,
 //!   rANS by search), then fewer bytes, then the smaller table. rANS is a candidate only in
-//!   tagged framing: its frame ends with 4 bytes of state per lane, which short untagged
+//!   tagged framing: a rANS stream carries 4 bytes of state per lane, which short untagged
 //!   frames cannot afford. Bytes grow with table_bits, so a method's sizes past the budget
 //!   are never built.
 //! - Without a budget or table_bits: the smallest table whose excess is at most
