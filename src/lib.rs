@@ -59,6 +59,7 @@ pub mod model;
 pub mod plan;
 pub mod quantize;
 pub mod report;
+pub mod sizing;
 pub mod spec;
 pub mod verify;
 
@@ -181,25 +182,86 @@ fn advice(plan: &plan::CodecPlan) -> Vec<String> {
             unseen.len()
         ));
     }
-    let excess = plan.report.excess_percent().unwrap_or(0.0);
-    if excess > report::EXCESS_WARNING_PERCENT {
-        let hint = match plan::table_bits_for_excess(plan, report::EXCESS_WARNING_PERCENT) {
-            Some(bits) => format!(
-                "table_bits = {bits} brings it under {} %",
-                report::EXCESS_WARNING_PERCENT
-            ),
-            None => format!(
-                "no table up to table_bits = {} brings it under {} % (few symbols with skewed counts: consider merging rare ones)",
-                spec::MAX_TABLE_BITS,
-                report::EXCESS_WARNING_PERCENT
-            ),
-        };
-        out.push(format!(
-            "codec `{name}`: the tables code {excess:.2} % above the entropy at table_bits = {}; {hint}",
-            plan.spec.table_bits
-        ));
-    }
+    out.extend(flash_advice(plan));
     out
+}
+
+/// Build-log advice on excess and flash: what larger tables would buy, and what they cost.
+fn flash_advice(plan: &plan::CodecPlan) -> Option<String> {
+    let name = &plan.spec.name;
+    let report = &plan.report;
+    let limit = report::EXCESS_WARNING_PERCENT;
+    let bits = plan.spec.table_bits;
+    let bytes = report.table_bytes;
+    let sizing = report.sizing.as_ref();
+    let excess = report.excess_percent().unwrap_or(0.0);
+    if excess <= limit {
+        // Tables chosen without a budget may be larger than a small device wants.
+        return match (sizing, report.flash_budget) {
+            (Some(_), None) if bytes > report::LARGE_TABLES_BYTES => Some(format!(
+                "codec `{name}`: table_bits = {bits} is the smallest size within {limit} % of the entropy and its tables take {bytes} bytes; a flash_budget trades excess for flash"
+            )),
+            _ => None,
+        };
+    }
+    let skewed = "few symbols with skewed counts: consider merging rare ones";
+    let chosen = sizing.and_then(|s| Some((s.rule, s.choice()?, s.hint)));
+    Some(match chosen {
+        Some((sizing::Rule::Budget(budget), c, Some(hint))) => {
+            let held = format!(
+                "codec `{name}`: flash_budget = {budget} holds the tables to {excess:.2} % above the entropy ({}, {bytes} bytes)",
+                c.candidate.describe()
+            );
+            match hint {
+                sizing::BudgetHint::Raise { budget, choice } => format!(
+                    "{held}; flash_budget = {budget} brings it under {limit} % ({}, {:.2} %)",
+                    choice.candidate.describe(),
+                    report::excess_percent(choice.rate, report.entropy).unwrap_or(0.0)
+                ),
+                // The budget did not hold it back: no size gets there.
+                sizing::BudgetHint::Unreachable { best }
+                    if c.rate <= best.rate + best.rate * sizing::TIE =>
+                {
+                    format!(
+                        "codec `{name}`: no tables up to table_bits = {} come within {limit} % of the entropy; the chosen ones ({}) code {excess:.2} % above it with {bytes} bytes ({skewed})",
+                        spec::MAX_TABLE_BITS,
+                        c.candidate.describe()
+                    )
+                }
+                sizing::BudgetHint::Unreachable { best } => format!(
+                    "{held}; no budget brings it under {limit} %: the lowest rate of any size is {:.2} % above ({}, {} bytes) ({skewed})",
+                    report::excess_percent(best.rate, report.entropy).unwrap_or(0.0),
+                    best.candidate.describe(),
+                    best.candidate.bytes
+                ),
+            }
+        }
+        Some((sizing::Rule::LowestRate, c, _)) => format!(
+            "codec `{name}`: no tables up to table_bits = {} come within {limit} % of the entropy; the chosen ones ({}) code {excess:.2} % above it with {bytes} bytes ({skewed})",
+            spec::MAX_TABLE_BITS,
+            c.candidate.describe()
+        ),
+        _ => {
+            let hint = match plan::table_bits_for_excess(plan, limit) {
+                Some((k, k_bytes)) => {
+                    let over = match report.flash_budget {
+                        Some(budget) if k_bytes > budget => {
+                            format!(", over flash_budget = {budget}")
+                        }
+                        _ => String::new(),
+                    };
+                    format!("table_bits = {k} brings it under {limit} % with {k_bytes} bytes of tables{over}")
+                }
+                None => format!(
+                    "no table up to table_bits = {} brings it under {limit} % ({skewed})",
+                    spec::MAX_TABLE_BITS
+                ),
+            };
+            format!(
+                "codec `{name}`: the tables code {excess:.2} % above the entropy at table_bits = {bits} ({bytes} bytes of tables); {hint}"
+            )
+        }
+    })
 }
 
 /// Options for generating code from a build script.

@@ -9,6 +9,7 @@ use crate::method::{TableLayout, Tables};
 use crate::model::{self, Model};
 use crate::quantize;
 use crate::report::{self, Report};
+use crate::sizing;
 use crate::spec::CodecSpec;
 use crate::verify::{self, Verified};
 
@@ -25,6 +26,7 @@ pub struct TableSet {
 /// A codec ready to emit.
 #[derive(Debug, Clone)]
 pub struct CodecPlan {
+    /// The spec with every size decided: given, or chosen (see `report.sizing`).
     pub spec: CodecSpec,
     pub model: Model,
     pub sets: Vec<TableSet>,
@@ -38,13 +40,8 @@ pub struct CodecPlan {
 impl CodecPlan {
     /// Rows of the encoding table and whether they carry an absent flag.
     pub fn put_rows(&self) -> (usize, bool) {
-        put_rows(&self.input, self.spec.kind.alphabet_len())
+        sizing::put_rows(&self.input, self.spec.kind.alphabet_len())
     }
-}
-
-fn put_rows(input: &InputMap, symbols: usize) -> (usize, bool) {
-    let rows = crate::emit::input::row_count(input, symbols);
-    (rows, matches!(input, InputMap::Rows(_)))
 }
 
 /// Plans one codec: counts, slots, tables, verification against the reference coder, report.
@@ -60,16 +57,32 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
     };
     let model = model::build(spec, samples).map_err(in_codec)?;
     let input = spec.kind.input();
-    let (rows, absent) = put_rows(&input, spec.kind.alphabet_len());
+    let (rows, absent) = sizing::put_rows(&input, spec.kind.alphabet_len());
+    let probabilities = model.probabilities();
+    let sizing = sizing::choose(spec, &model.counts, &probabilities).map_err(in_codec)?;
+    let mut spec = spec.clone();
+    if let Some(choice) = sizing.as_ref().and_then(|s| s.choice()) {
+        spec.method = choice.candidate.method;
+        spec.lookup = choice.candidate.lookup;
+        spec.table_bits = choice.candidate.table_bits;
+    }
     let set = table_set(
-        spec,
+        &spec,
         &model.counts,
-        &model.probabilities(),
+        &probabilities,
         spec.table_bits,
         rows,
         absent,
     )
     .map_err(in_codec)?;
+    // The tables as built must take what sizing priced them at.
+    if let Some(choice) = sizing.as_ref().and_then(|s| s.choice()) {
+        if choice.candidate.bytes != set.layout.bytes() {
+            return Err(in_codec(Error::internal(
+                "the built tables' layout differs from the priced one",
+            )));
+        }
+    }
     let fingerprint = verify::fingerprint(
         spec.kind.tag(),
         &spec.kind.identity(),
@@ -78,9 +91,9 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
     );
     let verified = verify::verify(&set.tables, fingerprint, spec.framing, spec.lanes, &model)
         .map_err(in_codec)?;
-    let report = report::build(spec, &model, &set, verified.clone());
+    let report = report::build(&spec, &model, &set, verified.clone(), sizing);
     Ok(CodecPlan {
-        spec: spec.clone(),
+        spec,
         model,
         sets: vec![set],
         fingerprint,
@@ -90,7 +103,7 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
     })
 }
 
-/// The table set for `counts` at `table_bits`, by the codec's method.
+/// The table set for `counts` at `table_bits`, by the codec's method and lookup.
 pub fn table_set(
     spec: &CodecSpec,
     counts: &[u64],
@@ -110,14 +123,17 @@ pub fn table_set(
     })
 }
 
-/// The table size (if any, up to the largest) that brings `plan`'s excess under `percent`,
-/// built with the codec's own method.
-pub fn table_bits_for_excess(plan: &CodecPlan, percent: f64) -> Option<u32> {
+/// The table size (if any, above `plan`'s, up to the largest) that brings its excess under
+/// `percent` with the codec's own method and lookup, and its tables' bytes.
+pub fn table_bits_for_excess(plan: &CodecPlan, percent: f64) -> Option<(u32, usize)> {
     let entropy = plan.report.entropy;
     let p = plan.model.probabilities();
     let (rows, absent) = plan.put_rows();
-    (plan.spec.table_bits + 1..=crate::spec::MAX_TABLE_BITS).find(|&bits| {
-        table_set(&plan.spec, &plan.model.counts, &p, bits, rows, absent)
-            .is_ok_and(|set| 100.0 * (set.rate - entropy) / entropy <= percent)
+    let spec = &plan.spec;
+    (spec.table_bits + 1..=crate::spec::MAX_TABLE_BITS).find_map(|bits| {
+        let set = table_set(spec, &plan.model.counts, &p, bits, rows, absent).ok()?;
+        report::excess_percent(set.rate, entropy)
+            .is_some_and(|e| e <= percent)
+            .then(|| (bits, set.layout.bytes()))
     })
 }

@@ -4,11 +4,25 @@
 use crate::model::Model;
 use crate::plan::TableSet;
 use crate::quantize::{cross_entropy, entropy, log2};
-use crate::spec::CodecSpec;
+use crate::sizing::{self, Rule, Sizing, Weighed};
+use crate::spec::{CodecSpec, Method, MAX_TABLE_BITS};
 use crate::verify::Verified;
 
-/// Excess above which the build script suggests a larger table.
+/// Excess above which the build script suggests larger tables, and which chosen tables
+/// stay within when they can and no budget says otherwise.
 pub const EXCESS_WARNING_PERCENT: f64 = 0.5;
+
+/// Tables chosen without a budget above this size get a note in the build log: a device
+/// has a few KiB for them (DESIGN.md).
+pub const LARGE_TABLES_BYTES: usize = 16 * 1024;
+
+/// Most rows of the table of sizes weighed, per method and lookup.
+const ROWS_PER_METHOD: usize = 5;
+
+/// Excess of `rate` as a percentage of `entropy` (`None` when the entropy is zero).
+pub fn excess_percent(rate: f64, entropy: f64) -> Option<f64> {
+    (entropy > 0.0).then(|| 100.0 * (rate - entropy) / entropy)
+}
 
 /// Figures for one codec.
 #[derive(Debug, Clone)]
@@ -35,6 +49,10 @@ pub struct Report {
     pub sequence_symbols: u64,
     /// Per symbol: name, count, slots.
     pub lines: Vec<(String, u64, u32)>,
+    /// The codec's flash budget, if it has one.
+    pub flash_budget: Option<usize>,
+    /// How open sizes were chosen (`None`: the spec gave them all).
+    pub sizing: Option<Sizing>,
 }
 
 impl Report {
@@ -45,7 +63,7 @@ impl Report {
 
     /// Excess as a percentage of the entropy (`None` when the entropy is zero).
     pub fn excess_percent(&self) -> Option<f64> {
-        (self.entropy > 0.0).then(|| 100.0 * self.excess_bits() / self.entropy)
+        excess_percent(self.exact_rate, self.entropy)
     }
 
     /// The report as doc-comment lines (without the `///`).
@@ -117,6 +135,7 @@ impl Report {
                 self.training_symbols, self.verified.sequences, self.verified.stream_bytes
             )
         });
+        d.extend(self.sizing_lines());
         d.push(String::new());
         d.push("| symbol | count | slots | ideal bits | coded bits |".to_string());
         d.push("|---|---|---|---|---|".to_string());
@@ -137,16 +156,81 @@ impl Report {
         d
     }
 
+    /// The flash budget and the sizes weighed, if any, as doc lines.
+    fn sizing_lines(&self) -> Vec<String> {
+        let mut d = Vec::new();
+        let Some(sizing) = &self.sizing else {
+            if let Some(budget) = self.flash_budget {
+                d.push(format!(
+                    "Flash budget: {budget} bytes; these tables take {}.",
+                    self.table_bytes
+                ));
+            }
+            return d;
+        };
+        let Some(chosen) = sizing.choice() else {
+            return d;
+        };
+        let rule = match sizing.rule {
+            Rule::Budget(budget) => format!(
+                "the lowest rate within the flash budget of {budget} bytes (rates within {} % of it tie; ties go to faster decoding, then fewer bytes)",
+                sizing::TIE * 100.0
+            ),
+            Rule::Smallest => format!(
+                "the smallest tables within {EXCESS_WARNING_PERCENT} % of the entropy"
+            ),
+            Rule::LowestRate => format!(
+                "no tables up to table_bits = {MAX_TABLE_BITS} come within {EXCESS_WARNING_PERCENT} % of the entropy, so the lowest rate (rates within {} % of it tie; ties go to fewer bytes)",
+                sizing::TIE * 100.0
+            ),
+        };
+        d.push(String::new());
+        d.push(format!(
+            "Sizes chosen: {rule}. Chosen: {}.",
+            chosen.candidate.describe()
+        ));
+        d.push(String::new());
+        d.push(
+            "| method | symbol lookup | table_bits | encode bytes | decode bytes | total bytes | excess | |"
+                .to_string(),
+        );
+        d.push("|---|---|---|---|---|---|---|---|".to_string());
+        for w in rows_shown(sizing) {
+            let c = &w.candidate;
+            let (method, lookup) = match c.method {
+                Method::Tans => ("tANS", "-"),
+                Method::Rans => ("rANS", sizing::lookup_name(c.lookup)),
+            };
+            let excess = match excess_percent(w.rate, self.entropy) {
+                Some(p) => format!("{:.3} %", unsigned(p)),
+                None => "-".to_string(),
+            };
+            let mark = if w == chosen { "chosen" } else { "" };
+            d.push(format!(
+                "| {method} | {lookup} | {} | {} | {} | {} | {excess} | {mark} |",
+                c.table_bits, c.encode_bytes, c.decode_bytes, c.bytes
+            ));
+        }
+        d
+    }
+
     /// One line for the build log.
     pub fn summary(&self) -> String {
         let excess = match self.excess_percent() {
             Some(p) => format!("{p:.3} %"),
             None => format!("{:.4} bits", self.excess_bits()),
         };
-        format!(
+        let mut line = format!(
             "codec `{}`: entropy {:.4} bits/symbol, exact rate {:.4}, excess {excess}, tables {} bytes",
             self.name, self.entropy, self.exact_rate, self.table_bytes
-        )
+        );
+        if let Some(budget) = self.flash_budget {
+            line.push_str(&format!(" (flash budget {budget})"));
+        }
+        if let Some(chosen) = self.sizing.as_ref().and_then(Sizing::choice) {
+            line.push_str(&format!(", chosen: {}", chosen.candidate.describe()));
+        }
+        line
     }
 }
 
@@ -156,8 +240,44 @@ fn unsigned(x: f64) -> f64 {
     x + 0.0
 }
 
+/// The rows of the table of sizes weighed: per method and lookup, the sizes nearest the
+/// chosen one (which is always among them), in the order weighed.
+fn rows_shown(sizing: &Sizing) -> Vec<&Weighed> {
+    let Some(chosen) = sizing.choice() else {
+        return Vec::new();
+    };
+    let at = chosen.candidate.table_bits;
+    let mut shown: Vec<(usize, &Weighed)> = Vec::new();
+    let mut groups: Vec<(Method, crate::spec::Lookup)> = Vec::new();
+    for w in &sizing.weighed {
+        let g = (w.candidate.method, w.candidate.lookup);
+        if !groups.contains(&g) {
+            groups.push(g);
+        }
+    }
+    for g in groups {
+        let mut members: Vec<(usize, &Weighed)> = sizing
+            .weighed
+            .iter()
+            .enumerate()
+            .filter(|(_, w)| (w.candidate.method, w.candidate.lookup) == g)
+            .collect();
+        members.sort_by_key(|(_, w)| (w.candidate.table_bits.abs_diff(at), w.candidate.table_bits));
+        members.truncate(ROWS_PER_METHOD);
+        shown.extend(members);
+    }
+    shown.sort_by_key(|&(i, _)| i);
+    shown.into_iter().map(|(_, w)| w).collect()
+}
+
 /// Assembles the report of one codec (its one table set).
-pub fn build(codec: &CodecSpec, model: &Model, set: &TableSet, verified: Verified) -> Report {
+pub fn build(
+    codec: &CodecSpec,
+    model: &Model,
+    set: &TableSet,
+    verified: Verified,
+    sizing: Option<Sizing>,
+) -> Report {
     let counts = &model.counts[..];
     let sequence_symbols = model.sequence_symbols;
     let kind = codec.kind.as_ref();
@@ -183,5 +303,7 @@ pub fn build(codec: &CodecSpec, model: &Model, set: &TableSet, verified: Verifie
         verified,
         sequence_symbols,
         lines,
+        flash_budget: codec.flash_budget,
+        sizing,
     }
 }

@@ -15,8 +15,9 @@ use toml::Spanned;
 pub const MAX_TABLE_BITS: u32 = 15;
 /// Smallest table precast builds.
 pub const MIN_TABLE_BITS: u32 = 1;
-/// Default table size, 2^11 slots: a few KiB of tables, excess well under 1 % for most data.
-pub const DEFAULT_TABLE_BITS: u32 = 11;
+/// Largest `flash_budget`: the largest tables precast builds take under 1 MiB, so a larger
+/// budget is a typing mistake.
+pub const MAX_FLASH_BUDGET: u32 = 64 << 20;
 
 /// Most codecs one spec may declare. Generation time grows linearly with them; the compiler's
 /// memory does too, at about 3.5 MB per small codec (rustc 1.95, debug).
@@ -101,18 +102,34 @@ pub enum Source {
     },
 }
 
+/// Which of the sizing keys a codec sets (itself or through `[defaults]`). `plan::plan`
+/// chooses the others (`src/sizing.rs`) and writes them into its copy of the spec.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Given {
+    pub method: bool,
+    pub lookup: bool,
+    pub table_bits: bool,
+}
+
 /// One validated `[codec.NAME]` table.
 #[derive(Debug, Clone)]
 pub struct CodecSpec {
     pub name: String,
     /// The alphabet, owned by its kind (`src/kind/`).
     pub kind: Arc<dyn Kind>,
+    /// Given, or chosen by `plan::plan` (see [`Given`]); until then the default, tANS.
     pub method: Method,
+    /// Given, or chosen by `plan::plan`; until then the smallest table that holds the
+    /// alphabet.
     pub table_bits: u32,
     /// Interleaved states, one of [`LANES`].
     pub lanes: u32,
+    /// Given, or chosen by `plan::plan`; until then the default, a table.
     pub lookup: Lookup,
     pub framing: Framing,
+    /// Bytes all of the codec's tables may take together, encode and decode (`flash_budget`).
+    pub flash_budget: Option<usize>,
+    pub given: Given,
     pub sources: Vec<Source>,
     /// Where the codec's table starts in the spec, for errors found by later stages.
     pub location: Location,
@@ -134,6 +151,7 @@ pub const CODEC_KEYS: &[&str] = &[
     "lanes",
     "symbol_lookup",
     "framing",
+    "flash_budget",
     "symbols",
     "counts",
     "text",
@@ -348,16 +366,24 @@ impl Checker<'_> {
                 .find(|&l| i128::from(l) == n)
                 .ok_or_else(|| format!("lanes = {written} is not available: expected 1, 2, 4 or 8"))
         });
-        let table_bits =
-            self.number(keys, "table_bits", DEFAULT_TABLE_BITS, &mut fail, |n, written| {
-                if (i128::from(MIN_TABLE_BITS)..=i128::from(MAX_TABLE_BITS)).contains(&n) {
-                    Ok(n as u32)
-                } else {
-                    Err(format!(
-                        "table_bits = {written} is out of range: expected {MIN_TABLE_BITS} to {MAX_TABLE_BITS}"
-                    ))
-                }
-            });
+        let table_bits = self.optional_number(keys, "table_bits", &mut fail, |n, written| {
+            if (i128::from(MIN_TABLE_BITS)..=i128::from(MAX_TABLE_BITS)).contains(&n) {
+                Ok(n as u32)
+            } else {
+                Err(format!(
+                    "table_bits = {written} is out of range: expected {MIN_TABLE_BITS} to {MAX_TABLE_BITS}"
+                ))
+            }
+        });
+        let flash_budget = self.optional_number(keys, "flash_budget", &mut fail, |n, written| {
+            if (1..=i128::from(MAX_FLASH_BUDGET)).contains(&n) {
+                Ok(n as u32)
+            } else {
+                Err(format!(
+                    "flash_budget = {written} is out of range: expected 1 to {MAX_FLASH_BUDGET} bytes (64 MiB)"
+                ))
+            }
+        });
 
         let alphabet =
             kind_entry.and_then(
@@ -371,19 +397,37 @@ impl Checker<'_> {
                     }
                 },
             );
-        if let (Some(k), Some(bits)) = (&alphabet, table_bits) {
-            if k.alphabet_len() > 1usize << bits {
-                let at = keys.get("table_bits").map_or(span.clone(), |v| v.span());
-                fail(
-                    at,
-                    format!(
-                        "{} symbols do not fit in a table of 2^{bits} slots: raise table_bits to at least {}",
-                        k.alphabet_len(),
-                        usize::BITS - (k.alphabet_len() - 1).leading_zeros()
-                    ),
-                );
+        // A chosen size starts at the smallest table that holds the alphabet.
+        let table_bits = match (&alphabet, table_bits) {
+            (Some(k), Some(Some(bits))) => {
+                if k.alphabet_len() > 1usize << bits {
+                    let at = keys.get("table_bits").map_or(span.clone(), |v| v.span());
+                    fail(
+                        at,
+                        format!(
+                            "{} symbols do not fit in a table of 2^{bits} slots: raise table_bits to at least {}",
+                            k.alphabet_len(),
+                            smallest_table_bits(k.alphabet_len())
+                        ),
+                    );
+                }
+                Some(bits)
             }
-        }
+            (Some(k), Some(None)) => {
+                let bits = smallest_table_bits(k.alphabet_len());
+                if bits > MAX_TABLE_BITS {
+                    fail(
+                        span.clone(),
+                        format!(
+                            "{} symbols do not fit in the largest table (2^{MAX_TABLE_BITS} slots)",
+                            k.alphabet_len()
+                        ),
+                    );
+                }
+                Some(bits)
+            }
+            _ => None,
+        };
 
         let sources = self.sources(keys, alphabet.as_deref(), &mut fail);
         let declared = ["counts", "text", "samples"]
@@ -396,7 +440,20 @@ impl Checker<'_> {
             );
         }
 
-        match (alphabet, method, table_bits, lanes, lookup, framing) {
+        let given = Given {
+            method: keys.get(Method::KEY).is_some(),
+            lookup: keys.get(Lookup::KEY).is_some(),
+            table_bits: keys.get("table_bits").is_some(),
+        };
+        let codec = match (
+            alphabet,
+            method,
+            table_bits,
+            lanes,
+            lookup,
+            framing,
+            flash_budget,
+        ) {
             (
                 Some(kind),
                 Some(method),
@@ -404,7 +461,8 @@ impl Checker<'_> {
                 Some(lanes),
                 Some(lookup),
                 Some(framing),
-            ) if errors.is_empty() => Ok(CodecSpec {
+                Some(flash_budget),
+            ) if errors.is_empty() => CodecSpec {
                 name: name.to_string(),
                 kind,
                 method,
@@ -412,11 +470,22 @@ impl Checker<'_> {
                 lanes,
                 lookup,
                 framing,
+                flash_budget: flash_budget.map(|b| b as usize),
+                given,
                 sources,
                 location: Location::at(self.path, self.text, span.start),
-            }),
-            _ => Err(errors),
+            },
+            _ => return Err(errors),
+        };
+        // Whether any tables fit the budget depends on sizes only, so it is told here, at
+        // the key, with the spec's other mistakes.
+        if let (Some(message), Some(v)) = (
+            crate::sizing::budget_error(&codec),
+            keys.get("flash_budget"),
+        ) {
+            return Err(vec![self.error(v.span(), Some(name), message)]);
         }
+        Ok(codec)
     }
 
     /// The training data: `counts` (read by the alphabet's kind), `text` and `samples`.
@@ -498,15 +567,27 @@ impl Checker<'_> {
         fail: &mut impl FnMut(Range<usize>, String),
         accept: impl Fn(i128, &str) -> std::result::Result<u32, String>,
     ) -> Option<u32> {
+        self.optional_number(keys, key, fail, accept)
+            .map(|n| n.unwrap_or(default))
+    }
+
+    /// An integer key checked by `accept`: `Some(None)` when absent, `None` when wrong.
+    fn optional_number(
+        &self,
+        keys: &Merged<'_, '_>,
+        key: &str,
+        fail: &mut impl FnMut(Range<usize>, String),
+        accept: impl Fn(i128, &str) -> std::result::Result<u32, String>,
+    ) -> Option<Option<u32>> {
         let Some(v) = keys.get(key) else {
-            return Some(default);
+            return Some(None);
         };
         let written = self.text.get(v.span()).unwrap_or_default().trim();
         let checked = integer(v.get_ref())
             .map_err(|found| type_error(key, "an integer", found))
             .and_then(|n| accept(n, written));
         match checked {
-            Ok(n) => Some(n),
+            Ok(n) => Some(Some(n)),
             Err(m) => {
                 fail(v.span(), m);
                 None
@@ -610,6 +691,11 @@ impl Checker<'_> {
             Err(errors)
         }
     }
+}
+
+/// The smallest table size that holds `symbols` symbols (at least [`MIN_TABLE_BITS`]).
+pub fn smallest_table_bits(symbols: usize) -> u32 {
+    (usize::BITS - symbols.saturating_sub(1).leading_zeros()).max(MIN_TABLE_BITS)
 }
 
 /// The integer in `v`, or `v` itself when it is something else. An integer too large for

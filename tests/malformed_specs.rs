@@ -390,6 +390,8 @@ fn unknown_keys() -> Vec<Case> {
             .top(2, 1, "unknown key `compression`: expected one of kind, method, table_bits"),
         Case::new("codec_key_near", &[&codec[..], &["frameing = \"bare\""]].concat())
             .at(4, 1, "a", "unknown key `frameing`: did you mean `framing`?"),
+        Case::new("codec_key_near_budget", &[&codec[..], &["flash_budjet = 512"]].concat())
+            .at(4, 1, "a", "unknown key `flash_budjet`: did you mean `flash_budget`?"),
         Case::new("codec_key_singular_sample", &["[codec.a]", "kind = \"bytes\"", "sample = \"log.txt\""])
             .file("log.txt", "abc")
             .at(1, 1, "a", "no training data")
@@ -431,6 +433,8 @@ fn wrong_types() -> Vec<Case> {
             .at(4, 14, "a", "`table_bits` must be an integer, found an array"),
         bytes("table_bits_boolean", "table_bits = false")
             .at(4, 14, "a", "`table_bits` must be an integer, found a boolean"),
+        bytes("flash_budget_string", "flash_budget = \"2k\"")
+            .at(4, 16, "a", "`flash_budget` must be an integer, found a string"),
         Case::new("bytes_symbols_integer", &["[codec.a]", "kind = \"bytes\"", "symbols = 97", "text = \"a\""])
             .at(3, 11, "a", "`symbols` of a bytes codec is a string or a list of byte values, found an integer"),
         Case::new("tokens_symbols_string", &["[codec.a]", "kind = \"tokens\"", "symbols = \"ok fault\"", "counts = { ok = 1 }"])
@@ -483,6 +487,10 @@ fn out_of_range() -> Vec<Case> {
             .at(4, 14, "a", "table_bits = 18446744073709551616 is out of range"),
         bytes("table_bits_hex", "table_bits = 0x20")
             .at(4, 14, "a", "table_bits = 0x20 is out of range"),
+        bytes("flash_budget_zero", "flash_budget = 0")
+            .at(4, 16, "a", "flash_budget = 0 is out of range: expected 1 to 67108864 bytes (64 MiB)"),
+        Case::new("flash_budget_past_64_mib_in_defaults", &["[defaults]", "flash_budget = 67_108_865", "", "[codec.a]", "kind = \"bytes\"", "text = \"a\""])
+            .at(2, 16, "a", "flash_budget = 67_108_865 is out of range"),
         // Two codecs inherit the bad value; it is one mistake, reported once.
         Case::new("lanes_three_in_defaults_reported_once", &[
             "[defaults]", "lanes = 3", "",
@@ -648,10 +656,20 @@ fn table_fit() -> Vec<Case> {
             "[codec.a]", "kind = \"tokens\"", "table_bits = 3", &format!("symbols = {}", token_list(9)), "counts = { t0 = 1 }",
         ]))
             .at(3, 14, "a", "9 symbols do not fit in a table of 2^3 slots: raise table_bits to at least 4"),
-        Case::owned("tokens_past_the_default_table", lines(&[
-            "[codec.a]", "kind = \"tokens\"", &format!("symbols = {}", token_list(2049)), "counts = { t0 = 1 }",
-        ]))
-            .at(1, 1, "a", "2049 symbols do not fit in a table of 2^11 slots: raise table_bits to at least 12"),
+        // 256 byte values need table_bits = 8: SYMBOLS 256, STEPS 512, PUT 257 rows of 4
+        // (the rows include one for values outside the alphabet), NEXT_STATE 512.
+        Case::new("budget_below_the_smallest_tables", &["[codec.a]", "kind = \"bytes\"", "text = \"a\"", "flash_budget = 100"])
+            .at(4, 16, "a", "flash_budget = 100 is too small: the smallest tables of this codec take 2304 bytes (tANS, table_bits = 8)"),
+        Case::new("table_bits_over_the_budget", &["[codec.a]", "kind = \"bytes\"", "text = \"a\"", "table_bits = 11", "flash_budget = 4000"])
+            .at(5, 16, "a", "flash_budget = 4000 is too small for table_bits = 11"),
+        // One budget in `[defaults]`, too small for two codecs: two mistakes at one place.
+        Case::new("budget_from_defaults_too_small_for_two", &[
+            "[defaults]", "flash_budget = 16", "",
+            "[codec.a]", "kind = \"bytes\"", "symbols = \"ab\"", "text = \"a\"", "",
+            "[codec.b]", "kind = \"tokens\"", "symbols = [\"x\", \"y\", \"z\"]", "counts = { x = 1 }", "framing = \"bare\"",
+        ])
+            .at(2, 16, "a", "flash_budget = 16 is too small")
+            .at(2, 16, "b", "the smallest tables of this codec take 28 bytes (tANS, table_bits = 2)"),
         Case::new("three_symbols_in_a_one_bit_table", &["[codec.a]", "kind = \"bytes\"", "symbols = \"abc\"", "table_bits = 1", "text = \"abc\""])
             .at(4, 14, "a", "3 symbols do not fit in a table of 2^1 slots: raise table_bits to at least 2"),
         Case::new("search_from_defaults_meets_tans", &[

@@ -9,11 +9,12 @@ fn root() -> &'static Path {
     Path::new(env!("CARGO_MANIFEST_DIR"))
 }
 
-/// Specs covering every kind, method, lane count, framing and table size.
+/// Specs covering every kind, method, lane count, framing and table size, and chosen sizes.
 fn specs() -> Vec<PathBuf> {
     [
         "tests/specs/small.toml",
         "tests/specs/matrix.toml",
+        "tests/specs/sizing.toml",
         "tests/specs/awkward_names.toml",
         "example-crate/codecs.toml",
         "example-crate/bench_codecs.toml",

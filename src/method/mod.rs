@@ -80,7 +80,7 @@ impl Tables {
         absent: bool,
     ) -> TableLayout {
         match self {
-            Tables::Tans(t) => t.layout(symbol_bytes, put_rows, absent),
+            Tables::Tans(t) => t.layout(symbol_bytes, put_rows),
             Tables::Rans(r) => r.layout(lookup, symbol_bytes, put_rows, absent),
         }
     }
@@ -102,6 +102,33 @@ impl Tables {
     }
 }
 
+/// The layout of `method`'s tables at `table_bits` for `symbols` symbols, before any table
+/// is built (sizes alone fix it): what sizing weighs against a flash budget.
+pub fn layout(
+    method: Method,
+    lookup: Lookup,
+    table_bits: u32,
+    symbols: usize,
+    symbol_bytes: usize,
+    put_rows: usize,
+    absent: bool,
+) -> TableLayout {
+    match method {
+        Method::Tans => tans::layout(table_bits, symbol_bytes, put_rows),
+        Method::Rans => rans::layout(lookup, table_bits, symbols, symbol_bytes, put_rows, absent),
+    }
+}
+
+/// Which functions of a codec read a table: a device that only encodes (or only decodes)
+/// links only the tables of that direction.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Direction {
+    Encode,
+    Decode,
+    /// Read by both directions (no method has such a table today).
+    Both,
+}
+
 /// One static table of a codec: its name and entry type in the generated code, and its size.
 /// The emitter asserts each `entry_bytes` against the emitted type at compile time, so the
 /// report's table bytes and the generated code cannot drift apart.
@@ -111,12 +138,19 @@ pub struct LayoutEntry {
     pub entry: &'static str,
     pub entries: usize,
     pub entry_bytes: usize,
+    pub direction: Direction,
 }
 
 impl LayoutEntry {
     /// An entry of primitive fields of the given sizes: Rust orders such fields without gaps,
     /// so the size is their sum rounded up to the widest.
-    pub fn new(name: &'static str, entry: &'static str, entries: usize, fields: &[usize]) -> Self {
+    pub fn new(
+        name: &'static str,
+        entry: &'static str,
+        entries: usize,
+        fields: &[usize],
+        direction: Direction,
+    ) -> Self {
         let sum: usize = fields.iter().sum();
         let align = fields.iter().copied().max().unwrap_or(1);
         LayoutEntry {
@@ -124,6 +158,7 @@ impl LayoutEntry {
             entry,
             entries,
             entry_bytes: sum.div_ceil(align) * align,
+            direction,
         }
     }
 
@@ -141,6 +176,24 @@ pub struct TableLayout {
 impl TableLayout {
     pub fn bytes(&self) -> usize {
         self.tables.iter().map(LayoutEntry::bytes).sum()
+    }
+
+    /// Bytes of the tables the encoder reads.
+    pub fn encode_bytes(&self) -> usize {
+        self.direction_bytes(Direction::Encode)
+    }
+
+    /// Bytes of the tables the decoder reads.
+    pub fn decode_bytes(&self) -> usize {
+        self.direction_bytes(Direction::Decode)
+    }
+
+    fn direction_bytes(&self, direction: Direction) -> usize {
+        self.tables
+            .iter()
+            .filter(|t| t.direction == direction || t.direction == Direction::Both)
+            .map(LayoutEntry::bytes)
+            .sum()
     }
 
     pub fn entry(&self, name: &str) -> Result<&LayoutEntry> {

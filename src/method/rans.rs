@@ -4,6 +4,7 @@
 //! the emitted functions are in `emit/rans.rs`. The rate is the slots' own cost: a 32-bit
 //! state adds under 10^-4 bits per symbol at table_bits <= 12 (`tests/rans_precision.rs`).
 
+use super::Direction::{Decode, Encode};
 use super::{LayoutEntry, TableLayout};
 use crate::error::{Error, Result};
 use crate::spec::Lookup;
@@ -128,8 +129,7 @@ impl Rans {
         }
     }
 
-    /// The emitted tables: `symbol_bytes` is the size of the generated `Symbol`, `put_rows`
-    /// the rows of the encoding table, `absent` whether those rows carry an absent flag.
+    /// The emitted tables (see [`layout`]).
     pub fn layout(
         &self,
         lookup: Lookup,
@@ -137,26 +137,52 @@ impl Rans {
         put_rows: usize,
         absent: bool,
     ) -> TableLayout {
-        let mut put = vec![4, 4, 2, 2, 1];
-        if absent {
-            put.push(1);
-        }
-        let find = match lookup {
-            Lookup::Table => LayoutEntry::new(
-                "DECODE",
-                "Step",
-                1 << self.table_bits,
-                &[symbol_bytes, 2, 4],
-            ),
-            Lookup::Search => LayoutEntry::new("CUM", "u16", self.slots.len() + 1, &[2]),
-        };
-        TableLayout {
-            tables: vec![find, LayoutEntry::new("PUTS", "Put", put_rows, &put)],
-        }
+        layout(
+            lookup,
+            self.table_bits,
+            self.slots.len(),
+            symbol_bytes,
+            put_rows,
+            absent,
+        )
     }
 
     /// Symbol owning `slot`.
     pub fn symbol_at(&self, slot: u32) -> usize {
         self.cum.partition_point(|&c| c <= slot) - 1
+    }
+}
+
+/// The emitted tables at `table_bits` for `symbols` symbols: `symbol_bytes` is the size of
+/// the generated `Symbol`, `put_rows` the rows of the encoding table, `absent` whether those
+/// rows carry an absent flag. It depends on sizes only, so that sizes can be weighed before
+/// any table is built.
+pub fn layout(
+    lookup: Lookup,
+    table_bits: u32,
+    symbols: usize,
+    symbol_bytes: usize,
+    put_rows: usize,
+    absent: bool,
+) -> TableLayout {
+    let mut put = vec![4, 4, 2, 2, 1];
+    if absent {
+        put.push(1);
+    }
+    let find = match lookup {
+        Lookup::Table => LayoutEntry::new(
+            "DECODE",
+            "Step",
+            1 << table_bits,
+            &[symbol_bytes, 2, 4],
+            Decode,
+        ),
+        Lookup::Search => LayoutEntry::new("CUM", "u16", symbols + 1, &[2], Decode),
+    };
+    TableLayout {
+        tables: vec![
+            find,
+            LayoutEntry::new("PUTS", "Put", put_rows, &put, Encode),
+        ],
     }
 }

@@ -12,6 +12,7 @@
 //! exact rate is in `rate.rs`, the emitted functions in `emit/tans.rs`.
 
 use super::rate::Chain;
+use super::Direction::{Decode, Encode};
 use super::{LayoutEntry, TableLayout};
 use crate::error::{Error, Result};
 use crate::quantize::ln;
@@ -111,16 +112,12 @@ pub const NARROW_SPEND_TABLE_BITS: u32 = 11;
 impl Tans {
     /// Bytes of a `next_state` entry.
     pub fn next_bytes(&self) -> usize {
-        if self.table_bits <= NARROW_NEXT_TABLE_BITS {
-            1
-        } else {
-            2
-        }
+        next_bytes(self.table_bits)
     }
 
     /// Whether [`Put::spend`] and [`Put::run`] share one 32-bit entry (`spend` low).
     pub fn joined_put(&self) -> bool {
-        self.table_bits <= NARROW_SPEND_TABLE_BITS
+        joined_put(self.table_bits)
     }
 
     /// The longest run of symbols one lane can decode without reading a bit, or `None` when
@@ -167,39 +164,62 @@ impl Tans {
     /// How a decode step is packed in `STEPS`: the base in the low bits, the bit count from
     /// this bit on. 16-bit entries up to 2^12 slots, 32-bit above.
     pub fn step_shift(&self) -> u32 {
-        if self.table_bits <= 12 {
-            12
-        } else {
-            16
-        }
+        step_shift(self.table_bits)
     }
 
-    /// The emitted tables: `symbol_bytes` is the size of the generated `Symbol`, `put_rows`
-    /// the rows of the encoding tables. An entry is what one step of a hot loop reads, so
-    /// that it costs the fewest loads from the fewest base registers (32-bit cores have few)
-    /// and carries no padding. Decode: the symbol, and the step packed in one integer, each one
-    /// load by position. Encode: `spend | run << 16` in 4 bytes (larger tables split them).
-    pub fn layout(&self, symbol_bytes: usize, put_rows: usize, _absent: bool) -> TableLayout {
-        let l = self.table_len();
-        let step = if self.step_shift() == 12 { 2 } else { 4 };
-        let mut tables = vec![
-            LayoutEntry::new("SYMBOLS", "Symbol", l, &[symbol_bytes]),
-            LayoutEntry::new("STEPS", "step", l, &[step]),
-        ];
-        if self.joined_put() {
-            tables.push(LayoutEntry::new("PUT", "u32", put_rows, &[4]));
-        } else {
-            tables.push(LayoutEntry::new("SPEND", "u32", put_rows, &[4]));
-            tables.push(LayoutEntry::new("RUN", "u16", put_rows, &[2]));
-        }
-        tables.push(LayoutEntry::new(
-            "NEXT_STATE",
-            "state",
-            l,
-            &[self.next_bytes()],
-        ));
-        TableLayout { tables }
+    /// The emitted tables (see [`layout`]).
+    pub fn layout(&self, symbol_bytes: usize, put_rows: usize) -> TableLayout {
+        layout(self.table_bits, symbol_bytes, put_rows)
     }
+}
+
+fn next_bytes(table_bits: u32) -> usize {
+    if table_bits <= NARROW_NEXT_TABLE_BITS {
+        1
+    } else {
+        2
+    }
+}
+
+fn joined_put(table_bits: u32) -> bool {
+    table_bits <= NARROW_SPEND_TABLE_BITS
+}
+
+fn step_shift(table_bits: u32) -> u32 {
+    if table_bits <= 12 {
+        12
+    } else {
+        16
+    }
+}
+
+/// The emitted tables at `table_bits`: `symbol_bytes` is the size of the generated `Symbol`,
+/// `put_rows` the rows of the encoding tables. It depends on sizes only, so that sizes can
+/// be weighed before any table is built. An entry is what one step of a hot loop reads, so
+/// that it costs the fewest loads from the fewest base registers (32-bit cores have few)
+/// and carries no padding. Decode: the symbol, and the step packed in one integer, each one
+/// load by position. Encode: `spend | run << 16` in 4 bytes (larger tables split them).
+pub fn layout(table_bits: u32, symbol_bytes: usize, put_rows: usize) -> TableLayout {
+    let l = 1usize << table_bits;
+    let step = if step_shift(table_bits) == 12 { 2 } else { 4 };
+    let mut tables = vec![
+        LayoutEntry::new("SYMBOLS", "Symbol", l, &[symbol_bytes], Decode),
+        LayoutEntry::new("STEPS", "step", l, &[step], Decode),
+    ];
+    if joined_put(table_bits) {
+        tables.push(LayoutEntry::new("PUT", "u32", put_rows, &[4], Encode));
+    } else {
+        tables.push(LayoutEntry::new("SPEND", "u32", put_rows, &[4], Encode));
+        tables.push(LayoutEntry::new("RUN", "u16", put_rows, &[2], Encode));
+    }
+    tables.push(LayoutEntry::new(
+        "NEXT_STATE",
+        "state",
+        l,
+        &[next_bytes(table_bits)],
+        Encode,
+    ));
+    TableLayout { tables }
 }
 
 /// Builds the tables for `slots` (summing to `2^table_bits`) and the training probabilities,
