@@ -43,6 +43,8 @@ pub struct Report {
     pub spread: &'static str,
     pub method: &'static str,
     pub lanes: u32,
+    /// How streams are framed, in words: `tagged streams`, `compact frames`, `bare frames`.
+    pub framing: &'static str,
     pub verified: Verified,
     /// Symbols of samples and inline text; the round trip covers at most the first
     /// `load::KEPT_SYMBOLS` of each sample.
@@ -70,13 +72,14 @@ impl Report {
     pub fn doc_lines(&self) -> Vec<String> {
         let mut d = vec![
             format!(
-                "Codec `{}`: {} symbols, {}, {} lane(s), table of 2^{} = {} slots.",
+                "Codec `{}`: {} symbols, {}, {} lane(s), table of 2^{} = {} slots, {}.",
                 self.name,
                 self.symbols,
                 self.method,
                 self.lanes,
                 self.table_bits,
-                1u32 << self.table_bits
+                1u32 << self.table_bits,
+                self.framing
             ),
             String::new(),
             "| figure | bits/symbol |".to_string(),
@@ -300,6 +303,11 @@ pub fn build(
         spread: set.tables.spread_description(),
         method: set.tables.method_name(),
         lanes: codec.lanes,
+        framing: match codec.framing {
+            crate::spec::Framing::Tagged => "tagged streams",
+            crate::spec::Framing::Compact => "compact frames",
+            crate::spec::Framing::Bare => "bare frames",
+        },
         verified,
         sequence_symbols,
         lines,

@@ -39,6 +39,8 @@ struct Codec<E> {
     encode: fn(&[u8], &mut [u8]) -> Result<usize, E>,
     decode: fn(&[u8], &mut [u8]) -> Result<usize, E>,
     too_small: E,
+    /// Tagged and compact codecs: the count read from the header.
+    symbol_count: Option<fn(&[u8]) -> Result<usize, E>>,
 }
 
 macro_rules! codec {
@@ -50,6 +52,18 @@ macro_rules! codec {
             encode: $m::encode,
             decode: $m::decode,
             too_small: $m::Error::OutputTooSmall,
+            symbol_count: Some($m::symbol_count),
+        }
+    };
+    ($m:ident, bare) => {
+        Codec {
+            name: stringify!($m),
+            alphabet: &$m::ALPHABET,
+            max_encoded_len: $m::max_encoded_len,
+            encode: $m::encode,
+            decode: $m::decode,
+            too_small: $m::Error::OutputTooSmall,
+            symbol_count: None,
         }
     };
 }
@@ -88,6 +102,9 @@ fn check<E: std::fmt::Debug + PartialEq + Copy>(c: Codec<E>) {
             c.name
         );
         assert_eq!(back, input, "{} len {len}", c.name);
+        if let Some(symbol_count) = c.symbol_count {
+            assert_eq!(symbol_count(stream), Ok(len), "{} len {len}", c.name);
+        }
         // The exact size fits (compact and bare tANS streams need room for the trailing
         // zeros they leave out); one byte less does not.
         if framing == Framing::Tagged {
@@ -227,11 +244,11 @@ fn rans_l4_search() {
 }
 #[test]
 fn tans_l4_bare() {
-    check(codec!(tans_l4_bare));
+    check(codec!(tans_l4_bare, bare));
 }
 #[test]
 fn rans_l4_bare() {
-    check(codec!(rans_l4_bare));
+    check(codec!(rans_l4_bare, bare));
 }
 #[test]
 fn tans_l8_wide() {
@@ -309,7 +326,7 @@ fn tans_l1_compact() {
 
 #[test]
 fn tans_l1_bare() {
-    check(codec!(tans_l1_bare));
+    check(codec!(tans_l1_bare, bare));
 }
 
 #[test]
