@@ -40,8 +40,11 @@ struct Codec<E> {
     decode: fn(&[u8], &mut [u8]) -> Result<usize, E>,
     too_small: E,
     /// Tagged and compact codecs: the count read from the header.
-    symbol_count: Option<fn(&[u8]) -> Result<usize, E>>,
+    symbol_count: Option<SymbolCount<E>>,
 }
+
+/// A generated `symbol_count`.
+type SymbolCount<E> = fn(&[u8]) -> Result<usize, E>;
 
 macro_rules! codec {
     ($m:ident) => {
