@@ -197,7 +197,7 @@ impl<'a> Reference<'a> {
         out
     }
 
-    /// The positions of `s`'s copies in the order an encoder tries them as a lane's
+    /// The positions of `s`'s copies in the order a searching encoder tries them as a lane's
     /// starting state: table positions in bit-reversed counting order (0, L/2, L/4, 3L/4,
     /// ...), the most aligned first, so that the bits the next symbol writes of it are
     /// most often zeros.
@@ -228,7 +228,19 @@ impl<'a> Reference<'a> {
             1
         };
         let mut best: Option<Vec<bool>> = None;
-        let first: Vec<u32> = last.iter().map(|&s| self.starts(tans, s, 1)[0]).collect();
+        // Without the search, the copy the encoder reaches from state `L`.
+        let first: Vec<u32> = last
+            .iter()
+            .map(|&s| {
+                let q = tans.slots[usize::from(s)];
+                let l = 1u32 << tans.table_bits;
+                let mut k = 0;
+                while (l >> k) >= 2 * q {
+                    k += 1;
+                }
+                self.positions[usize::from(s)][((l >> k) - q) as usize]
+            })
+            .collect();
         let tried: Vec<Vec<u32>> = match last.first() {
             Some(&s) if tries > 1 => self
                 .starts(tans, s, tries)

@@ -204,6 +204,7 @@ pub(crate) fn tail_word() -> TokenStream {
         /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
         /// to the end of its last byte. Without, copies in pieces no longer than the distance
         /// moved, so that source and destination never overlap and no index can fail.
+        #[inline(never)]
         fn move_to_front(out: &mut [u8], from: usize, to: usize, pad: u32) -> Result<usize, Error> {
             let (Some(gap), Some(len)) = (from.checked_sub(to), out.len().checked_sub(from)) else {
                 return Err(Error::OutputTooSmall);

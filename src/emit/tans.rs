@@ -446,26 +446,19 @@ fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
         }
     };
+    let row = &input.row;
     if !searches(plan) {
         return quote! {
-            #position
-
-            /// The starting state of a lane whose last symbol is `last`: its first copy in
-            /// [`position`] order (that symbol then costs no bits).
+            /// The starting state of a lane whose last symbol is `last`: the copy of it the
+            /// encoder reaches from state `L` (that symbol then costs no bits), found without
+            /// the decoding table, which an encoder-only image need not hold.
+            #[inline(always)]
             fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
-                let mut i = 0;
-                while i < TABLE_LEN as u32 {
-                    let p = position(i);
-                    if SYMBOLS[p] == last {
-                        return (TABLE_LEN + p) as u32;
-                    }
-                    i += 1;
-                }
-                TABLE_LEN as u32
+                let symbol = last;
+                put_symbol(TABLE_LEN as u32, #row).2
             }
         };
     }
-    let row = &input.row;
     quote! {
         #position
 
@@ -476,8 +469,14 @@ fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
 
         /// The starting state of the lane whose last symbol is `last` (a copy of it, so that
         /// it costs no bits): of its first `tries` copies in [`position`] order, the one that
-        /// gives the shortest stream for `head` (the first on a tie).
+        /// gives the shortest stream for `head` (the first on a tie); with one try, the copy
+        /// the encoder reaches from state `L`.
         fn start(head: &[Symbol], last: Symbol, tries: usize) -> u32 {
+            if tries == 1 {
+                // Long streams: the copy the encoder reaches from state `L`.
+                let symbol = last;
+                return put_symbol(TABLE_LEN as u32, #row).2;
+            }
             let mut best = (usize::MAX, TABLE_LEN as u32);
             let mut found = 0;
             let mut i = 0;
@@ -485,9 +484,6 @@ fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
                 let p = position(i);
                 if SYMBOLS[p] == last {
                     let x = (TABLE_LEN + p) as u32;
-                    if tries == 1 {
-                        return x;
-                    }
                     let bytes = trial(head, x);
                     if bytes < best.0 {
                         best = (bytes, x);

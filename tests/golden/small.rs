@@ -302,25 +302,13 @@ pub mod mit_text {
         16576, 16592, 8224, 25024, 25024, 25024, 16624, 20512, 20576, 8228, 20640, 20832, 8232, 20896, 20896, 16400, // 480
         16432, 16592, 8236, 24640, 24640, 29056, 28800, 33024, 36864, 36864, 36864, 36864, 36864, 36864, 36864, 36864, // 496
     ];
-    /// The table position at number `i` of the order the encoder tries starting states
-    /// in: bit-reversed counting (0, L/2, L/4, 3L/4, ...), the most aligned first, so
-    /// that the next symbol's bits taken from the state are most often zeros.
+    /// The starting state of a lane whose last symbol is `last`: the copy of it the
+    /// encoder reaches from state `L` (that symbol then costs no bits), found without
+    /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn position(i: u32) -> usize {
-        (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
-    }
-    /// The starting state of a lane whose last symbol is `last`: its first copy in
-    /// [`position`] order (that symbol then costs no bits).
     fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
-        let mut i = 0;
-        while i < TABLE_LEN as u32 {
-            let p = position(i);
-            if SYMBOLS[p] == last {
-                return (TABLE_LEN + p) as u32;
-            }
-            i += 1;
-        }
-        TABLE_LEN as u32
+        let symbol = last;
+        put_symbol(TABLE_LEN as u32, usize::from(symbol).min(123)).2
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::encode;
@@ -888,6 +876,7 @@ pub mod mit_text {
     /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
     /// to the end of its last byte. Without, copies in pieces no longer than the distance
     /// moved, so that source and destination never overlap and no index can fail.
+    #[inline(never)]
     fn move_to_front(
         out: &mut [u8],
         from: usize,
@@ -1234,25 +1223,13 @@ pub mod five {
         12336, 8204, 8224, 8224, 8228, 8228, 8208, 12344, 12344, 8232, 8232, 8212, 8192, 8192, 8236, 8236, // 32
         8216, 8240, 8240, 8196, 8196, 8220, 8244, 8244, 8248, 8248, 8224, 8200, 8252, 8252, 8228, 8204, // 48
     ];
-    /// The table position at number `i` of the order the encoder tries starting states
-    /// in: bit-reversed counting (0, L/2, L/4, 3L/4, ...), the most aligned first, so
-    /// that the next symbol's bits taken from the state are most often zeros.
+    /// The starting state of a lane whose last symbol is `last`: the copy of it the
+    /// encoder reaches from state `L` (that symbol then costs no bits), found without
+    /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn position(i: u32) -> usize {
-        (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
-    }
-    /// The starting state of a lane whose last symbol is `last`: its first copy in
-    /// [`position`] order (that symbol then costs no bits).
     fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
-        let mut i = 0;
-        while i < TABLE_LEN as u32 {
-            let p = position(i);
-            if SYMBOLS[p] == last {
-                return (TABLE_LEN + p) as u32;
-            }
-            i += 1;
-        }
-        TABLE_LEN as u32
+        let symbol = last;
+        put_symbol(TABLE_LEN as u32, symbol as usize).2
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::encode;
@@ -1792,6 +1769,7 @@ pub mod five {
     /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
     /// to the end of its last byte. Without, copies in pieces no longer than the distance
     /// moved, so that source and destination never overlap and no index can fail.
+    #[inline(never)]
     fn move_to_front(
         out: &mut [u8],
         from: usize,
@@ -2101,25 +2079,13 @@ pub mod skewed {
         12336, 74, 75, 76, 77, 78, 79, 80, 81, 82, 12344, 83, 84, 85, 86, 87, // 96
         88, 89, 90, 91, 12352, 92, 93, 94, 95, 96, 97, 98, 99, 100, 12360, 101, // 112
     ];
-    /// The table position at number `i` of the order the encoder tries starting states
-    /// in: bit-reversed counting (0, L/2, L/4, 3L/4, ...), the most aligned first, so
-    /// that the next symbol's bits taken from the state are most often zeros.
+    /// The starting state of a lane whose last symbol is `last`: the copy of it the
+    /// encoder reaches from state `L` (that symbol then costs no bits), found without
+    /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn position(i: u32) -> usize {
-        (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
-    }
-    /// The starting state of a lane whose last symbol is `last`: its first copy in
-    /// [`position`] order (that symbol then costs no bits).
     fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
-        let mut i = 0;
-        while i < TABLE_LEN as u32 {
-            let p = position(i);
-            if SYMBOLS[p] == last {
-                return (TABLE_LEN + p) as u32;
-            }
-            i += 1;
-        }
-        TABLE_LEN as u32
+        let symbol = last;
+        put_symbol(TABLE_LEN as u32, symbol as usize).2
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::encode;
@@ -2659,6 +2625,7 @@ pub mod skewed {
     /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
     /// to the end of its last byte. Without, copies in pieces no longer than the distance
     /// moved, so that source and destination never overlap and no index can fail.
+    #[inline(never)]
     fn move_to_front(
         out: &mut [u8],
         from: usize,
@@ -2945,25 +2912,13 @@ pub mod single {
     static STEPS: [u16; TABLE_LEN] = [
         0, 1, // 0
     ];
-    /// The table position at number `i` of the order the encoder tries starting states
-    /// in: bit-reversed counting (0, L/2, L/4, 3L/4, ...), the most aligned first, so
-    /// that the next symbol's bits taken from the state are most often zeros.
+    /// The starting state of a lane whose last symbol is `last`: the copy of it the
+    /// encoder reaches from state `L` (that symbol then costs no bits), found without
+    /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn position(i: u32) -> usize {
-        (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
-    }
-    /// The starting state of a lane whose last symbol is `last`: its first copy in
-    /// [`position`] order (that symbol then costs no bits).
     fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
-        let mut i = 0;
-        while i < TABLE_LEN as u32 {
-            let p = position(i);
-            if SYMBOLS[p] == last {
-                return (TABLE_LEN + p) as u32;
-            }
-            i += 1;
-        }
-        TABLE_LEN as u32
+        let symbol = last;
+        put_symbol(TABLE_LEN as u32, symbol as usize).2
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::encode;
@@ -3487,6 +3442,7 @@ pub mod single {
     /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
     /// to the end of its last byte. Without, copies in pieces no longer than the distance
     /// moved, so that source and destination never overlap and no index can fail.
+    #[inline(never)]
     fn move_to_front(
         out: &mut [u8],
         from: usize,
@@ -3800,8 +3756,13 @@ pub mod five_bare {
     const SEARCH_STARTS: usize = 16;
     /// The starting state of the lane whose last symbol is `last` (a copy of it, so that
     /// it costs no bits): of its first `tries` copies in [`position`] order, the one that
-    /// gives the shortest stream for `head` (the first on a tie).
+    /// gives the shortest stream for `head` (the first on a tie); with one try, the copy
+    /// the encoder reaches from state `L`.
     fn start(head: &[Symbol], last: Symbol, tries: usize) -> u32 {
+        if tries == 1 {
+            let symbol = last;
+            return put_symbol(TABLE_LEN as u32, symbol as usize).2;
+        }
         let mut best = (usize::MAX, TABLE_LEN as u32);
         let mut found = 0;
         let mut i = 0;
@@ -3809,9 +3770,6 @@ pub mod five_bare {
             let p = position(i);
             if SYMBOLS[p] == last {
                 let x = (TABLE_LEN + p) as u32;
-                if tries == 1 {
-                    return x;
-                }
                 let bytes = trial(head, x);
                 if bytes < best.0 {
                     best = (bytes, x);
@@ -4415,6 +4373,7 @@ pub mod five_bare {
     /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
     /// to the end of its last byte. Without, copies in pieces no longer than the distance
     /// moved, so that source and destination never overlap and no index can fail.
+    #[inline(never)]
     fn move_to_front(
         out: &mut [u8],
         from: usize,
@@ -4802,6 +4761,7 @@ pub mod five_rans {
     /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
     /// to the end of its last byte. Without, copies in pieces no longer than the distance
     /// moved, so that source and destination never overlap and no index can fail.
+    #[inline(never)]
     fn move_to_front(
         out: &mut [u8],
         from: usize,
@@ -5147,25 +5107,13 @@ pub mod skewed_l8 {
         12336, 74, 75, 76, 77, 78, 79, 80, 81, 82, 12344, 83, 84, 85, 86, 87, // 96
         88, 89, 90, 91, 12352, 92, 93, 94, 95, 96, 97, 98, 99, 100, 12360, 101, // 112
     ];
-    /// The table position at number `i` of the order the encoder tries starting states
-    /// in: bit-reversed counting (0, L/2, L/4, 3L/4, ...), the most aligned first, so
-    /// that the next symbol's bits taken from the state are most often zeros.
+    /// The starting state of a lane whose last symbol is `last`: the copy of it the
+    /// encoder reaches from state `L` (that symbol then costs no bits), found without
+    /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn position(i: u32) -> usize {
-        (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
-    }
-    /// The starting state of a lane whose last symbol is `last`: its first copy in
-    /// [`position`] order (that symbol then costs no bits).
     fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
-        let mut i = 0;
-        while i < TABLE_LEN as u32 {
-            let p = position(i);
-            if SYMBOLS[p] == last {
-                return (TABLE_LEN + p) as u32;
-            }
-            i += 1;
-        }
-        TABLE_LEN as u32
+        let symbol = last;
+        put_symbol(TABLE_LEN as u32, symbol as usize).2
     }
     #[cfg(target_pointer_width = "64")]
     pub use wide::encode;
@@ -5705,6 +5653,7 @@ pub mod skewed_l8 {
     /// returns its length. With `pad` (1 to 7) the stream's first `pad` bits, zeros, move
     /// to the end of its last byte. Without, copies in pieces no longer than the distance
     /// moved, so that source and destination never overlap and no index can fail.
+    #[inline(never)]
     fn move_to_front(
         out: &mut [u8],
         from: usize,
