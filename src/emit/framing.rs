@@ -11,9 +11,12 @@ pub struct FramingTokens {
     pub framing: Framing,
     /// `const` expression: the largest header for `symbols` symbols.
     pub header_max: TokenStream,
-    /// The header length for `input`.
+    /// Encoder start: binds `header`, the header's length for `input` (nothing when bare).
     pub header_len: TokenStream,
-    /// Decoder start: binds `count` and `header`, and narrows `out` to `count`.
+    /// The header's length in the encoder's and decoder's expressions: `header`, or `0`.
+    pub header: TokenStream,
+    /// Decoder start: binds `count`, `header` (not when bare) and `payload`, and narrows
+    /// `out` to `count`.
     pub start: TokenStream,
     /// Items the framing needs at module level.
     pub items: TokenStream,
@@ -90,7 +93,7 @@ impl FramingTokens {
 
 pub fn tokens(framing: Framing) -> FramingTokens {
     let (error_variants, error_display) = errors(framing);
-    let (header_max, header_len, start, items) = match framing {
+    let (header_max, header_len, header, start, items) = match framing {
         Framing::Tagged | Framing::Compact => {
             let id = if framing == Framing::Tagged {
                 quote!(2)
@@ -99,22 +102,25 @@ pub fn tokens(framing: Framing) -> FramingTokens {
             };
             (
                 quote!(#id + leb128_len(symbols)),
-                quote!(#id + leb128_len(input.len())),
+                quote!(let header = #id + leb128_len(input.len());),
+                quote!(header),
                 quote! {
                     let (count, header) = read_header(stream)?;
                     let Some(out) = out.get_mut(..count) else {
                         return Err(Error::OutputTooSmall);
                     };
+                    let payload = stream.get(header..).unwrap_or(&[]);
                 },
                 header_items(framing),
             )
         }
         Framing::Bare => (
             quote!(0usize),
-            quote!(0usize),
+            TokenStream::new(),
+            quote!(0),
             quote! {
-                // Bare: the output's length is the symbol count, and there is no header.
-                let (count, header) = (out.len(), 0usize);
+                // Bare: the stream is the payload, the output's length the symbol count.
+                let (count, payload) = (out.len(), stream);
             },
             TokenStream::new(),
         ),
@@ -123,6 +129,7 @@ pub fn tokens(framing: Framing) -> FramingTokens {
         framing,
         header_max,
         header_len,
+        header,
         start,
         items,
         error_variants,

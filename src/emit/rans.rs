@@ -26,6 +26,7 @@ pub fn body(
     let FramingTokens {
         header_max,
         header_len,
+        header,
         start,
         ..
     } = framing;
@@ -57,6 +58,12 @@ pub fn body(
         }
     } else {
         TokenStream::new()
+    };
+    // Bytes the stream took: a compact or bare one runs to the end of `stream`.
+    let used = if framing.to_the_end() {
+        quote!(stream.len())
+    } else {
+        quote!(header + at)
     };
     let prefix_vis = if framing.to_the_end() {
         TokenStream::new()
@@ -209,7 +216,7 @@ pub fn body(
         /// front; `out` beyond the returned length is left unspecified.
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
-            let header = #header_len;
+            #header_len
             let mut pos = out.len();
             let mut state = [LOW; LANES];
             #declare
@@ -263,7 +270,7 @@ pub fn body(
                 *dst = x.to_le_bytes();
                 pos -= 4;
             }
-            let len = move_to_front(out, pos, header, 0)?;
+            let len = move_to_front(out, pos, #header, 0)?;
             #finish
             Ok(len)
         }
@@ -273,7 +280,6 @@ pub fn body(
         #[allow(clippy::modulo_one)]
         #prefix_vis fn decode_prefix(stream: &[u8], out: &mut [Symbol]) -> Result<(usize, usize), Error> {
             #start
-            let payload = stream.get(header..).unwrap_or(&[]);
             let Some(head) = payload.first_chunk::<#state_bytes>() else {
                 return Err(#truncated);
             };
@@ -327,7 +333,7 @@ pub fn body(
                 return Err(#corrupt);
             }
             #exact_end
-            Ok((count, header + at))
+            Ok((count, #used))
         }
 
         #word

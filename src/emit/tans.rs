@@ -97,7 +97,6 @@ pub fn body(
     let start = &framing.start;
     let decode_start = quote! {
         #start
-        let payload = stream.get(header..).unwrap_or(&[]);
         #count_check
         // Lanes with a symbol: each has its first state in front of the payload.
         let used = if count < LANES { count } else { LANES };
@@ -302,13 +301,14 @@ pub fn absent(tans: &Tans, row: TokenStream) -> TokenStream {
 /// and bare streams leave out trailing zero bytes (at most 8, the decoder reads as many past
 /// the end); then the header.
 fn finish(framing: &FramingTokens) -> TokenStream {
-    let header = framing.write_header();
+    let write_header = framing.write_header();
+    let header = &framing.header;
     let trim = if framing.to_the_end() {
         quote! {
             // The decoder reads zeros past the end: trailing zero bytes are left out.
             let mut len = len;
             let mut cut = 0;
-            while cut < PAST_END_BITS / 8 && len > header && out.get(len.wrapping_sub(1)) == Some(&0) {
+            while cut < PAST_END_BITS / 8 && len > #header && out.get(len.wrapping_sub(1)) == Some(&0) {
                 len -= 1;
                 cut += 1;
             }
@@ -318,7 +318,7 @@ fn finish(framing: &FramingTokens) -> TokenStream {
     };
     quote! {
         #trim
-        #header
+        #write_header
     }
 }
 
@@ -535,7 +535,9 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
         r.encode_window,
     ]
     .map(Literal::usize_unsuffixed);
-    let FramingTokens { header_len, .. } = parts.framing;
+    let FramingTokens {
+        header_len, header, ..
+    } = parts.framing;
     let InputTokens {
         row, check, refuse, ..
     } = parts.input;
@@ -601,7 +603,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
             /// front; `out` beyond the returned length is left unspecified.
             #[allow(clippy::modulo_one)]
             pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
-                let header = #header_len;
+                #header_len
                 let mut pos = out.len();
                 #encode_start
                 // Bits not yet stored, the low `pending` of `acc`; fewer than 8 between stores.
@@ -668,7 +670,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                 acc <<= pad;
                 pending += pad;
                 store(out, &mut pos, acc, &mut pending)?;
-                let len = move_to_front(out, pos, header, pad)?;
+                let len = move_to_front(out, pos, #header, pad)?;
                 #finish
                 Ok(len)
             }
@@ -734,7 +736,9 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
 /// The 32-bit path: one loop for every symbol, a 32-bit buffer refilled or flushed only when
 /// it must be.
 fn narrow(parts: &Parts<'_>) -> TokenStream {
-    let FramingTokens { header_len, .. } = parts.framing;
+    let FramingTokens {
+        header_len, header, ..
+    } = parts.framing;
     let InputTokens {
         row, check, refuse, ..
     } = parts.input;
@@ -950,7 +954,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             /// front; `out` beyond the returned length is left unspecified.
             #[allow(clippy::modulo_one)]
             pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
-                let header = #header_len;
+                #header_len
                 let mut writer = Writer {
                     pos: out.len(),
                     out,
@@ -993,7 +997,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 if full {
                     return Err(Error::OutputTooSmall);
                 }
-                let len = move_to_front(out, pos, header, pad)?;
+                let len = move_to_front(out, pos, #header, pad)?;
                 #finish
                 Ok(len)
             }

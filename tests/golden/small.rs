@@ -3878,7 +3878,6 @@ pub mod five_bare {
         /// front; `out` beyond the returned length is left unspecified.
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
-            let header = 0usize;
             let mut pos = out.len();
             let n = input.len();
             let used = if n < LANES { n } else { LANES };
@@ -3955,10 +3954,10 @@ pub mod five_bare {
             acc <<= pad;
             pending += pad;
             store(out, &mut pos, acc, &mut pending)?;
-            let len = move_to_front(out, pos, header, pad)?;
+            let len = move_to_front(out, pos, 0, pad)?;
             let mut len = len;
             let mut cut = 0;
-            while cut < PAST_END_BITS / 8 && len > header
+            while cut < PAST_END_BITS / 8 && len > 0
                 && out.get(len.wrapping_sub(1)) == Some(&0)
             {
                 len -= 1;
@@ -3973,8 +3972,7 @@ pub mod five_bare {
             stream: &[u8],
             out: &mut [Symbol],
         ) -> Result<(usize, usize), Error> {
-            let (count, header) = (out.len(), 0usize);
-            let payload = stream.get(header..).unwrap_or(&[]);
+            let (count, payload) = (out.len(), stream);
             const ZERO_RUN: usize = 0;
             let room = payload
                 .len()
@@ -4231,7 +4229,6 @@ pub mod five_bare {
         /// front; `out` beyond the returned length is left unspecified.
         #[allow(clippy::modulo_one)]
         pub fn encode(input: &[Symbol], out: &mut [u8]) -> Result<usize, Error> {
-            let header = 0usize;
             let mut writer = Writer {
                 pos: out.len(),
                 out,
@@ -4277,10 +4274,10 @@ pub mod five_bare {
             if full {
                 return Err(Error::OutputTooSmall);
             }
-            let len = move_to_front(out, pos, header, pad)?;
+            let len = move_to_front(out, pos, 0, pad)?;
             let mut len = len;
             let mut cut = 0;
-            while cut < PAST_END_BITS / 8 && len > header
+            while cut < PAST_END_BITS / 8 && len > 0
                 && out.get(len.wrapping_sub(1)) == Some(&0)
             {
                 len -= 1;
@@ -4295,8 +4292,7 @@ pub mod five_bare {
             stream: &[u8],
             out: &mut [Symbol],
         ) -> Result<(usize, usize), Error> {
-            let (count, header) = (out.len(), 0usize);
-            let payload = stream.get(header..).unwrap_or(&[]);
+            let (count, payload) = (out.len(), stream);
             const ZERO_RUN: usize = 0;
             let room = payload
                 .len()
