@@ -1,8 +1,12 @@
-//! One simulated day of the river-gauge network, sent through the generated codecs.
+//! One simulated day of the river-gauge network, sent over the radio as it really runs.
 //!
-//! Every gauge batches its day into one stream per codec, as the gateway would, and
-//! each stream is checked to decode back exactly. The table compares the sizes with
-//! the order-0 entropy of the day and with raw deflate on the same per-gauge data.
+//! Every two hours each gauge sends one packet with its last eight readings (status and
+//! level change), and each note line a technician types goes out in a packet of its own.
+//! Every frame in a packet is one compact stream of a generated codec. The gateway parses
+//! each packet, sizes its buffers with `symbol_count`, decodes, and checks every frame
+//! against what the gauge sent. The tables compare the bytes on air with the entropy of the
+//! day, with raw bytes and with raw deflate on the same frames, and show what a frame costs
+//! beyond its symbols.
 
 #![forbid(unsafe_code)]
 
@@ -28,6 +32,29 @@ const STORM_START: usize = 52;
 const RAIN_LEN: usize = 12;
 /// Readings the river keeps rising after the rain starts.
 const RISE_LEN: usize = 18;
+/// Readings in one packet: two hours. A storm rise here lasts four and a half hours
+/// (`RISE_LEN`), so two-hourly packets still show it building, and every packet costs a
+/// radio wake-up and preamble whatever it carries, so fewer, fuller packets save battery.
+const PER_PACKET: usize = 8;
+/// Reporting intervals in the day.
+const INTERVALS: usize = READINGS / PER_PACKET;
+/// Set in the interval byte of a packet that carries a note line.
+const NOTE_FLAG: u8 = 0x80;
+/// The longest note line the handheld accepts, in bytes.
+const NOTE_MAX: usize = 160;
+/// Bytes in front of the frames: gauge id, interval, status frame length.
+const READING_HEADER: usize = 3;
+/// Bytes in front of a note frame: gauge id, interval with `NOTE_FLAG`.
+const NOTE_HEADER: usize = 2;
+/// The largest reading packet, so the gauge can build it in a fixed buffer.
+const READING_PACKET_MAX: usize = READING_HEADER
+    + gauge_status::max_encoded_len(PER_PACKET)
+    + level_delta::max_encoded_len(PER_PACKET);
+
+// Ids, intervals and the status frame's length each fit their one byte.
+const _: () = assert!(READINGS.is_multiple_of(PER_PACKET));
+const _: () = assert!(GAUGES <= u8::MAX as usize && INTERVALS < NOTE_FLAG as usize);
+const _: () = assert!(gauge_status::max_encoded_len(PER_PACKET) <= u8::MAX as usize);
 
 /// splitmix64: tiny, seedable, and good enough for a demo.
 struct Rng(u64);
@@ -104,7 +131,8 @@ struct Gauge {
     retries: u32,
     status: Vec<Status>,
     deltas: Vec<u8>,
-    notes: Vec<u8>,
+    /// Note lines typed on site, with the reading they were typed at.
+    notes: Vec<(usize, Vec<u8>)>,
 }
 
 impl Gauge {
@@ -333,9 +361,8 @@ fn simulate() -> Vec<Gauge> {
                 _ => None,
             };
             if let Some(kind) = kind {
-                g.notes
-                    .extend_from_slice(g.note(r, kind, &mut rng).as_bytes());
-                g.notes.push(b'\n');
+                let line = g.note(r, kind, &mut rng).into_bytes();
+                g.notes.push((r, line));
             }
         }
     }
@@ -343,18 +370,17 @@ fn simulate() -> Vec<Gauge> {
 }
 
 /// Order-0 entropy in bits per symbol.
-fn entropy(data: impl Iterator<Item = u8>) -> f64 {
+fn entropy(data: &[u8]) -> f64 {
     let mut counts = [0u64; 256];
-    let mut n = 0u64;
-    for b in data {
+    for &b in data {
         counts[usize::from(b)] += 1;
-        n += 1;
     }
+    let n = data.len() as f64;
     counts
         .iter()
         .filter(|&&c| c > 0)
         .map(|&c| {
-            let p = c as f64 / n as f64;
+            let p = c as f64 / n;
             -p * p.log2()
         })
         .sum()
@@ -374,228 +400,514 @@ fn deflate_huffman_only(data: &[u8]) -> Result<Vec<u8>, String> {
 }
 
 /// Compresses with deflate and checks it inflates back; returns the size.
-fn deflate_checked(name: &str, data: &[u8], huffman_only: bool) -> Result<usize, String> {
+fn deflate_checked(label: &str, data: &[u8], huffman_only: bool) -> Result<usize, String> {
     let packed = if huffman_only {
         deflate_huffman_only(data)?
     } else {
         miniz_oxide::deflate::compress_to_vec(data, 6)
     };
     let back = miniz_oxide::inflate::decompress_to_vec(&packed)
-        .map_err(|e| format!("{name}: deflate stream does not inflate: {e:?}"))?;
+        .map_err(|e| format!("{label}: deflate stream does not inflate: {e:?}"))?;
     if back != data {
-        return Err(format!("{name}: deflate round trip differs"));
+        return Err(format!("{label}: deflate round trip differs"));
     }
     Ok(packed.len())
 }
 
-struct Row {
-    name: &'static str,
-    streams: usize,
-    symbols: usize,
-    encoded: usize,
-    headers: usize,
-    /// The whole day as a single stream: the coding cost without per-stream overhead.
-    one_stream: usize,
-    entropy: f64,
-    huffman: usize,
-    deflate: usize,
-}
-
+/// A generated codec, through plain function pointers so one sender and one receiver serve
+/// all three.
 struct Codec<S, E> {
     name: &'static str,
+    table_bits: u32,
     encode: fn(&[S], &mut [u8]) -> Result<usize, E>,
     decode: fn(&[u8], &mut [S]) -> Result<usize, E>,
+    symbol_count: fn(&[u8]) -> Result<usize, E>,
     max_len: fn(usize) -> usize,
     raw: fn(S) -> u8,
     blank: S,
 }
 
-/// Encodes, decodes and deflates every non-empty per-gauge stream of one codec.
-fn run<S: Copy + PartialEq, E: Display>(c: &Codec<S, E>, streams: &[&[S]]) -> Result<Row, String> {
-    let mut row = Row {
-        name: c.name,
-        streams: 0,
-        symbols: 0,
-        encoded: 0,
-        headers: 0,
-        one_stream: 0,
-        entropy: 0.0,
-        huffman: 0,
-        deflate: 0,
+const STATUS: Codec<Status, gauge_status::Error> = Codec {
+    name: "gauge_status",
+    table_bits: gauge_status::TABLE_BITS,
+    encode: gauge_status::encode,
+    decode: gauge_status::decode,
+    symbol_count: gauge_status::symbol_count,
+    max_len: gauge_status::max_encoded_len,
+    raw: |s| s as u8,
+    blank: Status::Ok,
+};
+
+const LEVEL: Codec<u8, level_delta::Error> = Codec {
+    name: "level_delta",
+    table_bits: level_delta::TABLE_BITS,
+    encode: level_delta::encode,
+    decode: level_delta::decode,
+    symbol_count: level_delta::symbol_count,
+    max_len: level_delta::max_encoded_len,
+    raw: |b| b,
+    blank: 0,
+};
+
+const NOTES: Codec<u8, field_notes::Error> = Codec {
+    name: "field_notes",
+    table_bits: field_notes::TABLE_BITS,
+    encode: field_notes::encode,
+    decode: field_notes::decode,
+    symbol_count: field_notes::symbol_count,
+    max_len: field_notes::max_encoded_len,
+    raw: |b| b,
+    blank: b' ',
+};
+
+/// One codec's frames over the day, and the same frames sent the baselines' ways.
+struct Tally<S> {
+    frames: usize,
+    /// Bytes of the compact frames.
+    precast: usize,
+    /// Bytes of their compact headers.
+    header: usize,
+    huffman: usize,
+    deflate: usize,
+    /// Every symbol of the day, in the order sent.
+    day: Vec<S>,
+}
+
+impl<S> Tally<S> {
+    fn new() -> Self {
+        Tally {
+            frames: 0,
+            precast: 0,
+            header: 0,
+            huffman: 0,
+            deflate: 0,
+            day: Vec::new(),
+        }
+    }
+}
+
+/// The gauge's side: encodes one compact frame, into `out`; returns its length. The
+/// baselines compress the same symbols and are checked too.
+fn send<S: Copy, E: Display>(
+    c: &Codec<S, E>,
+    symbols: &[S],
+    out: &mut [u8],
+    tally: &mut Tally<S>,
+    label: &str,
+) -> Result<usize, String> {
+    let len =
+        (c.encode)(symbols, out).map_err(|e| format!("{}, {label}: encode failed: {e}", c.name))?;
+    let raw: Vec<u8> = symbols.iter().map(|&s| (c.raw)(s)).collect();
+    let label = format!("{}, {label}", c.name);
+    tally.huffman += deflate_checked(&label, &raw, true)?;
+    tally.deflate += deflate_checked(&label, &raw, false)?;
+    tally.frames += 1;
+    tally.precast += len;
+    tally.header += compact_header_len(symbols.len());
+    tally.day.extend_from_slice(symbols);
+    Ok(len)
+}
+
+/// The compact header of an `n`-symbol frame: the check byte and the LEB128 count
+/// (FORMAT.md).
+fn compact_header_len(n: usize) -> usize {
+    1 + (usize::BITS - n.leading_zeros()).div_ceil(7).max(1) as usize
+}
+
+/// The gateway's side: sizes the output with `symbol_count` (refusing more than `max`
+/// symbols, so a damaged count cannot make it allocate) and decodes the frame.
+fn receive<S: Copy, E: Display>(
+    c: &Codec<S, E>,
+    frame: &[u8],
+    max: usize,
+    label: &str,
+) -> Result<Vec<S>, String> {
+    let fail = |what: &str| format!("{}, {label}: {what}", c.name);
+    let count = (c.symbol_count)(frame).map_err(|e| fail(&format!("bad frame header: {e}")))?;
+    if count > max {
+        return Err(fail(&format!(
+            "frame claims {count} symbols, at most {max} allowed"
+        )));
+    }
+    let mut out = vec![c.blank; count];
+    let n = (c.decode)(frame, &mut out).map_err(|e| fail(&format!("decode failed: {e}")))?;
+    if n != count {
+        return Err(fail(&format!("decoded {n} of {count} symbols")));
+    }
+    Ok(out)
+}
+
+/// "hh:00-hh:00", the hours of a reporting interval.
+fn hours(interval: usize) -> String {
+    let h = interval * PER_PACKET / 4;
+    format!("{h:02}:00-{:02}:00", h + PER_PACKET / 4)
+}
+
+/// Everything the gauges put on air in a day, in the order sent.
+struct Air {
+    packets: Vec<Vec<u8>>,
+    status: Tally<Status>,
+    level: Tally<u8>,
+    notes: Tally<u8>,
+}
+
+/// The gauges' side. At the end of each interval every gauge sends a reading packet,
+///
+/// `[gauge id: u8][interval: u8][status frame length: u8][status frame][level frame]`,
+///
+/// then one note packet per line typed on site during the interval,
+///
+/// `[gauge id: u8][NOTE_FLAG | interval: u8][note frame]`.
+///
+/// Each frame is one compact stream, which runs to the end of the bytes its decoder is
+/// given: so the status frame needs its length in front, and the last frame of a packet
+/// takes the rest of it. Gauge ids start at 1; intervals at 0 (00:00-02:00).
+fn transmit(gauges: &[Gauge]) -> Result<Air, String> {
+    let mut air = Air {
+        packets: Vec::new(),
+        status: Tally::new(),
+        level: Tally::new(),
+        notes: Tally::new(),
     };
-    let mut all = Vec::new();
-    let mut whole = Vec::new();
-    for (i, &input) in streams.iter().enumerate().filter(|(_, s)| !s.is_empty()) {
-        let gauge = i + 1;
-        let fail =
-            |what: &str, e: &dyn Display| format!("{}, gauge {gauge:02}: {what}: {e}", c.name);
-        let mut buf = vec![0u8; (c.max_len)(input.len())];
-        let len = (c.encode)(input, &mut buf).map_err(|e| fail("encode failed", &e))?;
-        let mut back = vec![c.blank; input.len()];
-        let n = (c.decode)(&buf[..len], &mut back).map_err(|e| fail("decode failed", &e))?;
-        if n != input.len() || back != input {
-            return Err(fail(
-                "round trip differs",
-                &format!("{n} of {} symbols back", input.len()),
+    for interval in 0..INTERVALS {
+        let span = interval * PER_PACKET..(interval + 1) * PER_PACKET;
+        for g in gauges {
+            let label = format!("gauge {:02}, {}", g.id, hours(interval));
+            // A fixed buffer, as on the gauge.
+            let mut packet = [0u8; READING_PACKET_MAX];
+            let (head, frames) = packet.split_at_mut(READING_HEADER);
+            let status = &g.status[span.clone()];
+            let s = send(&STATUS, status, frames, &mut air.status, &label)?;
+            let (_, level_out) = frames.split_at_mut(s);
+            let deltas = &g.deltas[span.clone()];
+            let l = send(&LEVEL, deltas, level_out, &mut air.level, &label)?;
+            head[0] = g.id as u8;
+            head[1] = interval as u8;
+            head[2] = u8::try_from(s).map_err(|_| format!("{label}: status frame too long"))?;
+            air.packets.push(packet[..READING_HEADER + s + l].to_vec());
+            for (r, line) in &g.notes {
+                if r / PER_PACKET != interval {
+                    continue;
+                }
+                if line.len() > NOTE_MAX {
+                    return Err(format!("{label}: note line over {NOTE_MAX} bytes"));
+                }
+                let mut packet = vec![0u8; NOTE_HEADER + (NOTES.max_len)(line.len())];
+                let n = send(
+                    &NOTES,
+                    line,
+                    &mut packet[NOTE_HEADER..],
+                    &mut air.notes,
+                    &label,
+                )?;
+                packet[0] = g.id as u8;
+                packet[1] = NOTE_FLAG | interval as u8;
+                packet.truncate(NOTE_HEADER + n);
+                air.packets.push(packet);
+            }
+        }
+    }
+    Ok(air)
+}
+
+/// The gateway's side: parses and decodes every packet and checks each frame against what
+/// the gauge sent. Returns the number of frames checked.
+fn gateway(packets: &[Vec<u8>], gauges: &[Gauge]) -> Result<usize, String> {
+    let mut readings = vec![[false; INTERVALS]; GAUGES];
+    let mut notes = vec![0usize; GAUGES];
+    let mut frames = 0;
+    for (k, packet) in packets.iter().enumerate() {
+        let &[id, tag, ref rest @ ..] = packet.as_slice() else {
+            return Err(format!("packet {k}: shorter than its header"));
+        };
+        let Some(g) = usize::from(id).checked_sub(1).and_then(|i| gauges.get(i)) else {
+            return Err(format!("packet {k}: unknown gauge id {id}"));
+        };
+        let interval = usize::from(tag & !NOTE_FLAG);
+        if interval >= INTERVALS {
+            return Err(format!("packet {k}: interval {interval} out of range"));
+        }
+        let label = format!("gauge {id:02}, {}", hours(interval));
+        if tag & NOTE_FLAG != 0 {
+            let line = receive(&NOTES, rest, NOTE_MAX, &label)?;
+            let seen = &mut notes[g.id - 1];
+            let sent = g.notes.get(*seen).map(|(r, line)| (r / PER_PACKET, line));
+            if sent != Some((interval, &line)) {
+                return Err(format!(
+                    "field_notes, {label}: note {} differs from the line typed",
+                    *seen + 1
+                ));
+            }
+            *seen += 1;
+            frames += 1;
+            continue;
+        }
+        let Some((&len, rest)) = rest.split_first() else {
+            return Err(format!("packet {k}: no status frame length"));
+        };
+        let Some((status, level)) = rest.split_at_checked(usize::from(len)) else {
+            return Err(format!("packet {k}: status frame runs past the packet"));
+        };
+        let span = interval * PER_PACKET..(interval + 1) * PER_PACKET;
+        if receive(&STATUS, status, PER_PACKET, &label)? != g.status[span.clone()] {
+            return Err(format!("gauge_status, {label}: decoded statuses differ"));
+        }
+        if receive(&LEVEL, level, PER_PACKET, &label)? != g.deltas[span] {
+            return Err(format!(
+                "level_delta, {label}: decoded level changes differ"
             ));
         }
-        let raw: Vec<u8> = input.iter().map(|&s| (c.raw)(s)).collect();
-        let label = format!("{}, gauge {gauge:02}", c.name);
-        row.huffman += deflate_checked(&label, &raw, true)?;
-        row.deflate += deflate_checked(&label, &raw, false)?;
-        row.streams += 1;
-        row.symbols += input.len();
-        row.encoded += len;
-        // Tag and fingerprint, then the symbol count as LEB128.
-        row.headers += 3
-            + (usize::BITS - input.len().leading_zeros())
-                .max(1)
-                .div_ceil(7) as usize;
-        all.extend(raw);
-        whole.extend_from_slice(input);
+        let seen = &mut readings[g.id - 1][interval];
+        if *seen {
+            return Err(format!("{label}: a second reading packet"));
+        }
+        *seen = true;
+        frames += 2;
     }
-    let mut buf = vec![0u8; (c.max_len)(whole.len())];
-    let fail = |what: &str, e: &dyn Display| format!("{}, whole day: {what}: {e}", c.name);
-    row.one_stream = (c.encode)(&whole, &mut buf).map_err(|e| fail("encode failed", &e))?;
-    let mut back = vec![c.blank; whole.len()];
-    (c.decode)(&buf[..row.one_stream], &mut back).map_err(|e| fail("decode failed", &e))?;
-    if back != whole {
-        return Err(fail("round trip differs", &"decoded symbols differ"));
+    for g in gauges {
+        if let Some(i) = readings[g.id - 1].iter().position(|&seen| !seen) {
+            return Err(format!(
+                "gauge {:02}, {}: no reading packet",
+                g.id,
+                hours(i)
+            ));
+        }
+        if notes[g.id - 1] != g.notes.len() {
+            return Err(format!("gauge {:02}: note lines missing", g.id));
+        }
     }
-    row.entropy = entropy(all.into_iter());
-    Ok(row)
+    Ok(frames)
+}
+
+/// One codec's line of the report.
+struct Row {
+    name: &'static str,
+    table_bits: u32,
+    frames: usize,
+    symbols: usize,
+    entropy: f64,
+    /// Bytes of the compact headers of the frames.
+    header: usize,
+    /// Bytes in frames: precast, huffman-only deflate, deflate level 6.
+    framed: [usize; 3],
+    /// Bytes of the whole day as one stream, the same three ways.
+    whole: [usize; 3],
+}
+
+impl Row {
+    /// Bytes a frame costs beyond its symbols at the long-run rate:
+    /// mean(frame bytes) - symbols a frame * rate / 8, which is (framed - whole) / frames.
+    fn overhead(&self, i: usize) -> f64 {
+        (self.framed[i] as f64 - self.whole[i] as f64) / self.frames as f64
+    }
+
+    fn rate(&self, i: usize) -> f64 {
+        bits_per(self.whole[i], self.symbols)
+    }
+}
+
+/// Sends the whole day of one codec as a single compact stream (and as single deflate
+/// streams) for the long-run rates, checks it decodes back, and makes the codec's row.
+fn row<S: Copy + PartialEq, E: Display>(c: &Codec<S, E>, t: &Tally<S>) -> Result<Row, String> {
+    let mut stream = vec![0u8; (c.max_len)(t.day.len())];
+    let len = (c.encode)(&t.day, &mut stream)
+        .map_err(|e| format!("{}, whole day: encode failed: {e}", c.name))?;
+    if receive(c, &stream[..len], t.day.len(), "whole day")? != t.day {
+        return Err(format!("{}, whole day: round trip differs", c.name));
+    }
+    let raw: Vec<u8> = t.day.iter().map(|&s| (c.raw)(s)).collect();
+    let label = format!("{}, whole day", c.name);
+    Ok(Row {
+        name: c.name,
+        table_bits: c.table_bits,
+        frames: t.frames,
+        symbols: t.day.len(),
+        entropy: entropy(&raw),
+        header: t.header,
+        framed: [t.precast, t.huffman, t.deflate],
+        whole: [
+            len,
+            deflate_checked(&label, &raw, true)?,
+            deflate_checked(&label, &raw, false)?,
+        ],
+    })
 }
 
 fn bits_per(bytes: usize, symbols: usize) -> f64 {
     bytes as f64 * 8.0 / symbols as f64
 }
 
-fn print_row(name: &str, symbols: usize, encoded: usize, h: f64, huffman: usize, deflate: usize) {
-    let bps = bits_per(encoded, symbols);
+fn fixed(x: f64, digits: usize) -> String {
+    format!("{x:.digits$}")
+}
+
+/// Bytes on air per codec against the entropy and the baselines.
+fn print_frames(rows: &[Row]) {
+    let line = |cells: [&dyn Display; 10]| {
+        let [name, table, frames, symbols, h, precast, bps, raw, huffman, deflate] = cells;
+        println!(
+            "{name:<13} {table:>5} {frames:>6} {symbols:>7} {h:>7} | {precast:>9} {bps:>8} | {raw:>6} {huffman:>11} {deflate:>11}"
+        );
+    };
+    line([
+        &"codec",
+        &"table",
+        &"frames",
+        &"symbols",
+        &"entropy",
+        &"precast B",
+        &"bits/sym",
+        &"raw B",
+        &"huff-only B",
+        &"deflate-6 B",
+    ]);
+    for r in rows {
+        line([
+            &r.name,
+            &format!("2^{}", r.table_bits),
+            &r.frames,
+            &r.symbols,
+            &fixed(r.entropy, 3),
+            &r.framed[0],
+            &fixed(bits_per(r.framed[0], r.symbols), 3),
+            &r.symbols,
+            &r.framed[1],
+            &r.framed[2],
+        ]);
+    }
+    let sum = |f: fn(&Row) -> usize| rows.iter().map(f).sum::<usize>();
+    line([
+        &"all frames",
+        &"",
+        &sum(|r| r.frames),
+        &sum(|r| r.symbols),
+        &"",
+        &sum(|r| r.framed[0]),
+        &"",
+        &sum(|r| r.symbols),
+        &sum(|r| r.framed[1]),
+        &sum(|r| r.framed[2]),
+    ]);
+    println!("table: the codec's slots (2^TABLE_BITS), chosen by precast within its flash budget");
+}
+
+/// What a frame costs beyond its symbols, for precast and the baselines.
+fn print_overhead(rows: &[Row]) {
     println!(
-        "{name:<13} {symbols:>7} {symbols:>6} {encoded:>9} {bps:>8.3} {h:>7.3} {:>8.1} {huffman:>11} {deflate:>11}",
-        (bps - h) / h * 100.0
+        "per-frame overhead, bytes: mean(frame bytes) - symbols a frame x long-run rate / 8;\n\
+         long-run rate: the codec's whole day sent as one stream (one compact stream for\n\
+         precast, one raw deflate stream for deflate), its header included\n"
+    );
+    println!(
+        "{:<23} | {:<34} | {:<17} | deflate-6",
+        "", "precast", "huff-only"
+    );
+    let line = |cells: [&dyn Display; 10]| {
+        let [name, per, bytes, rate, over, header, h_rate, h_over, d_rate, d_over] = cells;
+        println!(
+            "{name:<13} {per:>9} | {bytes:>7} {rate:>8} {over:>8} {header:>8} | {h_rate:>8} {h_over:>8} | {d_rate:>8} {d_over:>8}"
+        );
+    };
+    line([
+        &"codec",
+        &"sym/frame",
+        &"B/frame",
+        &"bits/sym",
+        &"overhead",
+        &"(header)",
+        &"bits/sym",
+        &"overhead",
+        &"bits/sym",
+        &"overhead",
+    ]);
+    for r in rows {
+        line([
+            &r.name,
+            &fixed(r.symbols as f64 / r.frames as f64, 1),
+            &fixed(r.framed[0] as f64 / r.frames as f64, 2),
+            &fixed(r.rate(0), 3),
+            &fixed(r.overhead(0), 2),
+            &format!("({:.2})", r.header as f64 / r.frames as f64),
+            &fixed(r.rate(1), 3),
+            &fixed(r.overhead(1), 2),
+            &fixed(r.rate(2), 3),
+            &fixed(r.overhead(2), 2),
+        ]);
+    }
+    println!(
+        "(header): the compact header in the precast overhead (check byte, LEB128 count); the\n\
+         rest is the coder's first state (table_bits bits, less the last symbol, which it holds)\n\
+         and padding, less the trailing zeros left out. A deflate frame carries a block header,\n\
+         its own code unless it takes the fixed one, and an end-of-block code; precast's tables\n\
+         sit in flash at both ends of the link."
     );
 }
 
 fn report(gauges: &[Gauge]) -> Result<(), String> {
-    let status: Vec<&[Status]> = gauges.iter().map(|g| g.status.as_slice()).collect();
-    let deltas: Vec<&[u8]> = gauges.iter().map(|g| g.deltas.as_slice()).collect();
-    let notes: Vec<&[u8]> = gauges.iter().map(|g| g.notes.as_slice()).collect();
+    let air = transmit(gauges)?;
+    let checked = gateway(&air.packets, gauges)?;
     let rows = [
-        run(
-            &Codec {
-                name: "gauge_status",
-                encode: gauge_status::encode,
-                decode: gauge_status::decode,
-                max_len: gauge_status::max_encoded_len,
-                raw: |s| s as u8,
-                blank: Status::Ok,
-            },
-            &status,
-        )?,
-        run(
-            &Codec {
-                name: "level_delta",
-                encode: level_delta::encode,
-                decode: level_delta::decode,
-                max_len: level_delta::max_encoded_len,
-                raw: |b| b,
-                blank: 0,
-            },
-            &deltas,
-        )?,
-        run(
-            &Codec {
-                name: "field_notes",
-                encode: field_notes::encode,
-                decode: field_notes::decode,
-                max_len: field_notes::max_encoded_len,
-                raw: |b| b,
-                blank: b' ',
-            },
-            &notes,
-        )?,
+        row(&STATUS, &air.status)?,
+        row(&LEVEL, &air.level)?,
+        row(&NOTES, &air.notes)?,
     ];
-
     let count = |s: Status| {
-        status
+        gauges
             .iter()
-            .flat_map(|g| g.iter())
+            .flat_map(|g| &g.status)
             .filter(|&&x| x == s)
             .count()
     };
-    let note_count = notes
-        .iter()
-        .flat_map(|n| n.iter())
-        .filter(|&&b| b == b'\n')
-        .count();
+    let reading_packets = GAUGES * INTERVALS;
+    let note_packets = air.notes.frames;
     println!(
         "precast demo: one day of {GAUGES} river gauges, a reading every 15 min ({READINGS} each)"
     );
     println!(
-        "storm over gauges {:02}-{:02} from 13:00: {} high_water, {} flood_alarm, {} comms_retry; {note_count} note lines",
+        "storm over gauges {:02}-{:02} from 13:00: {} high_water, {} flood_alarm, {} comms_retry; {note_packets} note lines",
         STORM_GAUGES.start(),
         STORM_GAUGES.end(),
         count(Status::HighWater),
         count(Status::FloodAlarm),
         count(Status::CommsRetry)
     );
-    let streams: Vec<String> = rows.iter().map(|r| r.streams.to_string()).collect();
     println!(
-        "round trip exact for {} per-gauge streams, with precast and with both deflate settings",
-        streams.join(" + ")
+        "radio: each gauge sends a packet every {} h ({PER_PACKET} readings: a status and a level frame), and one per note line",
+        PER_PACKET / 4
     );
     println!(
-        "deflate: raw (no zlib wrapper) on the same per-gauge bytes, huffman-only and level 6"
+        "gateway: {reading_packets} reading + {note_packets} note packets parsed; {checked} compact frames sized with symbol_count, decoded, all exact"
+    );
+    println!(
+        "baselines on the same frames, each round-tripped: raw (1 byte a symbol), raw deflate (no wrapper) huffman-only and level 6"
     );
     println!();
-    println!(
-        "{:<13} {:>7} {:>6} {:>9} {:>8} {:>7} {:>8} {:>11} {:>11}",
-        "codec",
-        "symbols",
-        "raw B",
-        "encoded B",
-        "bits/sym",
-        "entropy",
-        "excess %",
-        "huff-only B",
-        "deflate-6 B"
-    );
-    for r in &rows {
-        print_row(
-            r.name, r.symbols, r.encoded, r.entropy, r.huffman, r.deflate,
-        );
-    }
+    print_frames(&rows);
+    println!();
+    print_overhead(&rows);
+
+    // The same packets with each frame sent another way; the packet headers stay.
+    let framed = [0, 1, 2].map(|i| rows.iter().map(|r| r.framed[i]).sum::<usize>());
     let symbols: usize = rows.iter().map(|r| r.symbols).sum();
-    // Each codec has its own alphabet, so the total entropy is the symbol-weighted mean.
-    let h = rows
-        .iter()
-        .map(|r| r.entropy * r.symbols as f64)
-        .sum::<f64>()
-        / symbols as f64;
-    print_row(
-        "total",
-        symbols,
-        rows.iter().map(|r| r.encoded).sum(),
-        h,
-        rows.iter().map(|r| r.huffman).sum(),
-        rows.iter().map(|r| r.deflate).sum(),
-    );
-    println!();
-    for r in &rows {
-        let bound = r.symbols as f64 * r.entropy / 8.0;
-        let split = (r.encoded - r.one_stream) as f64 / r.streams.saturating_sub(1).max(1) as f64;
-        println!(
-            "{:<13} bound {bound:>5.0} B, ratio {:.3} | as one stream {:>5} B, {:.3} | +{split:.1} B/stream ({:.1} header)",
-            r.name,
-            r.encoded as f64 / bound,
-            r.one_stream,
-            r.one_stream as f64 / bound,
-            r.headers as f64 / r.streams as f64
-        );
+    let on_air: usize = air.packets.iter().map(Vec::len).sum();
+    let packet_headers = reading_packets * READING_HEADER + note_packets * NOTE_HEADER;
+    if on_air != packet_headers + framed[0] {
+        return Err(format!(
+            "packets hold {on_air} B, not {packet_headers} B of packet headers and {} B of frames",
+            framed[0]
+        ));
     }
-    println!("ratio: encoded / bound; per stream: header, final coder state (table bits), padding");
+    println!();
+    println!(
+        "packets on air for the day: {on_air} B with precast frames ({packet_headers} B of it packet headers), {:.0} % of raw",
+        100.0 * on_air as f64 / (packet_headers + symbols) as f64
+    );
+    println!(
+        "the same packets with raw frames {} B, huffman-only {} B, deflate-6 {} B (the radio's own preamble, sync and CRC not counted)",
+        packet_headers + symbols,
+        packet_headers + framed[1],
+        packet_headers + framed[2]
+    );
     Ok(())
 }
 
