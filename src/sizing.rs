@@ -9,8 +9,9 @@
 //!   tagged framing: a rANS stream carries 4 bytes of state per lane, which short untagged
 //!   frames cannot afford. Bytes grow with table_bits, so a method's sizes past the budget
 //!   are never built.
-//! - Without a budget or table_bits: the smallest table whose excess is at most
-//!   [`EXCESS_WARNING_PERCENT`]; if none gets there, the lowest rate (ties to fewer bytes).
+//! - Without a budget or table_bits: the fewest bytes of tables whose excess is at most
+//!   [`EXCESS_WARNING_PERCENT`] (ties to faster decoding), over the same methods and lookups;
+//!   if none gets there, the lowest rate (ties to fewer bytes).
 //! - With zero entropy the excess means nothing: every candidate ties (the smallest wins).
 
 use crate::emit::input::row_count;
@@ -119,13 +120,14 @@ impl Sizing {
 /// the search, smaller tables first.
 pub fn candidates(spec: &CodecSpec) -> Vec<Candidate> {
     let (put_rows, absent) = put_rows(&spec.kind.input(), spec.kind.alphabet_len());
-    let methods: Vec<Method> = if spec.given.method {
+    // The method and lookup are chosen only with the size: a given table_bits keeps them.
+    let methods: Vec<Method> = if spec.given.method || spec.given.table_bits {
         vec![spec.method]
-    } else if spec.flash_budget.is_some() && spec.framing == Framing::Tagged {
+    } else if spec.framing == Framing::Tagged {
         vec![Method::Tans, Method::Rans]
     } else {
-        // Without a budget the method is the default; untagged frames keep tANS.
-        vec![spec.method]
+        // Untagged frames keep tANS.
+        vec![Method::Tans]
     };
     let bits = if spec.given.table_bits {
         spec.table_bits..=spec.table_bits
@@ -136,7 +138,7 @@ pub fn candidates(spec: &CodecSpec) -> Vec<Candidate> {
     for method in methods {
         let lookups: Vec<Lookup> = match method {
             Method::Tans => vec![Lookup::Table],
-            Method::Rans if spec.given.lookup || spec.flash_budget.is_none() => vec![spec.lookup],
+            Method::Rans if spec.given.lookup || spec.given.table_bits => vec![spec.lookup],
             Method::Rans => vec![Lookup::Table, Lookup::Search],
         };
         for lookup in lookups {
@@ -334,10 +336,13 @@ impl<'a> Rates<'a> {
             .min_by_key(|&i| (all[i].speed_rank(), all[i].bytes, all[i].table_bits)))
     }
 
-    /// The smallest candidate within the excess warning, tried in order, and whether one
-    /// was; otherwise the lowest rate, ties to fewer bytes.
+    /// The candidate of fewest bytes within the excess warning (ties to faster decoding,
+    /// then the smaller table), and whether one was; otherwise the lowest rate, ties to
+    /// fewer bytes.
     fn smallest_within(&mut self, all: &[Candidate]) -> Result<(usize, bool)> {
-        for i in 0..all.len() {
+        let mut order: Vec<usize> = (0..all.len()).collect();
+        order.sort_by_key(|&i| (all[i].bytes, all[i].speed_rank(), all[i].table_bits));
+        for i in order {
             let r = self.rate(all, i)?;
             match excess_percent(r, self.entropy) {
                 None => return Ok((i, true)),
