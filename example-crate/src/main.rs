@@ -614,7 +614,7 @@ fn transmit(gauges: &[Gauge]) -> Result<Air, String> {
 /// the gauge sent. Returns the number of frames checked.
 fn gateway(packets: &[Vec<u8>], gauges: &[Gauge]) -> Result<usize, String> {
     let mut readings = vec![[false; INTERVALS]; GAUGES];
-    let mut notes = vec![0usize; GAUGES];
+    let mut notes = [0usize; GAUGES];
     let mut frames = 0;
     for (k, packet) in packets.iter().enumerate() {
         let &[id, tag, ref rest @ ..] = packet.as_slice() else {
