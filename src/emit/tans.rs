@@ -234,27 +234,54 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
     if tans.joined_put() {
         let put_rows = rows.add(input::put_rows(kind, &plan.input, 8, |line, row| {
             let (spend, run) = row.map_or((0, 0x8000), |s| (tans.puts[s].spend, tans.puts[s].run));
-            push_number(line, u64::from(spend) | u64::from(run) << 16);
+            line.push_str("put(");
+            push_number(line, u64::from(spend));
             line.push_str(", ");
+            push_number(line, u64::from(run));
+            line.push_str("), ");
         }));
         return quote! {
             /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
             /// count, the bits above them (`x >> bits`, the copy number whose state comes
-            /// next) and the next state.
+            /// next) and the next state. 64-bit targets load the two halves of the row apart.
+            #[cfg(target_pointer_width = "64")]
             #[inline(always)]
             fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-                let put = PUT[row];
+                let [a, b, c, d] = PUT[row];
+                let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+                let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+                let high = x >> bits;
+                let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+                (bits, high, u32::from(next))
+            }
+
+            /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+            /// count, the bits above them (`x >> bits`, the copy number whose state comes
+            /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+            /// stays under 16 bits, and `run` is a shifted operand.
+            #[cfg(not(target_pointer_width = "64"))]
+            #[inline(always)]
+            fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+                let put = u32::from_le_bytes(PUT[row]);
                 let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
                 let high = x >> bits;
                 let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
                 (bits, high, u32::from(next))
             }
 
-            /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-            /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+            /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+            /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
             /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
             /// a value outside the alphabet.
-            static PUT: [u32; #put_len] = #put_rows;
+            static PUT: [[u8; 4]; #put_len] = #put_rows;
+
+            /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+            /// 32-bit core loads it as one word and a 64-bit one as two halves.
+            const fn put(spend: u16, run: u16) -> [u8; 4] {
+                let [a, b] = spend.to_le_bytes();
+                let [c, d] = run.to_le_bytes();
+                [a, b, c, d]
+            }
         };
     }
     let spend_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
@@ -291,7 +318,7 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
 /// A row's absent flag (not zero for an input value outside the alphabet).
 pub fn absent(tans: &Tans, row: TokenStream) -> TokenStream {
     if tans.joined_put() {
-        quote!(PUT[#row] >> 31)
+        quote!(u32::from(PUT[#row][3] >> 7))
     } else {
         quote!(u32::from(RUN[#row] >> 15))
     }

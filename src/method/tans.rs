@@ -207,7 +207,13 @@ pub fn layout(table_bits: u32, symbol_bytes: usize, put_rows: usize) -> TableLay
         LayoutEntry::new("STEPS", "step", l, &[step], Decode),
     ];
     if joined_put(table_bits) {
-        tables.push(LayoutEntry::new("PUT", "u32", put_rows, &[4], Encode));
+        tables.push(LayoutEntry::new(
+            "PUT",
+            "[u8; 4]",
+            put_rows,
+            &[1, 1, 1, 1],
+            Encode,
+        ));
     } else {
         tables.push(LayoutEntry::new("SPEND", "u32", put_rows, &[4], Encode));
         tables.push(LayoutEntry::new("RUN", "u16", put_rows, &[2], Encode));

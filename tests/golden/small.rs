@@ -156,37 +156,59 @@ pub mod mit_text {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 124] = [
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 0 ..
-        2147483648, 2147483648, 32838976, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 8 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 16 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 24 ..
-        29690320, 2147483648, 5185024, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 32 ..
-        5382656, 5448192, 2147483648, 2147483648, 4855104, 2147483648, 6168064, 6365696, // 40 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 48 ..
-        2147483648, 2147483648, 6431232, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 56 ..
-        2147483648, 5641344, 7281920, 7346560, 7674240, 7213536, 9050368, 9641216, // 64 ..
-        9442752, 9507296, 2147483648, 11674112, 11344000, 11999744, 11539520, 12325312, // 72 ..
-        14424576, 2147483648, 13832672, 15275264, 15602080, 17832448, 18293248, 18094464, // 80 ..
-        18686464, 18619648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 88 ..
-        2147483648, 18224384, 19470720, 19600896, 20125184, 19665184, 22222976, 22878720, // 96 ..
-        22746496, 22679904, 25371136, 2147483648, 24974848, 25762304, 25302080, 25694464, // 104 ..
-        28514688, 2147483648, 28382464, 28905984, 29495584, 32119040, 32842240, 32643456, // 112 ..
-        2147483648, 33103104, 33432064, 2147483648, // 120 ..
+    static PUT: [[u8; 4]; 124] = [
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 0 ..
+        put(0, 32768), put(0, 32768), put(5440, 501), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 8 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 16 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 24 ..
+        put(2512, 453), put(0, 32768), put(7680, 79), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 32 ..
+        put(8704, 82), put(8704, 83), put(0, 32768), put(0, 32768), put(5440, 74), put(0, 32768), put(7680, 94), put(8704, 97), // 40 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 48 ..
+        put(0, 32768), put(0, 32768), put(8704, 98), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 56 ..
+        put(0, 32768), put(5248, 86), put(7424, 111), put(6528, 112), put(6528, 117), put(4576, 110), put(6400, 138), put(7424, 147), // 64 ..
+        put(5568, 144), put(4576, 145), put(0, 32768), put(8704, 178), put(6272, 173), put(6656, 183), put(5184, 176), put(4544, 188), // 72 ..
+        put(6656, 220), put(0, 32768), put(4576, 211), put(5376, 233), put(4512, 238), put(6656, 272), put(8704, 279), put(6528, 276), // 80 ..
+        put(8704, 285), put(7424, 284), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 88 ..
+        put(0, 32768), put(5376, 278), put(6528, 297), put(5632, 299), put(5632, 307), put(4384, 300), put(6272, 339), put(6656, 349), // 96 ..
+        put(5504, 347), put(4448, 346), put(8704, 387), put(0, 32768), put(5632, 381), put(6656, 393), put(5184, 386), put(4352, 392), // 104 ..
+        put(6528, 435), put(0, 32768), put(5376, 433), put(4608, 441), put(4384, 450), put(6400, 490), put(8704, 501), put(6528, 498), // 112 ..
+        put(0, 32768), put(7424, 505), put(8704, 510), put(0, 32768), // 120 ..
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
@@ -392,7 +414,7 @@ pub mod mit_text {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 state[(n - used + i) % LANES] = start(head, last, 1);
             }
             let mut acc: u64 = 0;
@@ -400,7 +422,7 @@ pub mod mit_text {
             let (rounds, rest) = head.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
                 let row = usize::from(symbol).min(123);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 let x = state[i % LANES];
                 let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
@@ -417,7 +439,7 @@ pub mod mit_text {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(123);
-                        absent |= PUT[row] >> 31;
+                        absent |= u32::from(PUT[row][3] >> 7);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -440,7 +462,7 @@ pub mod mit_text {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(123);
-                        absent |= PUT[row] >> 31;
+                        absent |= u32::from(PUT[row][3] >> 7);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -453,7 +475,9 @@ pub mod mit_text {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| PUT[usize::from(symbol).min(123)] >> 31 != 0)
+                    .position(|&symbol| {
+                        u32::from(PUT[usize::from(symbol).min(123)][3] >> 7) != 0
+                    })
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
@@ -652,7 +676,7 @@ pub mod mit_text {
                 let lane = self.lane % LANES;
                 let row = usize::from(symbol).min(123);
                 let mut absent = 0u32;
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
@@ -753,7 +777,7 @@ pub mod mit_text {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 state[(n - used + i) % LANES] = start(head, last, 1);
             }
             let acc: u32 = 1;
@@ -772,7 +796,9 @@ pub mod mit_text {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| PUT[usize::from(symbol).min(123)] >> 31 != 0)
+                    .position(|&symbol| {
+                        u32::from(PUT[usize::from(symbol).min(123)][3] >> 7) != 0
+                    })
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
@@ -1176,22 +1202,44 @@ pub mod five {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 5] = [
-        3145920, 192, 1245464, 2294064, 3014968, // a ..
+    static PUT: [[u8; 4]; 5] = [
+        put(192, 48), put(192, 0), put(280, 19), put(304, 35), put(312, 46), // a ..
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
@@ -2020,22 +2068,44 @@ pub mod skewed {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 2] = [
-        851994, 6685488, // likely ..
+    static PUT: [[u8; 4]; 2] = [
+        put(26, 13), put(816, 102), // likely ..
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
@@ -2875,22 +2945,44 @@ pub mod single {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 1] = [
-        0, // only
+    static PUT: [[u8; 4]; 1] = [
+        put(0, 0), // only
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
@@ -3696,22 +3788,44 @@ pub mod five_bare {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 5] = [
-        3145920, 192, 1245464, 2294064, 3014968, // a ..
+    static PUT: [[u8; 4]; 5] = [
+        put(192, 48), put(192, 0), put(280, 19), put(304, 35), put(312, 46), // a ..
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
@@ -5044,22 +5158,44 @@ pub mod skewed_l8 {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 2] = [
-        851994, 6685488, // likely ..
+    static PUT: [[u8; 4]; 2] = [
+        put(26, 13), put(816, 102), // likely ..
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
