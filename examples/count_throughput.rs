@@ -111,8 +111,12 @@ fn main() {
     for threads in [1, cores] {
         let t = best(|| {
             std::hint::black_box(
-                precast::load::count_files(&[byte_file.clone()], CountKind::Bytes, threads)
-                    .unwrap(),
+                precast::load::count_files(
+                    std::slice::from_ref(&byte_file),
+                    CountKind::Bytes,
+                    threads,
+                )
+                .unwrap(),
             );
         });
         println!(
@@ -122,8 +126,12 @@ fn main() {
         );
         let t = best(|| {
             std::hint::black_box(
-                precast::load::count_files(&[token_file.clone()], CountKind::Tokens, threads)
-                    .unwrap(),
+                precast::load::count_files(
+                    std::slice::from_ref(&token_file),
+                    CountKind::Tokens,
+                    threads,
+                )
+                .unwrap(),
             );
         });
         println!(

@@ -10,7 +10,7 @@
 //!
 //! The first line names the format and its version, the second the kind; then one
 //! `KEY COUNT` line per symbol that occurs, keys written as in a spec's `counts` (bytes:
-//! decimal byte values; tokens: names), in byte order of the key for bytes by value.
+//! decimal byte values; tokens: names), bytes by value, tokens in byte order of the name.
 //! Lines starting with `#` and blank lines are ignored.
 
 use std::collections::BTreeMap;

@@ -565,7 +565,7 @@ pub fn markdown(plan: &crate::plan::CodecPlan) -> String {
     line(String::new());
     match frame_cost(plan) {
         Some(f) => line(format!(
-            "A {FRAME_SYMBOLS}-symbol frame in {} takes {:.2} bytes on average ({} of header), {:.2} bytes above its symbols' own {:.1} bits. Measured with the reference coder on {FRAMES_DRAWN} frames drawn i.i.d. from the training counts by SplitMix64 with the fixed seed 0x{FRAME_SEED:016x}.",
+            "A {FRAME_SYMBOLS}-symbol frame ({}) takes {:.2} bytes on average ({} of header), {:.2} bytes above its symbols' own {:.1} bits. Measured with the reference coder on {FRAMES_DRAWN} frames drawn i.i.d. from the training counts by SplitMix64 with the fixed seed 0x{FRAME_SEED:016x}.",
             r.framing,
             f.bytes,
             f.header,

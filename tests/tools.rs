@@ -342,8 +342,12 @@ fn counting_in_pieces_on_many_threads_equals_a_plain_count() {
     let corpus = token_corpus(&mut rng, 2_600_000);
     let file = dir.join("corpus.txt");
     std::fs::write(&file, &corpus).unwrap();
-    let tally =
-        precast::load::count_files(&[file.clone()], precast::counts::CountKind::Tokens, 3).unwrap();
+    let tally = precast::load::count_files(
+        std::slice::from_ref(&file),
+        precast::counts::CountKind::Tokens,
+        3,
+    )
+    .unwrap();
     let mut plain = std::collections::BTreeMap::<String, u64>::new();
     for w in corpus.split_ascii_whitespace() {
         *plain.entry(w.to_string()).or_default() += 1;

@@ -181,12 +181,20 @@ fn inspect(
                 };
                 let _ = writeln!(out, "fingerprint check: {whose}");
                 return Err(format!(
-                    "byte offset 0: expected {} of codec `{name}`; the stream's {whose}",
+                    "byte offset 0: expected {} of codec `{name}`; the stream's {}",
                     if id_len == 2 {
                         format!("fingerprint 0x{:04x}", plan.fingerprint)
                     } else {
                         format!("check byte 0x{:02x}", check_byte(plan.fingerprint))
+                    },
+                    if id_len == 2 {
+                        "fingerprint"
+                    } else {
+                        "check byte"
                     }
+                    .to_string()
+                        + " "
+                        + &whose
                 ));
             }
             let (n, end) = leb128(stream, id_len)?;
