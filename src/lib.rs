@@ -50,6 +50,7 @@
 // does not matter.
 #![allow(clippy::result_large_err)]
 
+pub mod counts;
 pub mod emit;
 pub mod error;
 pub mod kind;
@@ -61,6 +62,7 @@ pub mod quantize;
 pub mod report;
 pub mod sizing;
 pub mod spec;
+pub mod stamp;
 pub mod verify;
 
 /// The methods' table builders under one stable path, for tests and tools.
@@ -133,6 +135,36 @@ pub fn build_codec(codec: &spec::CodecSpec) -> Result<Built> {
 }
 
 fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
+    let planned = plan_parsed(spec, text)?;
+    let source = emit::file(&planned.plans, planned.spec_hash)?;
+    Ok(Rendered {
+        source,
+        reports: planned.plans.into_iter().map(|p| p.report).collect(),
+        inputs: planned.inputs,
+        warnings: planned.warnings,
+    })
+}
+
+/// Every codec of a spec planned, before emission: what the tools (`report`, `check`,
+/// `inspect`) read; `render` emits exactly these plans.
+#[derive(Debug, Clone)]
+pub struct Planned {
+    pub plans: Vec<plan::CodecPlan>,
+    /// The hash in the generated file's header (spec text and every training file).
+    pub spec_hash: u64,
+    /// Training files (samples and counts files), in spec order.
+    pub inputs: Vec<PathBuf>,
+    /// Advice for the build log.
+    pub warnings: Vec<String>,
+}
+
+/// Reads and plans every codec of the spec at `path`.
+pub fn plan_spec(path: impl AsRef<Path>) -> Result<Planned> {
+    let (spec, text) = spec::load(path.as_ref())?;
+    plan_parsed(&spec, &text)
+}
+
+fn plan_parsed(spec: &spec::Spec, text: &str) -> Result<Planned> {
     let mut plans = Vec::with_capacity(spec.codecs.len());
     let mut inputs = Vec::new();
     let mut warnings = Vec::new();
@@ -145,17 +177,18 @@ fn run(spec: &spec::Spec, text: &str) -> Result<Rendered> {
         let samples = load::samples(codec, &mut hash)?;
         let plan = plan::plan(codec, samples)?;
         for source in &codec.sources {
-            if let spec::Source::Sample { path, .. } = source {
+            if let spec::Source::Sample { path, .. } | spec::Source::CountsFile { path, .. } =
+                source
+            {
                 inputs.push(path.clone());
             }
         }
         warnings.extend(advice(&plan));
         plans.push(plan);
     }
-    let source = emit::file(&plans, hash.finish())?;
-    Ok(Rendered {
-        source,
-        reports: plans.into_iter().map(|p| p.report).collect(),
+    Ok(Planned {
+        plans,
+        spec_hash: hash.finish(),
         inputs,
         warnings,
     })

@@ -73,6 +73,16 @@ pub fn build(codec: &CodecSpec, samples: Vec<Sample>) -> Result<Model> {
                     symbols,
                 });
             }
+            Source::CountsFile { declared, .. } => {
+                let Some(file) = files.next() else {
+                    return Err(Error::internal(format!(
+                        "counts_file \"{declared}\" was not loaded"
+                    )));
+                };
+                for (slot, c) in counts.iter_mut().zip(&file.counts) {
+                    *slot = slot.saturating_add(*c);
+                }
+            }
             Source::Sample { declared, .. } => {
                 let Some(sample) = files.next() else {
                     return Err(Error::internal(format!(

@@ -55,6 +55,17 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
         }
         e.in_codec(&spec.name)
     };
+    // Training files and their hashes, in the order of the sources, for the report.
+    let files: Vec<(String, u64)> = spec
+        .sources
+        .iter()
+        .filter_map(|s| match s {
+            crate::spec::Source::Sample { declared, .. }
+            | crate::spec::Source::CountsFile { declared, .. } => Some(declared.clone()),
+            _ => None,
+        })
+        .zip(samples.iter().map(|s| s.hash))
+        .collect();
     let model = model::build(spec, samples).map_err(in_codec)?;
     let input = spec.kind.input();
     let (rows, absent) = sizing::put_rows(&input, spec.kind.alphabet_len());
@@ -91,7 +102,8 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
     );
     let verified = verify::verify(&set.tables, fingerprint, spec.framing, spec.lanes, &model)
         .map_err(in_codec)?;
-    let report = report::build(&spec, &model, &set, verified.clone(), sizing);
+    let mut report = report::build(&spec, &model, &set, verified.clone(), sizing);
+    report.files = files;
     Ok(CodecPlan {
         spec,
         model,

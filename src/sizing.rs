@@ -418,3 +418,25 @@ impl<'a> Rates<'a> {
         Ok(BudgetHint::Unreachable { best })
     }
 }
+
+/// Every size the report plots: each table_bits from the smallest that holds the alphabet,
+/// over the methods and lookups the spec leaves open (the given ones when `table_bits` is
+/// given), each with its rate. The same candidates and rates as the choice.
+pub fn curve(spec: &CodecSpec, counts: &[u64], probabilities: &[f64]) -> Result<Vec<Weighed>> {
+    let mut open = spec.clone();
+    if spec.given.table_bits {
+        open.given.method = true;
+        open.given.lookup = true;
+        open.given.table_bits = false;
+    }
+    let all = candidates(&open);
+    let mut rates = Rates::new(counts, probabilities, all.len());
+    let mut out = Vec::with_capacity(all.len());
+    for (i, c) in all.iter().enumerate() {
+        out.push(Weighed {
+            candidate: *c,
+            rate: rates.rate(&all, i)?,
+        });
+    }
+    Ok(out)
+}

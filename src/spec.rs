@@ -100,6 +100,12 @@ pub enum Source {
         path: PathBuf,
         location: Location,
     },
+    /// A counts file (written by `precast count`), `path` resolved against the spec's folder.
+    CountsFile {
+        declared: String,
+        path: PathBuf,
+        location: Location,
+    },
 }
 
 /// Which of the sizing keys a codec sets (itself or through `[defaults]`). `plan::plan`
@@ -156,6 +162,7 @@ pub const CODEC_KEYS: &[&str] = &[
     "counts",
     "text",
     "samples",
+    "counts_file",
 ];
 
 /// Reads and validates the spec file at `path`; returns it with its text.
@@ -430,13 +437,13 @@ impl Checker<'_> {
         };
 
         let sources = self.sources(keys, alphabet.as_deref(), &mut fail);
-        let declared = ["counts", "text", "samples"]
+        let declared = ["counts", "text", "samples", "counts_file"]
             .iter()
             .any(|k| keys.get(k).is_some());
         if !declared {
             fail(
                 span.clone(),
-                "no training data: give at least one of `counts`, `text` or `samples`".to_string(),
+                "no training data: give at least one of `counts`, `text`, `samples` or `counts_file`".to_string(),
             );
         }
 
@@ -553,6 +560,19 @@ impl Checker<'_> {
                     v.span(),
                     type_error("samples", "a path or a list of paths", other),
                 ),
+            }
+        }
+        if let Some(v) = keys.get("counts_file") {
+            match v.get_ref() {
+                DeValue::String(s) if s.is_empty() => {
+                    fail(v.span(), "empty counts_file path".to_string())
+                }
+                DeValue::String(s) => sources.push(Source::CountsFile {
+                    path: self.path.parent().unwrap_or(Path::new("")).join(s.as_ref()),
+                    declared: s.to_string(),
+                    location: Location::at(self.path, self.text, v.span().start),
+                }),
+                other => fail(v.span(), type_error("counts_file", "a path string", other)),
             }
         }
         sources

@@ -31,6 +31,31 @@ fn golden_file_is_fresh() {
     );
 }
 
+/// The demo commits its generated source for review (`example-crate/generated/codecs.rs`);
+/// it must be what `precast render example-crate/codecs.toml` writes. `PRECAST_BLESS=1`
+/// rewrites it, as for the golden file; `precast check` says the same from the command line.
+#[test]
+fn demo_generated_source_is_fresh() {
+    let path = root().join("example-crate/generated/codecs.rs");
+    let fresh = precast::render(root().join("example-crate/codecs.toml"))
+        .expect("renders")
+        .source;
+    if std::env::var_os("PRECAST_BLESS").is_some() {
+        std::fs::create_dir_all(path.parent().unwrap()).unwrap();
+        std::fs::write(&path, &fresh).expect("writes the demo's source");
+        return;
+    }
+    let committed = std::fs::read_to_string(&path)
+        .expect("the demo's generated source is committed")
+        .replace("\r\n", "\n");
+    let why = precast::stamp::differences(&committed, &fresh);
+    assert!(
+        why.is_empty(),
+        "example-crate/generated/codecs.rs is stale ({}): run `PRECAST_BLESS=1 cargo test --test generated` and review the diff",
+        why.join("; ")
+    );
+}
+
 #[test]
 fn rendering_is_byte_identical_across_runs() {
     let a = precast::render(root().join("tests/specs/small.toml")).unwrap();

@@ -582,7 +582,7 @@ fn missing() -> Vec<Case> {
         Case::new("missing_symbols_with_kind_from_defaults", &["[defaults]", "kind = \"tokens\"", "", "[codec.a]", "counts = { ok = 1 }"])
             .at(4, 1, "a", "missing key `symbols`"),
         Case::new("no_training_data", &["[codec.a]", "kind = \"bytes\"", "symbols = \"ab\"", "lanes = 2"])
-            .at(1, 1, "a", "no training data: give at least one of `counts`, `text` or `samples`"),
+            .at(1, 1, "a", "no training data: give at least one of `counts`, `text`, `samples` or `counts_file`"),
         Case::new("samples_empty_list", &["[codec.a]", "kind = \"bytes\"", "samples = []"])
             .at(3, 11, "a", "`samples` is empty"),
         Case::new("sample_path_empty_in_a_list", &["[codec.a]", "kind = \"bytes\"", "samples = [\"a.txt\", \"\"]"])

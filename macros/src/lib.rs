@@ -2,6 +2,12 @@
 //! place, to the same code a build script would write. The path is taken from the calling
 //! crate's `CARGO_MANIFEST_DIR`. It adds nothing to the core: it finds the file, calls
 //! [`precast::render`], and turns errors into compile errors at the path literal.
+//!
+//! Advice (the build log's `cargo:warning=` lines of `precast::build`) becomes compiler
+//! warnings at the path literal. Stable Rust has no warning API for proc macros
+//! (`proc_macro::Diagnostic` is nightly-only), so each piece of advice is the note of a
+//! `#[deprecated]` constant that the expansion uses once: rustc reports it as a
+//! `deprecated` warning naming the advice. `#[allow(deprecated)]` on the call silences it.
 
 #![forbid(unsafe_code)]
 
@@ -53,5 +59,17 @@ pub fn codecs(input: TokenStream) -> TokenStream {
         }
     };
     let tracked = rendered.inputs.iter().map(track);
-    quote!(#code #(#tracked)*).into()
+    let advice = rendered.warnings.iter().map(|w| {
+        let note = format!("precast advice: {w}");
+        let name = syn::Ident::new("precast_advice", lit.span());
+        quote::quote_spanned! {lit.span()=>
+            const _: () = {
+                #[deprecated(note = #note)]
+                #[allow(non_upper_case_globals)]
+                const #name: () = ();
+                #name
+            };
+        }
+    });
+    quote!(#code #(#tracked)* #(#advice)*).into()
 }

@@ -1,6 +1,9 @@
 //! Every method × lanes × framing combination of `tests/specs/matrix.toml`, expanded in place
 //! by the proc macro and tied byte for byte to the in-process reference coder.
 
+// These specs carry advice on purpose; the macro reports advice as `deprecated` warnings.
+#![allow(deprecated)]
+
 precast_macros::codecs!("../tests/specs/matrix.toml");
 
 use precast::spec::Framing;

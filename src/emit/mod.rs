@@ -42,6 +42,8 @@ pub fn file(plans: &[CodecPlan], spec_hash: u64) -> Result<String> {
                 saved.display()
             ))
         })?;
+        // Read back by `precast check` to say why a file is stale.
+        out.push_str(&crate::stamp::Stamp::of(plan).line());
         out.push_str(&rows.splice(&prettyplease::unparse(&parsed))?);
         if out.len() > MAX_OUTPUT_BYTES {
             return Err(Error::input(
