@@ -188,23 +188,45 @@ pub mod gauge_status {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 12] = [
-        917532, 3146304, 3343040, 3408576, 3474112, 3539648, 3539520, 3736256, // ok ..
-        3801792, 3801664, 3998400, 4063936, // clock_drift ..
+    static PUT: [[u8; 4]; 12] = [
+        put(28, 14), put(576, 48), put(704, 51), put(704, 52), put(704, 53), put(704, 54), put(576, 54), put(704, 57), // ok ..
+        put(704, 58), put(576, 58), put(704, 61), put(704, 62), // clock_drift ..
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
@@ -1149,26 +1171,48 @@ pub mod level_delta {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 33] = [
-        9568840, 4588736, 7210176, 11470880, 12519488, 14027456, 14355136, 14880000, // 0 ..
-        15011072, 15208192, 15273728, 15339264, 15404800, 15470336, 15535872, 15601408, // 8 ..
-        15666944, 15732480, 15798016, 15863552, 15929088, 15994624, 16060160, 16125696, // 16 ..
-        16191232, 16256768, 16322304, 16387840, 16453376, 16518912, 16584448, 16649984, // 24 ..
-        2147483648, // 32
+    static PUT: [[u8; 4]; 33] = [
+        put(584, 146), put(1216, 70), put(1216, 110), put(2080, 175), put(2112, 191), put(2752, 214), put(2752, 219), put(3328, 227), // 0 ..
+        put(3328, 229), put(3840, 232), put(3840, 233), put(3840, 234), put(3840, 235), put(3840, 236), put(3840, 237), put(3840, 238), // 8 ..
+        put(3840, 239), put(3840, 240), put(3840, 241), put(3840, 242), put(3840, 243), put(3840, 244), put(3840, 245), put(3840, 246), // 16 ..
+        put(3840, 247), put(3840, 248), put(3840, 249), put(3840, 250), put(3840, 251), put(3840, 252), put(3840, 253), put(3840, 254), // 24 ..
+        put(0, 32768), // 32
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
@@ -1384,7 +1428,7 @@ pub mod level_delta {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(32);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 state[(n - used + i) % LANES] = start(
                     head,
                     last,
@@ -1396,7 +1440,7 @@ pub mod level_delta {
             let (rounds, rest) = head.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
                 let row = usize::from(symbol).min(32);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 let x = state[i % LANES];
                 let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
@@ -1413,7 +1457,7 @@ pub mod level_delta {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(32);
-                        absent |= PUT[row] >> 31;
+                        absent |= u32::from(PUT[row][3] >> 7);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -1436,7 +1480,7 @@ pub mod level_delta {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(32);
-                        absent |= PUT[row] >> 31;
+                        absent |= u32::from(PUT[row][3] >> 7);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -1449,7 +1493,9 @@ pub mod level_delta {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| PUT[usize::from(symbol).min(32)] >> 31 != 0)
+                    .position(|&symbol| {
+                        u32::from(PUT[usize::from(symbol).min(32)][3] >> 7) != 0
+                    })
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
@@ -1661,7 +1707,7 @@ pub mod level_delta {
                 let lane = self.lane % LANES;
                 let row = usize::from(symbol).min(32);
                 let mut absent = 0u32;
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
@@ -1762,7 +1808,7 @@ pub mod level_delta {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(32);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 state[(n - used + i) % LANES] = start(
                     head,
                     last,
@@ -1785,7 +1831,9 @@ pub mod level_delta {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| PUT[usize::from(symbol).min(32)] >> 31 != 0)
+                    .position(|&symbol| {
+                        u32::from(PUT[usize::from(symbol).min(32)][3] >> 7) != 0
+                    })
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
@@ -2205,37 +2253,59 @@ pub mod field_notes {
     }
     /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
     /// count, the bits above them (`x >> bits`, the copy number whose state comes
-    /// next) and the next state.
+    /// next) and the next state. 64-bit targets load the two halves of the row apart.
+    #[cfg(target_pointer_width = "64")]
     #[inline(always)]
     fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-        let put = PUT[row];
+        let [a, b, c, d] = PUT[row];
+        let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
+        let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
+        let high = x >> bits;
+        let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+        (bits, high, u32::from(next))
+    }
+    /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
+    /// count, the bits above them (`x >> bits`, the copy number whose state comes
+    /// next) and the next state. 32-bit targets load the row as one word: `x + spend`
+    /// stays under 16 bits, and `run` is a shifted operand.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
+        let put = u32::from_le_bytes(PUT[row]);
         let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
         let high = x >> bits;
         let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
         (bits, high, u32::from(next))
     }
-    /// Encoding, by input value: `spend | run << 16`. From state `x` the encoder
-    /// writes `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
+    /// Encoding, by input value: `put(spend, run)`. From state `x` the encoder writes
+    /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
     /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
     /// a value outside the alphabet.
-    static PUT: [u32; 124] = [
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 0 ..
-        2147483648, 2147483648, 16387200, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 8 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 16 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 24 ..
-        10355904, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 16322304, // 32 ..
-        16387840, 16453376, 2147483648, 2147483648, 15666304, 16191232, 15338240, 16256768, // 40 ..
-        11799680, 11996288, 12258560, 12455680, 12521216, 12586752, 12652288, 12717824, // 48 ..
-        12783360, 12848896, 15994624, 15994112, 2147483648, 2147483648, 2147483648, 2147483648, // 56 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 64 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 72 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 80 ..
-        2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, 2147483648, // 88 ..
-        2147483648, 15730432, 855168, 723200, 1181920, 722544, 3804288, 3672320, // 96 ..
-        4393664, 4327584, 5705472, 5639296, 5441760, 6359808, 6228160, 6817952, // 104 ..
-        8064128, 8392448, 7800992, 8521888, 8914688, 10685120, 11209984, 11209472, // 112 ..
-        11669248, 11668736, 11865856, 2147483648, // 120 ..
+    static PUT: [[u8; 4]; 124] = [
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 0 ..
+        put(0, 32768), put(0, 32768), put(3200, 250), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 8 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 16 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 24 ..
+        put(1216, 158), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(3840, 249), // 32 ..
+        put(3840, 250), put(3840, 251), put(0, 32768), put(0, 32768), put(3200, 239), put(3840, 247), put(2816, 234), put(3840, 248), // 40 ..
+        put(3200, 180), put(3200, 183), put(3328, 187), put(3840, 190), put(3840, 191), put(3840, 192), put(3840, 193), put(3840, 194), // 48 ..
+        put(3840, 195), put(3840, 196), put(3840, 244), put(3328, 244), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 56 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 64 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 72 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 80 ..
+        put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), put(0, 32768), // 88 ..
+        put(0, 32768), put(1792, 240), put(3200, 13), put(2304, 11), put(2272, 18), put(1648, 11), put(3200, 58), put(2304, 56), // 96 ..
+        put(2752, 67), put(2208, 66), put(3840, 87), put(3200, 86), put(2272, 83), put(2816, 97), put(2240, 95), put(2208, 104), // 104 ..
+        put(3200, 123), put(3840, 128), put(2208, 119), put(2208, 130), put(1792, 136), put(2752, 163), put(3328, 171), put(2816, 171), // 112 ..
+        put(3840, 178), put(3328, 178), put(3840, 181), put(0, 32768), // 120 ..
     ];
+    /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
+    /// 32-bit core loads it as one word and a 64-bit one as two halves.
+    const fn put(spend: u16, run: u16) -> [u8; 4] {
+        let [a, b] = spend.to_le_bytes();
+        let [c, d] = run.to_le_bytes();
+        [a, b, c, d]
+    }
     /// The decode step at table position `i`: its symbol, the bits to read, and the
     /// position they are added to.
     #[inline(always)]
@@ -2451,7 +2521,7 @@ pub mod field_notes {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 state[(n - used + i) % LANES] = start(
                     head,
                     last,
@@ -2463,7 +2533,7 @@ pub mod field_notes {
             let (rounds, rest) = head.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
                 let row = usize::from(symbol).min(123);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 let x = state[i % LANES];
                 let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
@@ -2480,7 +2550,7 @@ pub mod field_notes {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(123);
-                        absent |= PUT[row] >> 31;
+                        absent |= u32::from(PUT[row][3] >> 7);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -2503,7 +2573,7 @@ pub mod field_notes {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(123);
-                        absent |= PUT[row] >> 31;
+                        absent |= u32::from(PUT[row][3] >> 7);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -2516,7 +2586,9 @@ pub mod field_notes {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| PUT[usize::from(symbol).min(123)] >> 31 != 0)
+                    .position(|&symbol| {
+                        u32::from(PUT[usize::from(symbol).min(123)][3] >> 7) != 0
+                    })
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
@@ -2728,7 +2800,7 @@ pub mod field_notes {
                 let lane = self.lane % LANES;
                 let row = usize::from(symbol).min(123);
                 let mut absent = 0u32;
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
@@ -2829,7 +2901,7 @@ pub mod field_notes {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
-                absent |= PUT[row] >> 31;
+                absent |= u32::from(PUT[row][3] >> 7);
                 state[(n - used + i) % LANES] = start(
                     head,
                     last,
@@ -2852,7 +2924,9 @@ pub mod field_notes {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| PUT[usize::from(symbol).min(123)] >> 31 != 0)
+                    .position(|&symbol| {
+                        u32::from(PUT[usize::from(symbol).min(123)][3] >> 7) != 0
+                    })
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
