@@ -106,10 +106,11 @@ pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Sample>> {
                 };
                 if let Some(Misfit { offset, message }) = misfit {
                     let at = locate(path, offset).map_err(cannot)?;
-                    return Err(
-                        Error::input(Some(at), format!("{message} (byte offset {offset})"))
-                            .in_codec(&codec.name),
-                    );
+                    return Err(Error::input(
+                        Some(at),
+                        format!("{message} (byte offset {offset})"),
+                    )
+                    .in_codec(&codec.name));
                 }
                 hash.end_part();
                 out.push(sample);

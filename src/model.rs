@@ -5,10 +5,10 @@
 use crate::error::{Error, Result};
 use crate::kind::integers::{bin_index, Integers};
 use crate::kind::{self, Kind, Misfit};
-use std::collections::BTreeMap;
-use std::sync::Arc;
 use crate::load::Sample;
 use crate::spec::{CodecSpec, Source};
+use std::collections::BTreeMap;
+use std::sync::Arc;
 
 /// One piece of training data as symbol indices, and where it came from (for messages).
 /// A large sample keeps only its first [`crate::load::KEPT_SYMBOLS`] symbols.

@@ -55,6 +55,45 @@ pub struct Report {
     pub flash_budget: Option<usize>,
     /// How open sizes were chosen (`None`: the spec gave them all).
     pub sizing: Option<Sizing>,
+    /// Integers codecs: the figures per value, offset bits included.
+    pub integers: Option<IntegerFigures>,
+}
+
+/// An integers codec's figures, in bits per value.
+#[derive(Debug, Clone)]
+pub struct IntegerFigures {
+    /// Order-0 entropy of the training values (with `delta`, of their differences).
+    pub value_entropy: f64,
+    /// Mean offset bits of the training values.
+    pub offset_bits: f64,
+    /// The bins' coded size: their symbols' entropy plus the offset bits (what the bins
+    /// were chosen to minimise).
+    pub layout_cost: f64,
+    /// The exact rate of the tables plus the offset bits: the size a stream of data like
+    /// the training data comes to, first states and header aside.
+    pub bound: f64,
+    pub bins: usize,
+    pub max_symbols: usize,
+    pub widest: u32,
+}
+
+impl IntegerFigures {
+    fn doc_lines(&self) -> Vec<String> {
+        vec![
+            String::new(),
+            format!(
+                "Values: {} bins (at most {}; aligned power-of-two bins, the partition of the range with the least coded size of the training data), offsets of 0 to {} bits.",
+                self.bins, self.max_symbols, self.widest
+            ),
+            String::new(),
+            "| figure | bits/value |".to_string(),
+            "|---|---|".to_string(),
+            format!("| entropy of the training values | {:.6} |", unsigned(self.value_entropy)),
+            format!("| bins: symbol entropy plus offset bits | {:.6} |", unsigned(self.layout_cost)),
+            format!("| mean offset bits | {:.6} |", unsigned(self.offset_bits)),
+            format!("| exact rate of these tables plus offset bits | {:.6} |", unsigned(self.bound)),
+        ]
+    }
 }
 
 impl Report {
@@ -138,6 +177,9 @@ impl Report {
                 self.training_symbols, self.verified.sequences, self.verified.stream_bytes
             )
         });
+        if let Some(i) = &self.integers {
+            d.extend(i.doc_lines());
+        }
         d.extend(self.sizing_lines());
         d.push(String::new());
         d.push("| symbol | count | slots | ideal bits | coded bits |".to_string());
@@ -313,5 +355,34 @@ pub fn build(
         lines,
         flash_budget: codec.flash_budget,
         sizing,
+        integers: integer_figures(codec, model, set.rate),
     }
+}
+
+/// The per-value figures of an integers codec.
+fn integer_figures(codec: &CodecSpec, model: &Model, rate: f64) -> Option<IntegerFigures> {
+    let ints = codec.kind.integers()?;
+    let counts = &model.place_counts;
+    let total: u64 = counts.values().fold(0u64, |a, &c| a.saturating_add(c));
+    let per_bin = crate::kind::integers::bin_counts(&ints.bins, counts);
+    let offset_bits = if total == 0 {
+        0.0
+    } else {
+        ints.bins
+            .iter()
+            .zip(&per_bin)
+            .map(|(b, &c)| c as f64 * f64::from(b.width))
+            .sum::<f64>()
+            / total as f64
+    };
+    let values: Vec<u64> = counts.values().copied().collect();
+    Some(IntegerFigures {
+        value_entropy: entropy(&values),
+        offset_bits,
+        layout_cost: crate::kind::integers::coded_bits(&ints.bins, counts) / (total.max(1)) as f64,
+        bound: rate + offset_bits,
+        bins: ints.bins.len(),
+        max_symbols: ints.domain.max_symbols,
+        widest: ints.max_width(),
+    })
 }

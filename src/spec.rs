@@ -398,33 +398,33 @@ impl Checker<'_> {
             }
         });
 
-        let alphabet =
-            kind_entry.and_then(
-                |entry| match (entry.read)(keys.get("symbols"), span.clone(), keys) {
-                    Ok(k) => Some(k),
-                    Err(list) => {
-                        for (s, m) in list {
-                            fail(s, m);
-                        }
-                        None
+        let alphabet = kind_entry.and_then(|entry| {
+            match (entry.read)(keys.get("symbols"), span.clone(), keys) {
+                Ok(k) => Some(k),
+                Err(list) => {
+                    for (s, m) in list {
+                        fail(s, m);
                     }
-                },
-            );
+                    None
+                }
+            }
+        });
         // Keys of another kind are mistakes, not silently ignored.
         if let Some(entry) = kind_entry.filter(|e| e.name != "integers") {
             for key in kind::integers::KEYS {
                 if let Some(v) = keys.codec.get(*key) {
                     fail(
                         v.span(),
-                        format!("`{key}` applies to kind = \"integers\", not \"{}\"", entry.name),
+                        format!(
+                            "`{key}` applies to kind = \"integers\", not \"{}\"",
+                            entry.name
+                        ),
                     );
                 }
             }
         }
         // Offset bits ride on the tANS bit stream only.
-        if let (Some(k), Some(Method::Rans), Some(v)) =
-            (&alphabet, method, keys.get(Method::KEY))
-        {
+        if let (Some(k), Some(Method::Rans), Some(v)) = (&alphabet, method, keys.get(Method::KEY)) {
             if k.integers().is_some() {
                 fail(
                     v.span(),

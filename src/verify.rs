@@ -361,7 +361,11 @@ impl<'a> Reference<'a> {
     }
 
     /// [`Reference::decode`] with each symbol's offset (zero for symbols without offset bits).
-    pub fn decode_offsets(&self, stream: &[u8], limit: usize) -> std::result::Result<Decoded, StreamError> {
+    pub fn decode_offsets(
+        &self,
+        stream: &[u8],
+        limit: usize,
+    ) -> std::result::Result<Decoded, StreamError> {
         let pos = match self.framing {
             Framing::Bare => return self.payload(stream, 0, limit),
             Framing::Tagged => {
@@ -581,10 +585,18 @@ pub fn verify(
         };
         for (k, piece) in pieces.into_iter().enumerate() {
             let at = k * VERIFY_STREAM;
-            let offsets = seq.offsets.get(at..(at + piece.len()).min(seq.offsets.len())).unwrap_or(&[]);
+            let offsets = seq
+                .offsets
+                .get(at..(at + piece.len()).min(seq.offsets.len()))
+                .unwrap_or(&[]);
             let stream = coder.encode_offsets(piece, offsets);
             let decoded = coder.decode_offsets(&stream, piece.len());
-            let same = |o: &[u32]| o.iter().zip(piece).enumerate().all(|(i, _)| o[i] == offsets.get(i).copied().unwrap_or(0));
+            let same = |o: &[u32]| {
+                o.iter()
+                    .zip(piece)
+                    .enumerate()
+                    .all(|(i, _)| o[i] == offsets.get(i).copied().unwrap_or(0))
+            };
             match decoded {
                 Ok((symbols, o, used)) if symbols == piece && same(&o) && used == stream.len() => {}
                 other => {

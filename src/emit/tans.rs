@@ -1129,125 +1129,123 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             },
         )
     };
-    let (encode_bind, encode_offset, tail_offsets, offset_items, decode_one) =
-        match parts.integers {
-            None => (
+    let (encode_bind, encode_offset, tail_offsets, offset_items, decode_one) = match parts.integers
+    {
+        None => (
+            quote! {
+                let row = #row;
+                #note_absent
+            },
+            TokenStream::new(),
+            TokenStream::new(),
+            TokenStream::new(),
+            quote! {
+                if self.buf < 1 << MAX_SYMBOL_BITS {
+                    self.buf = reader.refill(self.buf);
+                }
+                let lane = self.lane % LANES;
+                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                *slot = symbol;
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.lane = (lane + 1) % LANES;
+            },
+        ),
+        Some(ints) => {
+            let place = place_of(ints, quote!(symbol), quote!(n - used + i));
+            let tail_loop = tail_loop(ints);
+            let max_state = Literal::u32_unsuffixed(u32::from(parts.max_state_bits));
+            let here = if delta {
+                quote!(place(symbol, before))
+            } else {
+                quote!(place(symbol))
+            };
+            (
+                quote!(let (row, offset, width) = bin(#here);),
+                quote!(self.acc = put_offset(writer, self.acc, offset, width);),
                 quote! {
-                    let row = #row;
-                    #note_absent
+                    // The lanes' last symbols' offsets end the stream.
+                    #tail_loop {
+                        let (_, offset, width) = bin(#place);
+                        acc = put_offset(&mut writer, acc, offset, width);
+                    }
                 },
-                TokenStream::new(),
-                TokenStream::new(),
-                TokenStream::new(),
                 quote! {
-                    if self.buf < 1 << MAX_SYMBOL_BITS {
+                    /// Most bits a symbol's state step costs (its offset bits aside).
+                    const MAX_STATE_BITS: u32 = #max_state;
+
+                    /// Pushes `width` (at most 32) offset bits under the pending bits of
+                    /// `acc`, high piece first, in pieces of at most 16, flushing so that
+                    /// each fits and `MOST` bits stay free after.
+                    #[inline(always)]
+                    fn put_offset(writer: &mut Writer<'_>, acc: u32, offset: u32, width: u32) -> u32 {
+                        let low = if width < 16 { width } else { 16 };
+                        let high = width.wrapping_sub(low);
+                        let mut acc = acc;
+                        if acc >> 16 != 0 {
+                            acc = writer.flush(acc);
+                        }
+                        acc = acc.wrapping_shl(high) | (offset.wrapping_shr(low) & !u32::MAX.wrapping_shl(high));
+                        if acc >> 16 != 0 {
+                            acc = writer.flush(acc);
+                        }
+                        acc = acc.wrapping_shl(low) | (offset & !u32::MAX.wrapping_shl(low));
+                        if acc >> (32 - MOST) != 0 {
+                            acc = writer.flush(acc);
+                        }
+                        acc
+                    }
+
+                    /// `width` (at most 32) offset bits at bit `at` of the payload, in two
+                    /// reads of at most 16 (`peek` holds 25 bits or more).
+                    #[inline(always)]
+                    fn take(payload: &[u8], at: &mut usize, width: u32) -> u32 {
+                        let low = if width < 16 { width } else { 16 };
+                        let high = width.wrapping_sub(low);
+                        let a = peek(payload, *at) & !u32::MAX.wrapping_shl(low);
+                        *at = at.wrapping_add(low as usize);
+                        let b = peek(payload, *at) & !u32::MAX.wrapping_shl(high);
+                        *at = at.wrapping_add(high as usize);
+                        a | b.wrapping_shl(low)
+                    }
+
+                    impl Decoding {
+                        /// The next `width` (at most 32) bits of the stream, in pieces
+                        /// of at most 16, refilling the buffer as it must.
+                        #[inline(always)]
+                        fn offset(&mut self, reader: &mut Reader<'_>, width: u32) -> u32 {
+                            let low = if width < 16 { width } else { 16 };
+                            let high = width.wrapping_sub(low);
+                            if self.buf < 1 << 16 {
+                                self.buf = reader.refill(self.buf);
+                            }
+                            let a = self.buf & !u32::MAX.wrapping_shl(low);
+                            self.buf = self.buf.wrapping_shr(low);
+                            if self.buf < 1 << 16 {
+                                self.buf = reader.refill(self.buf);
+                            }
+                            let b = self.buf & !u32::MAX.wrapping_shl(high);
+                            self.buf = self.buf.wrapping_shr(high);
+                            a | b.wrapping_shl(low)
+                        }
+                    }
+                },
+                quote! {
+                    if self.buf < 1 << MAX_STATE_BITS {
                         self.buf = reader.refill(self.buf);
                     }
                     let lane = self.lane % LANES;
-                    let (symbol, bits, base) = step(self.state[lane] & MASK);
-                    *slot = symbol;
+                    let p = self.state[lane] & MASK;
+                    let (symbol, bits, base) = step(p);
                     self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                     self.buf >>= bits;
+                    let offset = self.offset(reader, u32::from(WIDTHS[p]));
+                    *slot = symbol.wrapping_add(offset as Symbol);
                     self.lane = (lane + 1) % LANES;
                 },
-            ),
-            Some(ints) => {
-                let place = place_of(ints, quote!(symbol), quote!(n - used + i));
-                let tail_loop = tail_loop(ints);
-                let max_state = Literal::u32_unsuffixed(u32::from(
-                    parts.max_state_bits,
-                ));
-                let here = if delta {
-                    quote!(place(symbol, before))
-                } else {
-                    quote!(place(symbol))
-                };
-                (
-                    quote!(let (row, offset, width) = bin(#here);),
-                    quote!(self.acc = put_offset(writer, self.acc, offset, width);),
-                    quote! {
-                        // The lanes' last symbols' offsets end the stream.
-                        #tail_loop {
-                            let (_, offset, width) = bin(#place);
-                            acc = put_offset(&mut writer, acc, offset, width);
-                        }
-                    },
-                    quote! {
-                        /// Most bits a symbol's state step costs (its offset bits aside).
-                        const MAX_STATE_BITS: u32 = #max_state;
-
-                        /// Pushes `width` (at most 32) offset bits under the pending bits of
-                        /// `acc`, high piece first, in pieces of at most 16, flushing so that
-                        /// each fits and `MOST` bits stay free after.
-                        #[inline(always)]
-                        fn put_offset(writer: &mut Writer<'_>, acc: u32, offset: u32, width: u32) -> u32 {
-                            let low = if width < 16 { width } else { 16 };
-                            let high = width.wrapping_sub(low);
-                            let mut acc = acc;
-                            if acc >> 16 != 0 {
-                                acc = writer.flush(acc);
-                            }
-                            acc = acc.wrapping_shl(high) | (offset.wrapping_shr(low) & !u32::MAX.wrapping_shl(high));
-                            if acc >> 16 != 0 {
-                                acc = writer.flush(acc);
-                            }
-                            acc = acc.wrapping_shl(low) | (offset & !u32::MAX.wrapping_shl(low));
-                            if acc >> (32 - MOST) != 0 {
-                                acc = writer.flush(acc);
-                            }
-                            acc
-                        }
-
-                        /// `width` (at most 32) offset bits at bit `at` of the payload, in two
-                        /// reads of at most 16 (`peek` holds 25 bits or more).
-                        #[inline(always)]
-                        fn take(payload: &[u8], at: &mut usize, width: u32) -> u32 {
-                            let low = if width < 16 { width } else { 16 };
-                            let high = width.wrapping_sub(low);
-                            let a = peek(payload, *at) & !u32::MAX.wrapping_shl(low);
-                            *at = at.wrapping_add(low as usize);
-                            let b = peek(payload, *at) & !u32::MAX.wrapping_shl(high);
-                            *at = at.wrapping_add(high as usize);
-                            a | b.wrapping_shl(low)
-                        }
-
-                        impl Decoding {
-                            /// The next `width` (at most 32) bits of the stream, in pieces
-                            /// of at most 16, refilling the buffer as it must.
-                            #[inline(always)]
-                            fn offset(&mut self, reader: &mut Reader<'_>, width: u32) -> u32 {
-                                let low = if width < 16 { width } else { 16 };
-                                let high = width.wrapping_sub(low);
-                                if self.buf < 1 << 16 {
-                                    self.buf = reader.refill(self.buf);
-                                }
-                                let a = self.buf & !u32::MAX.wrapping_shl(low);
-                                self.buf = self.buf.wrapping_shr(low);
-                                if self.buf < 1 << 16 {
-                                    self.buf = reader.refill(self.buf);
-                                }
-                                let b = self.buf & !u32::MAX.wrapping_shl(high);
-                                self.buf = self.buf.wrapping_shr(high);
-                                a | b.wrapping_shl(low)
-                            }
-                        }
-                    },
-                    quote! {
-                        if self.buf < 1 << MAX_STATE_BITS {
-                            self.buf = reader.refill(self.buf);
-                        }
-                        let lane = self.lane % LANES;
-                        let p = self.state[lane] & MASK;
-                        let (symbol, bits, base) = step(p);
-                        self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
-                        self.buf >>= bits;
-                        let offset = self.offset(reader, u32::from(WIDTHS[p]));
-                        *slot = symbol.wrapping_add(offset as Symbol);
-                        self.lane = (lane + 1) % LANES;
-                    },
-                )
-            }
-        };
+            )
+        }
+    };
     let acc_decl = if parts.integers.is_some() {
         quote!(let mut acc: u32 = 1;)
     } else {

@@ -145,9 +145,7 @@ impl Domain {
     /// The place of a coded value (`v` itself, or the delta) in `0 .. N`, if it has one.
     pub fn place_of_coded(&self, coded: i64) -> Option<u32> {
         let u = coded.checked_sub(self.coded_lo())?;
-        (0..self.size() as i64)
-            .contains(&u)
-            .then_some(u as u32)
+        (0..self.size() as i64).contains(&u).then_some(u as u32)
     }
 
     /// The place of value `v` of the range after `prev`: `v - lo`, or the wrapped delta.
@@ -231,11 +229,21 @@ fn read(
                 match (ends[0], ends[1]) {
                     (Some(lo), Some(hi)) if lo <= hi && hi - lo < 1i64 << 32 => Some((lo, hi)),
                     (Some(_), Some(_)) => {
-                        errors.push((v.span(), "`range` = [lo, hi] needs lo <= hi and at most 2^32 values".to_string()));
+                        errors.push((
+                            v.span(),
+                            "`range` = [lo, hi] needs lo <= hi and at most 2^32 values".to_string(),
+                        ));
                         None
                     }
                     _ => {
-                        errors.push((v.span(), format!("`range` ends are integers from {} to {}", i32::MIN, u32::MAX)));
+                        errors.push((
+                            v.span(),
+                            format!(
+                                "`range` ends are integers from {} to {}",
+                                i32::MIN,
+                                u32::MAX
+                            ),
+                        ));
                         None
                     }
                 }
@@ -311,7 +319,10 @@ fn read(
             if lo < t.min() || hi > t.max() {
                 errors.push((
                     span,
-                    format!("value_type \"{}\" does not hold the range [{lo}, {hi}]", t.name()),
+                    format!(
+                        "value_type \"{}\" does not hold the range [{lo}, {hi}]",
+                        t.name()
+                    ),
                 ));
             }
             t
@@ -454,8 +465,8 @@ pub fn choose_bins(size: u64, counts: &BTreeMap<u32, u64>, cap: usize) -> Result
     let root = solve(0, level, size, &sorted, cap);
     let best = at(&root.costs, cap);
     if !best.is_finite() {
-        let fewest = root.costs.iter().position(|c| c.is_finite()).unwrap_or(0);
-        return Err(fewest);
+        // The fewest aligned bins that tile `0 .. size`: one per binary digit of `size`.
+        return Err(size.count_ones() as usize);
     }
     let mut bins = Vec::new();
     collect(&root, 0, level, cap, &mut bins);
@@ -604,7 +615,11 @@ impl Kind for Integers {
                 "count key \"{key}\" is not a decimal integer: an integers codec keys its counts by value, e.g. \"-3\" = 120"
             ));
         };
-        let what = if self.domain.delta { "difference" } else { "value" };
+        let what = if self.domain.delta {
+            "difference"
+        } else {
+            "value"
+        };
         self.domain
             .place_of_coded(v)
             .map(|u| u as usize)
