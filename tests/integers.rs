@@ -105,8 +105,10 @@ fn failure(name: &str, spec: &str, files: &[(&str, &[u8])]) -> String {
     }
     let path = dir.join("codecs.toml");
     std::fs::write(&path, spec).unwrap();
-    let e = precast::render(&path).err().expect("the spec must fail");
-    e.to_string()
+    match precast::render(&path) {
+        Ok(_) => panic!("{name}: the spec must fail"),
+        Err(e) => e.to_string(),
+    }
 }
 
 const SAMPLE_SPEC: &str = r#"

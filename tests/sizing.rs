@@ -120,6 +120,8 @@ impl Rater {
             counts: counts.to_vec(),
             sequences: Vec::new(),
             sequence_symbols: 0,
+            bound: None,
+            place_counts: Default::default(),
         };
         Rater {
             counts: counts.to_vec(),

@@ -514,7 +514,7 @@ fn validate(ints: &Integers) -> TokenStream {
     let above = (d.hi < d.value_type.max()).then(|| quote!(v > HIGHEST));
     let test = match (below, above) {
         (None, None) => return TokenStream::new(),
-        (Some(b), Some(a)) => quote!(#b || #a),
+        (Some(_), Some(_)) => quote!(!(LOWEST..=HIGHEST).contains(&v)),
         (Some(t), None) | (None, Some(t)) => t,
     };
     quote! {

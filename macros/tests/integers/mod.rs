@@ -110,7 +110,7 @@ where
     let weights: Vec<u64> = built.model.place_counts.values().copied().collect();
     let mut rng = Rng(11);
     // Three in four values from the training distribution, one uniform over the range.
-    let mut draw = |rng: &mut Rng, prev: i64| -> i64 {
+    let draw = |rng: &mut Rng, prev: i64| -> i64 {
         let u = if rng.below(4) > 0 {
             places[rng.weighted(&weights)]
         } else {
