@@ -327,11 +327,20 @@ fn read(
             }
             t
         }
-        None => TYPES
+        None => match TYPES
             .iter()
             .map(|t| t.1)
             .find(|t| t.min() <= lo && hi <= t.max())
-            .unwrap_or(ValueType::I32),
+        {
+            Some(t) => t,
+            None => {
+                errors.push((
+                    keys.key("range").map_or(codec, |v| v.span()),
+                    format!("no value type holds the range [{lo}, {hi}]: it spans negative values and values above {}", i32::MAX),
+                ));
+                ValueType::I32
+            }
+        },
     };
     if !errors.is_empty() {
         return Err(errors);
@@ -387,7 +396,7 @@ fn solve(start: u64, level: u32, size: u64, counts: &[(u64, u64)], cap: usize) -
         };
     }
     let inside = end <= size;
-    let count: u64 = counts.iter().map(|c| c.1).sum();
+    let count = counts.iter().fold(0u64, |a, c| a.saturating_add(c.1));
     let leaf = inside.then(|| bin_cost(count, level));
     // A bin without training values costs nothing, so splitting one cannot gain.
     if inside && (count == 0 || level == 0) {
@@ -476,7 +485,7 @@ pub fn choose_bins(size: u64, counts: &BTreeMap<u32, u64>, cap: usize) -> Result
 /// Coded size in bits of `counts` in `bins`: the bin symbols' entropy plus offset bits.
 pub fn coded_bits(bins: &[Bin], counts: &BTreeMap<u32, u64>) -> f64 {
     let per_bin = bin_counts(bins, counts);
-    let total: u64 = per_bin.iter().sum();
+    let total = per_bin.iter().fold(0u64, |a, &c| a.saturating_add(c));
     if total == 0 {
         return 0.0;
     }
