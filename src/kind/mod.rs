@@ -47,7 +47,7 @@ pub fn find(name: &str) -> Option<&'static KindEntry> {
     KINDS.iter().find(|k| k.name == name)
 }
 
-/// `"bytes" or "tokens"`, for messages.
+/// `"bytes", "tokens" or "integers"`, for messages.
 pub fn names() -> String {
     let quoted: Vec<String> = KINDS.iter().map(|k| format!("\"{}\"", k.name)).collect();
     match quoted.split_last() {
