@@ -144,7 +144,6 @@ pub fn body(
             };
             quote! {
                 // The lanes' last symbols read no state bits; their offsets come last.
-                let mut at = at;
                 for (i, slot) in tail.iter_mut().enumerate() {
                     let p = state[(count - used + i) % LANES] & MASK;
                     let width = u32::from(WIDTHS[p]);
@@ -575,7 +574,13 @@ fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStrea
     let coded_lo = Literal::i64_unsuffixed(d.coded_lo());
     let maps = if d.delta {
         let reference = d.value_type.literal(d.reference());
-        let unsigned = d.value_type.unsigned();
+        // A place in a signed type's bits, read back unsigned.
+        let unsigned_place = if d.value_type.min() < 0 {
+            let unsigned = d.value_type.unsigned();
+            quote!(i64::from(u as #unsigned))
+        } else {
+            quote!(i64::from(u))
+        };
         quote! {
             /// The value the first difference is taken from.
             const REFERENCE: Symbol = #reference;
@@ -611,7 +616,7 @@ fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStrea
             /// `before` plus the difference, wrapped back into the range.
             #[inline(always)]
             fn value(u: Symbol, before: Symbol) -> Symbol {
-                let t = i64::from(before) + i64::from(u as #unsigned) + CODED_LO;
+                let t = i64::from(before) + #unsigned_place + CODED_LO;
                 let t = if t > i64::from(HIGHEST) {
                     t - SIZE
                 } else if t < i64::from(LOWEST) {
@@ -1246,10 +1251,14 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             )
         }
     };
-    let acc_decl = if parts.integers.is_some() {
-        quote!(let mut acc: u32 = 1;)
+    // Integers codecs read the lanes' last offsets after the loop: `at` moves on.
+    let (acc_decl, at_decl) = if parts.integers.is_some() {
+        (
+            quote!(let mut acc: u32 = 1;),
+            quote!(let mut at = reader.at(buf);),
+        )
     } else {
-        quote!(let acc: u32 = 1;)
+        (quote!(let acc: u32 = 1;), quote!(let at = reader.at(buf);))
     };
     quote! {
         /// The 32-bit path: a 32-bit bit buffer and one loop for every symbol.
@@ -1486,7 +1495,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 };
                 d.run(&mut reader, head);
                 let Decoding { buf, state, .. } = d;
-                let at = reader.at(buf);
+                #at_decl
                 #decode_tail
                 #decode_end
             }
