@@ -7,6 +7,7 @@ use crate::error::{Error, Location, Result};
 use crate::kind::Misfit;
 use crate::spec::{CodecSpec, Source};
 use crate::verify::Fnv;
+use std::collections::BTreeMap;
 use std::io::{Read, Seek, SeekFrom};
 use std::path::{Path, PathBuf};
 
@@ -47,6 +48,10 @@ pub struct Sample {
     pub total: u64,
     /// FNV-1a of the file's bytes, for reports.
     pub hash: u64,
+    /// Integers codecs (whose symbols are chosen from these): the first [`KEPT_SYMBOLS`]
+    /// places, and the places counted over the whole file.
+    pub places: Vec<u32>,
+    pub place_counts: BTreeMap<u32, u64>,
 }
 
 /// Every sample file and counts file of `codec`, in the order of its sources. Each file is
@@ -76,12 +81,64 @@ pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Sample>> {
                 .in_codec(&codec.name)
             };
             let mut file = open_regular(path).map_err(cannot)?;
+            if let Some(integers) = codec.kind.integers() {
+                let mut scanner = integers.value_scanner();
+                let mut sample = Sample {
+                    counts: Vec::new(),
+                    kept: Vec::new(),
+                    total: 0,
+                    hash: 0,
+                    places: Vec::new(),
+                    place_counts: BTreeMap::new(),
+                };
+                let mut own = Fnv::default();
+                let mut places = Vec::new();
+                let mut block = vec![0u8; BLOCK];
+                let misfit = loop {
+                    places.clear();
+                    let (n, result) = match file.read(&mut block) {
+                        Ok(0) => (0, scanner.finish(&mut places)),
+                        Ok(n) => (n, scanner.feed(&block[..n], &mut places)),
+                        Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
+                        Err(e) => return Err(cannot(e.to_string())),
+                    };
+                    hash.write(&block[..n]);
+                    own.write(&block[..n]);
+                    for &u in &places {
+                        *sample.place_counts.entry(u).or_insert(0) += 1;
+                    }
+                    sample.total += places.len() as u64;
+                    let room = KEPT_SYMBOLS - sample.places.len();
+                    sample
+                        .places
+                        .extend_from_slice(&places[..places.len().min(room)]);
+                    match result {
+                        Err(m) => break Some(m),
+                        Ok(()) if n == 0 => break None,
+                        Ok(()) => {}
+                    }
+                };
+                if let Some(Misfit { offset, message }) = misfit {
+                    let at = locate(path, offset).map_err(cannot)?;
+                    return Err(Error::input(
+                        Some(at),
+                        format!("{message} (byte offset {offset})"),
+                    )
+                    .in_codec(&codec.name));
+                }
+                hash.end_part();
+                sample.hash = own.finish();
+                out.push(sample);
+                continue;
+            }
             let mut scanner = codec.kind.scanner();
             let mut sample = Sample {
                 counts: vec![0; codec.kind.alphabet_len()],
                 kept: Vec::new(),
                 total: 0,
                 hash: 0,
+                places: Vec::new(),
+                place_counts: BTreeMap::new(),
             };
             let mut own = Fnv::default();
             let mut symbols = Vec::new();
@@ -215,6 +272,8 @@ fn counts_file(
         kept: Vec::new(),
         total: 0,
         hash: crate::verify::fnv1a(&[text.as_bytes()]),
+        places: Vec::new(),
+        place_counts: BTreeMap::new(),
     };
     for (key, count) in tally.entries() {
         let index = kind.count_key(&key).map_err(|m| {

@@ -67,6 +67,18 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
         .zip(samples.iter().map(|s| s.hash))
         .collect();
     let model = model::build(spec, samples).map_err(in_codec)?;
+    // An integers codec's alphabet (its bins) comes from the training data.
+    let bound;
+    let spec = match &model.bound {
+        Some(kind) => {
+            bound = CodecSpec {
+                kind: kind.clone(),
+                ..spec.clone()
+            };
+            &bound
+        }
+        None => spec,
+    };
     let input = spec.kind.input();
     let (rows, absent) = sizing::put_rows(&input, spec.kind.alphabet_len());
     let probabilities = model.probabilities();
@@ -126,7 +138,8 @@ pub fn table_set(
 ) -> Result<TableSet> {
     let slots = quantize::quantize(counts, table_bits)?;
     let (tables, rate) = Tables::build(spec.method, &slots, counts, probabilities, table_bits)?;
-    let layout = tables.layout(spec.lookup, spec.kind.symbol_bytes(), rows, absent);
+    let mut layout = tables.layout(spec.lookup, spec.kind.symbol_bytes(), rows, absent);
+    layout.tables.extend(spec.kind.extra_tables(table_bits));
     Ok(TableSet {
         slots,
         tables,

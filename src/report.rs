@@ -63,6 +63,45 @@ pub struct Report {
     pub layout: TableLayout,
     /// Training files (samples and counts files) as declared, with the FNV-1a of their bytes.
     pub files: Vec<(String, u64)>,
+    /// Integers codecs: the figures per value, offset bits included.
+    pub integers: Option<IntegerFigures>,
+}
+
+/// An integers codec's figures, in bits per value.
+#[derive(Debug, Clone)]
+pub struct IntegerFigures {
+    /// Order-0 entropy of the training values (with `delta`, of their differences).
+    pub value_entropy: f64,
+    /// Mean offset bits of the training values.
+    pub offset_bits: f64,
+    /// The bins' coded size: their symbols' entropy plus the offset bits (what the bins
+    /// were chosen to minimise).
+    pub layout_cost: f64,
+    /// The exact rate of the tables plus the offset bits: the size a stream of data like
+    /// the training data comes to, first states and header aside.
+    pub bound: f64,
+    pub bins: usize,
+    pub max_symbols: usize,
+    pub widest: u32,
+}
+
+impl IntegerFigures {
+    fn doc_lines(&self) -> Vec<String> {
+        vec![
+            String::new(),
+            format!(
+                "Values: {} bins (at most {}; aligned power-of-two bins, the partition of the range with the least coded size of the training data), offsets of 0 to {} bits.",
+                self.bins, self.max_symbols, self.widest
+            ),
+            String::new(),
+            "| figure | bits/value |".to_string(),
+            "|---|---|".to_string(),
+            format!("| entropy of the training values | {:.6} |", unsigned(self.value_entropy)),
+            format!("| bins: symbol entropy plus offset bits | {:.6} |", unsigned(self.layout_cost)),
+            format!("| mean offset bits | {:.6} |", unsigned(self.offset_bits)),
+            format!("| exact rate of these tables plus offset bits | {:.6} |", unsigned(self.bound)),
+        ]
+    }
 }
 
 impl Report {
@@ -159,6 +198,9 @@ impl Report {
                 unsigned(h),
                 unsigned(self.saving_percent().unwrap_or(0.0))
             ));
+        }
+        if let Some(i) = &self.integers {
+            d.extend(i.doc_lines());
         }
         d.extend(self.sizing_lines());
         d.push(String::new());
@@ -338,6 +380,7 @@ pub fn build(
         huffman: huffman_average(counts),
         layout: set.layout.clone(),
         files: Vec::new(),
+        integers: integer_figures(codec, model, set.rate),
     }
 }
 
@@ -611,4 +654,32 @@ pub fn markdown(plan: &crate::plan::CodecPlan) -> String {
         ));
     }
     m
+}
+
+/// The per-value figures of an integers codec.
+fn integer_figures(codec: &CodecSpec, model: &Model, rate: f64) -> Option<IntegerFigures> {
+    let ints = codec.kind.integers()?;
+    let counts = &model.place_counts;
+    let total: u64 = counts.values().fold(0u64, |a, &c| a.saturating_add(c));
+    let per_bin = crate::kind::integers::bin_counts(&ints.bins, counts);
+    let offset_bits = if total == 0 {
+        0.0
+    } else {
+        ints.bins
+            .iter()
+            .zip(&per_bin)
+            .map(|(b, &c)| c as f64 * f64::from(b.width))
+            .sum::<f64>()
+            / total as f64
+    };
+    let values: Vec<u64> = counts.values().copied().collect();
+    Some(IntegerFigures {
+        value_entropy: entropy(&values),
+        offset_bits,
+        layout_cost: crate::kind::integers::coded_bits(&ints.bins, counts) / (total.max(1)) as f64,
+        bound: rate + offset_bits,
+        bins: ints.bins.len(),
+        max_symbols: ints.domain.max_symbols,
+        widest: ints.max_width(),
+    })
 }

@@ -123,7 +123,8 @@ pub fn candidates(spec: &CodecSpec) -> Vec<Candidate> {
     // The method and lookup are chosen only with the size: a given table_bits keeps them.
     let methods: Vec<Method> = if spec.given.method || spec.given.table_bits {
         vec![spec.method]
-    } else if spec.framing == Framing::Tagged {
+    } else if spec.framing == Framing::Tagged && spec.kind.integers().is_none() {
+        // Offset bits (integers) ride on the tANS bit stream only.
         vec![Method::Tans, Method::Rans]
     } else {
         // Untagged frames keep tANS.
@@ -143,7 +144,7 @@ pub fn candidates(spec: &CodecSpec) -> Vec<Candidate> {
         };
         for lookup in lookups {
             for table_bits in bits.clone() {
-                let layout = method::layout(
+                let mut layout = method::layout(
                     method,
                     lookup,
                     table_bits,
@@ -152,6 +153,7 @@ pub fn candidates(spec: &CodecSpec) -> Vec<Candidate> {
                     put_rows,
                     absent,
                 );
+                layout.tables.extend(spec.kind.extra_tables(table_bits));
                 out.push(Candidate {
                     method,
                     lookup,

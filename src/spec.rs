@@ -92,6 +92,8 @@ impl Choice for Framing {
 pub enum Source {
     /// Explicit counts, by symbol index.
     Counts(Vec<u64>),
+    /// Explicit counts of an integers codec, by place (`kind::integers`), sorted.
+    PlaceCounts(Vec<(u32, u64)>),
     /// Inline text; `location` is where the string starts in the spec.
     Text { text: String, location: Location },
     /// A sample file: `declared` as written, `path` resolved against the spec's folder.
@@ -163,6 +165,11 @@ pub const CODEC_KEYS: &[&str] = &[
     "text",
     "samples",
     "counts_file",
+    // kind = "integers" (src/kind/integers.rs)
+    "range",
+    "value_type",
+    "delta",
+    "max_symbols",
 ];
 
 /// Reads and validates the spec file at `path`; returns it with its text.
@@ -280,6 +287,12 @@ impl<'a, 'i> Merged<'a, 'i> {
     }
 }
 
+impl kind::SpecKeys for Merged<'_, '_> {
+    fn key(&self, name: &str) -> Option<&Spanned<DeValue<'_>>> {
+        self.get(name)
+    }
+}
+
 /// Errors found while reading one codec, each with the byte offset it sorts by.
 type Found = Vec<(usize, Error)>;
 
@@ -392,18 +405,40 @@ impl Checker<'_> {
             }
         });
 
-        let alphabet =
-            kind_entry.and_then(
-                |entry| match (entry.read)(keys.get("symbols"), span.clone()) {
-                    Ok(k) => Some(k),
-                    Err(list) => {
-                        for (s, m) in list {
-                            fail(s, m);
-                        }
-                        None
+        let alphabet = kind_entry.and_then(|entry| {
+            match (entry.read)(keys.get("symbols"), span.clone(), keys) {
+                Ok(k) => Some(k),
+                Err(list) => {
+                    for (s, m) in list {
+                        fail(s, m);
                     }
-                },
-            );
+                    None
+                }
+            }
+        });
+        // Keys of another kind are mistakes, not silently ignored.
+        if let Some(entry) = kind_entry.filter(|e| e.name != "integers") {
+            for key in kind::integers::KEYS {
+                if let Some(v) = keys.codec.get(*key) {
+                    fail(
+                        v.span(),
+                        format!(
+                            "`{key}` applies to kind = \"integers\", not \"{}\"",
+                            entry.name
+                        ),
+                    );
+                }
+            }
+        }
+        // Offset bits ride on the tANS bit stream only.
+        if let (Some(k), Some(Method::Rans), Some(v)) = (&alphabet, method, keys.get(Method::KEY)) {
+            if k.integers().is_some() {
+                fail(
+                    v.span(),
+                    "an integers codec is coded with method = \"tans\" (rANS does not carry offset bits yet)".to_string(),
+                );
+            }
+        }
         // A chosen size starts at the smallest table that holds the alphabet.
         let table_bits = match (&alphabet, table_bits) {
             (Some(k), Some(Some(bits))) => {
@@ -506,7 +541,19 @@ impl Checker<'_> {
         if let Some(v) = keys.get("counts") {
             match (v.get_ref(), alphabet) {
                 (DeValue::Table(t), Some(k)) => match self.counts(k, t) {
-                    Ok(c) => sources.push(Source::Counts(c)),
+                    Ok(c) if k.integers().is_some() => {
+                        let mut places: Vec<(u32, u64)> =
+                            c.into_iter().map(|(u, n)| (u as u32, n)).collect();
+                        places.sort_unstable();
+                        sources.push(Source::PlaceCounts(places));
+                    }
+                    Ok(c) => {
+                        let mut dense = vec![0u64; k.alphabet_len()];
+                        for (i, n) in c {
+                            dense[i] = n;
+                        }
+                        sources.push(Source::Counts(dense));
+                    }
                     Err(list) => {
                         for (s, m) in list {
                             fail(s, m);
@@ -656,9 +703,10 @@ impl Checker<'_> {
         &self,
         kind: &dyn Kind,
         table: &DeTable<'_>,
-    ) -> std::result::Result<Vec<u64>, Vec<kind::Misplaced>> {
-        let mut counts = vec![0u64; kind.alphabet_len()];
-        let mut named: Vec<Option<usize>> = vec![None; kind.alphabet_len()];
+    ) -> std::result::Result<Vec<(usize, u64)>, Vec<kind::Misplaced>> {
+        // Sparse: an integers codec keys its counts by place, up to 2^32 of them.
+        let mut counts = Vec::new();
+        let mut named: std::collections::BTreeMap<usize, usize> = Default::default();
         let mut errors = Vec::new();
         for (key, value) in table.iter() {
             let k = key.get_ref().as_ref();
@@ -691,7 +739,7 @@ impl Checker<'_> {
                 ));
                 continue;
             };
-            if let Some(first) = named[index] {
+            if let Some(&first) = named.get(&index) {
                 errors.push((
                     value.span(),
                     format!(
@@ -702,8 +750,8 @@ impl Checker<'_> {
                 ));
                 continue;
             }
-            named[index] = Some(value.span().start);
-            counts[index] = v;
+            named.insert(index, value.span().start);
+            counts.push((index, v));
         }
         if errors.is_empty() {
             Ok(counts)

@@ -140,6 +140,8 @@ pub struct Reference<'a> {
     positions: Vec<Vec<u32>>,
     /// tANS: for each table position, the number of its copy (`q_s ..= 2q_s - 1`).
     number: Vec<u32>,
+    /// Offset bits after each symbol (integers codecs); empty: none.
+    widths: Vec<u32>,
 }
 
 /// Bits, least significant first, packed into bytes least significant bit first.
@@ -173,7 +175,19 @@ impl<'a> Reference<'a> {
             lanes: lanes as usize,
             positions,
             number,
+            widths: Vec::new(),
         }
+    }
+
+    /// The coder for a codec whose symbols are followed by `widths[s]` raw offset bits.
+    pub fn with_widths(mut self, widths: Vec<u32>) -> Self {
+        self.widths = widths;
+        self
+    }
+
+    /// Offset bits after symbol `s`.
+    fn width(&self, s: u16) -> u32 {
+        self.widths.get(usize::from(s)).copied().unwrap_or(0)
     }
 
     /// The coder for tagged single-lane streams.
@@ -183,8 +197,14 @@ impl<'a> Reference<'a> {
 
     /// Encodes symbol indices into a whole stream (header and payload).
     pub fn encode(&self, symbols: &[u16]) -> Vec<u8> {
+        self.encode_offsets(symbols, &[])
+    }
+
+    /// Encodes symbol indices and, for a codec with offset bits, each symbol's offset (zero
+    /// where `offsets` is short).
+    pub fn encode_offsets(&self, symbols: &[u16], offsets: &[u32]) -> Vec<u8> {
         let payload = match self.tables {
-            Tables::Tans(t) => self.encode_tans(t, symbols),
+            Tables::Tans(t) => self.encode_tans(t, symbols, offsets),
             Tables::Rans(r) => self.encode_rans(r, symbols),
         };
         let mut out = match self.framing {
@@ -213,7 +233,7 @@ impl<'a> Reference<'a> {
     /// tANS payload. Symbol `i` belongs to lane `i % lanes`; a lane's last symbol is its
     /// starting state's, and costs no bits. Compact and bare streams of one lane try several
     /// starting states and keep the shortest stream; they leave out trailing zeros.
-    fn encode_tans(&self, tans: &Tans, symbols: &[u16]) -> Vec<u8> {
+    fn encode_tans(&self, tans: &Tans, symbols: &[u16], offsets: &[u32]) -> Vec<u8> {
         let n = symbols.len();
         let used = n.min(self.lanes);
         // Each used lane's last symbol, lane by lane.
@@ -222,7 +242,8 @@ impl<'a> Reference<'a> {
             last[i % self.lanes] = s;
         }
         let framed = self.framing == Framing::Tagged;
-        let tries = if !framed && self.lanes == 1 && n <= SEARCH_SYMBOLS {
+        // Codecs with offset bits keep the first start: no search.
+        let tries = if !framed && self.lanes == 1 && n <= SEARCH_SYMBOLS && self.widths.is_empty() {
             SEARCH_STARTS
         } else {
             1
@@ -250,7 +271,7 @@ impl<'a> Reference<'a> {
             _ => vec![first],
         };
         for start in tried {
-            let mut bits = self.tans_bits(tans, symbols, &start);
+            let mut bits = self.tans_bits(tans, symbols, offsets, &start);
             if !framed {
                 // Trailing zeros read as zeros past the end: leave them out, up to the limit.
                 let end = bits.iter().rposition(|&b| b).map_or(0, |i| i + 1);
@@ -267,14 +288,21 @@ impl<'a> Reference<'a> {
     }
 
     /// The payload bits, in reading order, for the lanes' starting positions `start`.
-    fn tans_bits(&self, tans: &Tans, symbols: &[u16], start: &[u32]) -> Vec<bool> {
+    fn tans_bits(&self, tans: &Tans, symbols: &[u16], offsets: &[u32], start: &[u32]) -> Vec<bool> {
         let r = tans.table_bits;
         let l = 1u32 << r;
         let n = symbols.len();
         // Chunks in the order the encoder produces them; the decoder reads them backwards.
         let mut chunks: Vec<(u32, u32)> = Vec::with_capacity(n + self.lanes);
+        let offset = |i: usize| offsets.get(i).copied().unwrap_or(0);
+        // The lanes' last symbols read no state bits, only their offsets, at the end.
+        for (i, &s) in symbols.iter().enumerate().rev().take(start.len()) {
+            chunks.push((offset(i), self.width(s)));
+        }
         let mut x: Vec<u32> = start.iter().map(|&p| l + p).collect();
         for (i, &s) in symbols.iter().enumerate().rev().skip(start.len()) {
+            // A symbol's offset bits follow its state bits in reading order.
+            chunks.push((offset(i), self.width(s)));
             let x = &mut x[i % self.lanes];
             let q = tans.slots[usize::from(s)];
             let mut k = 0;
@@ -328,6 +356,16 @@ impl<'a> Reference<'a> {
         stream: &[u8],
         limit: usize,
     ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
+        self.decode_offsets(stream, limit)
+            .map(|(symbols, _, used)| (symbols, used))
+    }
+
+    /// [`Reference::decode`] with each symbol's offset (zero for symbols without offset bits).
+    pub fn decode_offsets(
+        &self,
+        stream: &[u8],
+        limit: usize,
+    ) -> std::result::Result<Decoded, StreamError> {
         let pos = match self.framing {
             Framing::Bare => return self.payload(stream, 0, limit),
             Framing::Tagged => {
@@ -369,10 +407,13 @@ impl<'a> Reference<'a> {
         stream: &[u8],
         pos: usize,
         count: usize,
-    ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
+    ) -> std::result::Result<Decoded, StreamError> {
         match self.tables {
             Tables::Tans(t) => self.payload_tans(t, stream, pos, count),
-            Tables::Rans(r) => self.payload_rans(r, stream, pos, count),
+            Tables::Rans(r) => self.payload_rans(r, stream, pos, count).map(|(s, used)| {
+                let offsets = vec![0; s.len()];
+                (s, offsets, used)
+            }),
         }
     }
 
@@ -383,7 +424,7 @@ impl<'a> Reference<'a> {
         stream: &[u8],
         pos: usize,
         count: usize,
-    ) -> std::result::Result<(Vec<u16>, usize), StreamError> {
+    ) -> std::result::Result<Decoded, StreamError> {
         let r = tans.table_bits;
         let payload = &stream[pos..];
         let bit = |i: usize| -> bool {
@@ -403,16 +444,18 @@ impl<'a> Reference<'a> {
         let used = count.min(self.lanes);
         let mut state: Vec<usize> = (0..used).map(|_| read(r) as usize).collect();
         let mut out = Vec::with_capacity(count.min(1 << 20));
+        let mut offsets = Vec::with_capacity(count.min(1 << 20));
         for i in 0..count {
             let state = &mut state[i % self.lanes];
             let s = tans.spread[*state];
             out.push(s);
-            // A lane's last symbol is its final state's: no bits after it.
+            // A lane's last symbol is its final state's: no state bits after it.
             if i + self.lanes < count {
                 let o = self.number[*state];
                 let k = r - (31 - o.leading_zeros());
                 *state = (((o << k) | read(k)) - (1u32 << r)) as usize;
             }
+            offsets.push(read(self.width(s)));
         }
         let len = payload.len() * 8;
         if self.framing == Framing::Tagged {
@@ -423,7 +466,7 @@ impl<'a> Reference<'a> {
             if (at..at.div_ceil(8) * 8).any(bit) {
                 return Err(StreamError::Corrupt);
             }
-            return Ok((out, pos + at.div_ceil(8)));
+            return Ok((out, offsets, pos + at.div_ceil(8)));
         }
         // Compact and bare: the payload runs to the end of the stream, its trailing zeros
         // left out: every byte was reached, no more than `PAST_END_BITS` were read past
@@ -437,7 +480,7 @@ impl<'a> Reference<'a> {
         if (at..len).any(bit) {
             return Err(self.bare_or(StreamError::Corrupt));
         }
-        Ok((out, stream.len()))
+        Ok((out, offsets, stream.len()))
     }
 
     /// Decodes `count` symbols from the rANS payload at `stream[pos..]`.
@@ -489,6 +532,9 @@ impl<'a> Reference<'a> {
     }
 }
 
+/// Decoded symbols, their offsets, and the bytes the stream took.
+pub type Decoded = (Vec<u16>, Vec<u32>, usize);
+
 /// Bytes of the header of a stream of `symbols` symbols.
 pub fn header_len(framing: Framing, symbols: usize) -> usize {
     match framing {
@@ -522,7 +568,13 @@ pub fn verify(
     lanes: u32,
     model: &Model,
 ) -> Result<Verified> {
-    let coder = Reference::framed(tables, fingerprint, framing, lanes);
+    let widths = model
+        .bound
+        .as_ref()
+        .and_then(|k| k.integers())
+        .map(|i| i.bins.iter().map(|b| b.width).collect())
+        .unwrap_or_default();
+    let coder = Reference::framed(tables, fingerprint, framing, lanes).with_widths(widths);
     let mut v = Verified::default();
     for seq in &model.sequences {
         let empty: &[u16] = &[];
@@ -532,17 +584,23 @@ pub fn verify(
         } else {
             pieces.collect()
         };
-        for piece in pieces {
-            let stream = coder.encode(piece);
-            let decoded = coder.decode(&stream, piece.len());
+        for (k, piece) in pieces.into_iter().enumerate() {
+            let at = k * VERIFY_STREAM;
+            // Codecs without offset bits have offsets of zero.
+            let offsets: Vec<u32> = (at..at + piece.len())
+                .map(|i| seq.offsets.get(i).copied().unwrap_or(0))
+                .collect();
+            let stream = coder.encode_offsets(piece, &offsets);
+            let decoded = coder.decode_offsets(&stream, piece.len());
             match decoded {
-                Ok((symbols, used)) if symbols == piece && used == stream.len() => {}
+                Ok((symbols, o, used))
+                    if symbols == piece && o == offsets && used == stream.len() => {}
                 other => {
                     return Err(Error::internal(format!(
                         "the tables failed to round-trip {} ({} symbols): {:?}",
                         seq.origin,
                         piece.len(),
-                        other.map(|(s, used)| (s.len(), used))
+                        other.map(|(s, _, used)| (s.len(), used))
                     )))
                 }
             }

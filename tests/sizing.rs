@@ -123,6 +123,8 @@ impl Rater {
             counts: counts.to_vec(),
             sequences: Vec::new(),
             sequence_symbols: 0,
+            bound: None,
+            place_counts: Default::default(),
         };
         Rater {
             counts: counts.to_vec(),

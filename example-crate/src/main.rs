@@ -1,7 +1,7 @@
 //! One simulated day of the river-gauge network, sent over the radio as it really runs.
 //!
 //! Every two hours each gauge sends one packet with its last eight readings (status and
-//! level change), and each note line a technician types goes out in a packet of its own.
+//! water level, the levels as differences), and each note line a technician types goes out in a packet of its own.
 //! Every frame in a packet is one compact stream of a generated codec. The gateway parses
 //! each packet, sizes its buffers with `symbol_count`, decodes, and checks every frame
 //! against what the gauge sent. The tables compare the bytes on air with the entropy of the
@@ -130,7 +130,8 @@ struct Gauge {
     saw_fault: bool,
     retries: u32,
     status: Vec<Status>,
-    deltas: Vec<u8>,
+    /// The level after each reading, in millimetres.
+    levels: Vec<u16>,
     /// Note lines typed on site, with the reading they were typed at.
     notes: Vec<(usize, Vec<u8>)>,
 }
@@ -169,7 +170,7 @@ impl Gauge {
             saw_fault: false,
             retries: 0,
             status: Vec::with_capacity(READINGS),
-            deltas: Vec::with_capacity(READINGS),
+            levels: Vec::with_capacity(READINGS),
             notes: Vec::new(),
         }
     }
@@ -191,9 +192,9 @@ impl Gauge {
         }
         self.level_mm += d;
         self.peak_mm = self.peak_mm.max(self.level_mm);
-        let zigzag = if d >= 0 { 2 * d } else { -2 * d - 1 };
-        // 31 means "off the scale": the gateway asks for an absolute reading.
-        self.deltas.push(zigzag.min(31) as u8);
+        // A level off the gauge's scale is refused by the codec (`OutOfRange`), never cut.
+        self.levels
+            .push(u16::try_from(self.level_mm).unwrap_or(u16::MAX));
     }
 
     fn battery_step(&mut self, r: usize) {
@@ -371,14 +372,18 @@ fn simulate() -> Vec<Gauge> {
 
 /// Order-0 entropy in bits per symbol.
 fn entropy(data: &[u8]) -> f64 {
-    let mut counts = [0u64; 256];
-    for &b in data {
-        counts[usize::from(b)] += 1;
+    entropy_of(data.iter().map(|&b| i64::from(b)))
+}
+
+/// Order-0 entropy of the values, bits per value.
+fn entropy_of(data: impl Iterator<Item = i64>) -> f64 {
+    let mut counts = std::collections::BTreeMap::new();
+    for v in data {
+        *counts.entry(v).or_insert(0u64) += 1;
     }
-    let n = data.len() as f64;
+    let n = counts.values().sum::<u64>() as f64;
     counts
-        .iter()
-        .filter(|&&c| c > 0)
+        .values()
         .map(|&c| {
             let p = c as f64 / n;
             -p * p.log2()
@@ -423,7 +428,10 @@ struct Codec<S, E> {
     decode: fn(&[u8], &mut [S]) -> Result<usize, E>,
     symbol_count: fn(&[u8]) -> Result<usize, E>,
     max_len: fn(usize) -> usize,
-    raw: fn(S) -> u8,
+    /// The symbol's raw bytes (the baselines' input).
+    raw: fn(S, &mut Vec<u8>),
+    /// The order-0 entropy a symbol of `day` takes, bits.
+    entropy: fn(&[S]) -> f64,
     blank: S,
 }
 
@@ -434,18 +442,21 @@ const STATUS: Codec<Status, gauge_status::Error> = Codec {
     decode: gauge_status::decode,
     symbol_count: gauge_status::symbol_count,
     max_len: gauge_status::max_encoded_len,
-    raw: |s| s as u8,
+    raw: |s, out| out.push(s as u8),
+    entropy: |day| entropy_of(day.iter().map(|&s| s as i64)),
     blank: Status::Ok,
 };
 
-const LEVEL: Codec<u8, level_delta::Error> = Codec {
+const LEVEL: Codec<u16, level_delta::Error> = Codec {
     name: "level_delta",
     table_bits: level_delta::TABLE_BITS,
     encode: level_delta::encode,
     decode: level_delta::decode,
     symbol_count: level_delta::symbol_count,
     max_len: level_delta::max_encoded_len,
-    raw: |b| b,
+    raw: |v, out| out.extend(v.to_le_bytes()),
+    // The coder sends differences: their entropy is the bound it aims at.
+    entropy: |day| entropy_of(day.windows(2).map(|w| i64::from(w[1]) - i64::from(w[0]))),
     blank: 0,
 };
 
@@ -456,7 +467,8 @@ const NOTES: Codec<u8, field_notes::Error> = Codec {
     decode: field_notes::decode,
     symbol_count: field_notes::symbol_count,
     max_len: field_notes::max_encoded_len,
-    raw: |b| b,
+    raw: |b, out| out.push(b),
+    entropy: |day| entropy(day),
     blank: b' ',
 };
 
@@ -467,6 +479,8 @@ struct Tally<S> {
     precast: usize,
     /// Bytes of their compact headers.
     header: usize,
+    /// Raw bytes of their symbols.
+    raw: usize,
     huffman: usize,
     deflate: usize,
     /// Every symbol of the day, in the order sent.
@@ -479,6 +493,7 @@ impl<S> Tally<S> {
             frames: 0,
             precast: 0,
             header: 0,
+            raw: 0,
             huffman: 0,
             deflate: 0,
             day: Vec::new(),
@@ -497,7 +512,11 @@ fn send<S: Copy, E: Display>(
 ) -> Result<usize, String> {
     let len =
         (c.encode)(symbols, out).map_err(|e| format!("{}, {label}: encode failed: {e}", c.name))?;
-    let raw: Vec<u8> = symbols.iter().map(|&s| (c.raw)(s)).collect();
+    let mut raw = Vec::new();
+    for &s in symbols {
+        (c.raw)(s, &mut raw);
+    }
+    tally.raw += raw.len();
     let label = format!("{}, {label}", c.name);
     tally.huffman += deflate_checked(&label, &raw, true)?;
     tally.deflate += deflate_checked(&label, &raw, false)?;
@@ -547,7 +566,7 @@ fn hours(interval: usize) -> String {
 struct Air {
     packets: Vec<Vec<u8>>,
     status: Tally<Status>,
-    level: Tally<u8>,
+    level: Tally<u16>,
     notes: Tally<u8>,
 }
 
@@ -579,8 +598,8 @@ fn transmit(gauges: &[Gauge]) -> Result<Air, String> {
             let status = &g.status[span.clone()];
             let s = send(&STATUS, status, frames, &mut air.status, &label)?;
             let (_, level_out) = frames.split_at_mut(s);
-            let deltas = &g.deltas[span.clone()];
-            let l = send(&LEVEL, deltas, level_out, &mut air.level, &label)?;
+            let levels = &g.levels[span.clone()];
+            let l = send(&LEVEL, levels, level_out, &mut air.level, &label)?;
             head[0] = g.id as u8;
             head[1] = interval as u8;
             head[2] = u8::try_from(s).map_err(|_| format!("{label}: status frame too long"))?;
@@ -652,10 +671,8 @@ fn gateway(packets: &[Vec<u8>], gauges: &[Gauge]) -> Result<usize, String> {
         if receive(&STATUS, status, PER_PACKET, &label)? != g.status[span.clone()] {
             return Err(format!("gauge_status, {label}: decoded statuses differ"));
         }
-        if receive(&LEVEL, level, PER_PACKET, &label)? != g.deltas[span] {
-            return Err(format!(
-                "level_delta, {label}: decoded level changes differ"
-            ));
+        if receive(&LEVEL, level, PER_PACKET, &label)? != g.levels[span] {
+            return Err(format!("level_delta, {label}: decoded levels differ"));
         }
         let seen = &mut readings[g.id - 1][interval];
         if *seen {
@@ -686,6 +703,8 @@ struct Row {
     frames: usize,
     symbols: usize,
     entropy: f64,
+    /// Raw bytes of the symbols.
+    raw: usize,
     /// Bytes of the compact headers of the frames.
     header: usize,
     /// Bytes in frames: precast, huffman-only deflate, deflate level 6.
@@ -715,14 +734,18 @@ fn row<S: Copy + PartialEq, E: Display>(c: &Codec<S, E>, t: &Tally<S>) -> Result
     if receive(c, &stream[..len], t.day.len(), "whole day")? != t.day {
         return Err(format!("{}, whole day: round trip differs", c.name));
     }
-    let raw: Vec<u8> = t.day.iter().map(|&s| (c.raw)(s)).collect();
+    let mut raw = Vec::new();
+    for &s in &t.day {
+        (c.raw)(s, &mut raw);
+    }
     let label = format!("{}, whole day", c.name);
     Ok(Row {
         name: c.name,
         table_bits: c.table_bits,
         frames: t.frames,
         symbols: t.day.len(),
-        entropy: entropy(&raw),
+        entropy: (c.entropy)(&t.day),
+        raw: t.raw,
         header: t.header,
         framed: [t.precast, t.huffman, t.deflate],
         whole: [
@@ -770,7 +793,7 @@ fn print_frames(rows: &[Row]) {
             &fixed(r.entropy, 3),
             &r.framed[0],
             &fixed(bits_per(r.framed[0], r.symbols), 3),
-            &r.symbols,
+            &r.raw,
             &r.framed[1],
             &r.framed[2],
         ]);
@@ -784,7 +807,7 @@ fn print_frames(rows: &[Row]) {
         &"",
         &sum(|r| r.framed[0]),
         &"",
-        &sum(|r| r.symbols),
+        &sum(|r| r.raw),
         &sum(|r| r.framed[1]),
         &sum(|r| r.framed[2]),
     ]);
@@ -879,7 +902,7 @@ fn report(gauges: &[Gauge]) -> Result<(), String> {
         "gateway: {reading_packets} reading + {note_packets} note packets parsed; {checked} compact frames sized with symbol_count, decoded, all exact"
     );
     println!(
-        "baselines on the same frames, each round-tripped: raw (1 byte a symbol), raw deflate (no wrapper) huffman-only and level 6"
+        "baselines on the same frames, each round-tripped: raw (1 byte a symbol, 2 a level), raw deflate (no wrapper) huffman-only and level 6"
     );
     println!();
     print_frames(&rows);
@@ -888,7 +911,7 @@ fn report(gauges: &[Gauge]) -> Result<(), String> {
 
     // The same packets with each frame sent another way; the packet headers stay.
     let framed = [0, 1, 2].map(|i| rows.iter().map(|r| r.framed[i]).sum::<usize>());
-    let symbols: usize = rows.iter().map(|r| r.symbols).sum();
+    let raw: usize = rows.iter().map(|r| r.raw).sum();
     let on_air: usize = air.packets.iter().map(Vec::len).sum();
     let packet_headers = reading_packets * READING_HEADER + note_packets * NOTE_HEADER;
     if on_air != packet_headers + framed[0] {
@@ -900,11 +923,11 @@ fn report(gauges: &[Gauge]) -> Result<(), String> {
     println!();
     println!(
         "packets on air for the day: {on_air} B with precast frames ({packet_headers} B of it packet headers), {:.0} % of raw",
-        100.0 * on_air as f64 / (packet_headers + symbols) as f64
+        100.0 * on_air as f64 / (packet_headers + raw) as f64
     );
     println!(
         "the same packets with raw frames {} B, huffman-only {} B, deflate-6 {} B (the radio's own preamble, sync and CRC not counted)",
-        packet_headers + symbols,
+        packet_headers + raw,
         packet_headers + framed[1],
         packet_headers + framed[2]
     );

@@ -12,6 +12,7 @@ use std::path::Path;
 
 #[path = "../../tests/common/mod.rs"]
 mod common;
+mod integers;
 use common::Rng;
 
 fn spec_path() -> std::path::PathBuf {

@@ -110,10 +110,13 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     let framing_display = &framing.error_display;
     let entry_points = framing.entry_points();
     let input::InputTokens {
-        error_variant,
-        error_display,
+        mut error_variant,
+        mut error_display,
         ..
     } = input;
+    if let Some(ints) = spec.kind.integers() {
+        (error_variant, error_display) = tans::range_error(ints);
+    }
 
     Ok(quote! {
         #module_doc

@@ -16,6 +16,7 @@
 use super::framing::{Failure, FramingTokens};
 use super::input::{self, InputTokens};
 use super::rows::{push_number, rows_of, RowSets};
+use crate::kind::integers::Integers;
 use crate::method::tans::Tans;
 use crate::plan::CodecPlan;
 use crate::spec::Framing;
@@ -36,8 +37,10 @@ struct Rounds {
 }
 
 impl Rounds {
-    fn new(tans: &Tans, lanes: usize) -> Rounds {
-        let max_bits = usize::from(tans.decode.iter().map(|e| e.bits).max().unwrap_or(0)).max(1);
+    fn new(tans: &Tans, lanes: usize, offset_bits: usize) -> Rounds {
+        let max_bits = (usize::from(tans.decode.iter().map(|e| e.bits).max().unwrap_or(0))
+            + offset_bits)
+            .max(1);
         let per_load = (57 / max_bits).max(1);
         let per_flush = (56 / max_bits).max(1);
         let decode_round = 8usize.max(lanes);
@@ -69,6 +72,10 @@ struct Parts<'a> {
     /// The encoder's start: `head` (the symbols put into the states), `used` lanes, and the
     /// lanes' starting states from their last symbols.
     encode_start: TokenStream,
+    /// Integers codecs: bins with offset bits, and whether values go as deltas.
+    integers: Option<&'a Integers>,
+    /// Most bits a state step reads.
+    max_state_bits: u8,
 }
 
 pub fn body(
@@ -78,7 +85,12 @@ pub fn body(
     input: &InputTokens,
     rows: &mut RowSets,
 ) -> TokenStream {
-    let r = Rounds::new(tans, plan.spec.lanes as usize);
+    let integers = plan.spec.kind.integers();
+    let r = Rounds::new(
+        tans,
+        plan.spec.lanes as usize,
+        integers.map_or(0, |i| i.max_width() as usize),
+    );
     let max_bits = Literal::usize_unsuffixed(r.max_bits);
     let header_max = &framing.header_max;
 
@@ -111,9 +123,34 @@ pub fn body(
             return Err(Error::OutputTooSmall);
         };
     };
-    let decode_tail = quote! {
-        for (i, slot) in tail.iter_mut().enumerate() {
-            *slot = step(state[(count - used + i) % LANES] & MASK).0;
+    let decode_tail = match integers {
+        None => quote! {
+            for (i, slot) in tail.iter_mut().enumerate() {
+                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            }
+        },
+        Some(ints) => {
+            let undelta = if ints.domain.delta {
+                quote! {
+                    // Places back to values: each after the one before.
+                    let mut before = REFERENCE;
+                    for slot in head.iter_mut().chain(tail.iter_mut()) {
+                        before = value(*slot, before);
+                        *slot = before;
+                    }
+                }
+            } else {
+                TokenStream::new()
+            };
+            quote! {
+                // The lanes' last symbols read no state bits; their offsets come last.
+                for (i, slot) in tail.iter_mut().enumerate() {
+                    let p = state[(count - used + i) % LANES] & MASK;
+                    let width = u32::from(WIDTHS[p]);
+                    *slot = step(p).0.wrapping_add(take(payload, &mut at, width) as Symbol);
+                }
+                #undelta
+            }
         }
     };
     let decode_end = end_check(framing);
@@ -125,8 +162,11 @@ pub fn body(
         input,
         finish: finish(framing),
         encode_start: encode_start(plan, input),
+        integers,
+        max_state_bits: tans.decode.iter().map(|e| e.bits).max().unwrap_or(0),
     };
     let start_items = start_items(plan, input);
+    let integer_items = integers.map(|i| integer_items(i, tans, rows));
     let (prefix_vis, past_end) = if framing.to_the_end() {
         let past_end = quote! {
             /// Bits a decoder may read past the end of the stream, as zeros: the trailing zeros
@@ -144,6 +184,8 @@ pub fn body(
     quote! {
         /// Most bits any one symbol costs.
         pub const MAX_SYMBOL_BITS: u32 = #max_bits;
+
+        #integer_items
 
         /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
         pub const fn max_encoded_len(symbols: usize) -> usize {
@@ -431,6 +473,22 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             #check
         }
     };
+    if let Some(ints) = plan.spec.kind.integers() {
+        let first = place_of(ints, quote!(last), quote!(n - used + i));
+        let validate = validate(ints);
+        return quote! {
+            let n = input.len();
+            #validate
+            let used = if n < LANES { n } else { LANES };
+            let (Some(head), Some(tail)) = (input.get(..n - used), input.get(n - used..)) else {
+                return Err(Error::OutputTooSmall);
+            };
+            let mut state = [TABLE_LEN as u32; LANES];
+            for (i, &last) in tail.iter().enumerate() {
+                state[(n - used + i) % LANES] = first_state(bin(#first).0);
+            }
+        };
+    }
     let search = searches(plan);
     let tries = if search {
         quote!(if n <= SEARCH_SYMBOLS {
@@ -459,11 +517,199 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
 /// Whether the encoder tries several starting states: one-lane compact and bare streams,
 /// whose trailing zeros are left out.
 fn searches(plan: &CodecPlan) -> bool {
-    plan.spec.framing != Framing::Tagged && plan.spec.lanes == 1
+    // Codecs with offset bits keep the first start (FORMAT.md).
+    plan.spec.framing != Framing::Tagged
+        && plan.spec.lanes == 1
+        && plan.spec.kind.integers().is_none()
+}
+
+/// The place of `v` (input index `k`) as an expression: with deltas, after the value before.
+fn place_of(ints: &Integers, v: TokenStream, k: TokenStream) -> TokenStream {
+    if ints.domain.delta {
+        quote!(place(#v, previous(input, #k)))
+    } else {
+        quote!(place(#v))
+    }
+}
+
+/// Refuses input outside the range before any bit is written (no check where the range is
+/// the whole type).
+fn validate(ints: &Integers) -> TokenStream {
+    let d = &ints.domain;
+    let below = (d.lo > d.value_type.min()).then(|| quote!(v < LOWEST));
+    let above = (d.hi < d.value_type.max()).then(|| quote!(v > HIGHEST));
+    let test = match (below, above) {
+        (None, None) => return TokenStream::new(),
+        (Some(_), Some(_)) => quote!(!(LOWEST..=HIGHEST).contains(&v)),
+        (Some(t), None) | (None, Some(t)) => t,
+    };
+    quote! {
+        if let Some(position) = input.iter().position(|&v| #test) {
+            return Err(Error::OutOfRange { position });
+        }
+    }
+}
+
+/// The `Error` variant of a range that is not the whole type, and its `Display` arm.
+pub fn range_error(ints: &Integers) -> (TokenStream, TokenStream) {
+    if validate(ints).is_empty() {
+        return (TokenStream::new(), TokenStream::new());
+    }
+    (
+        quote! {
+            /// `input[position]` is outside [`LOWEST`] ..= [`HIGHEST`].
+            OutOfRange {
+                /// Index of the first such value in the input.
+                position: usize,
+            },
+        },
+        quote! {
+            Error::OutOfRange { position } => {
+                ::core::write!(f, "the value at position {} is outside the range", position)
+            }
+        },
+    )
+}
+
+/// Integers codecs: the bins' tables, the value/place maps and the bin search.
+/// `for` over the lanes' last symbols backwards, binding `symbol` (and `i` for deltas).
+fn tail_loop(ints: &Integers) -> TokenStream {
+    if ints.domain.delta {
+        quote!(for (i, &symbol) in tail.iter().enumerate().rev())
+    } else {
+        quote!(for &symbol in tail.iter().rev())
+    }
+}
+
+fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+    let d = &ints.domain;
+    let start_rows = rows.add(rows_of(&ints.bins, 8, |line, b| {
+        push_number(line, u64::from(b.start));
+        line.push_str(", ");
+    }));
+    let width_rows = rows.add(rows_of(&ints.bins, 16, |line, b| {
+        push_number(line, u64::from(b.width));
+        line.push_str(", ");
+    }));
+    let widths_rows = rows.add(rows_of(&tans.decode, 16, |line, e| {
+        let w = ints.bins.get(usize::from(e.symbol)).map_or(0, |b| b.width);
+        push_number(line, u64::from(w));
+        line.push_str(", ");
+    }));
+    let lo = Literal::i64_unsuffixed(d.lo);
+    let size = Literal::i64_unsuffixed(d.size() as i64);
+    let coded_lo = Literal::i64_unsuffixed(d.coded_lo());
+    let maps = if d.delta {
+        let reference = d.value_type.literal(d.reference());
+        // A place in a signed type's bits, read back unsigned.
+        let unsigned_place = if d.value_type.min() < 0 {
+            let unsigned = d.value_type.unsigned();
+            quote!(i64::from(u as #unsigned))
+        } else {
+            quote!(i64::from(u))
+        };
+        quote! {
+            /// The value the first difference is taken from.
+            const REFERENCE: Symbol = #reference;
+            /// Values in the range: differences wrap modulo it.
+            const SIZE: i64 = #size;
+            /// The smallest difference coded: the places are `difference - CODED_LO`.
+            const CODED_LO: i64 = #coded_lo;
+
+            /// The place of `v` after `before`: their difference wrapped into
+            /// `CODED_LO .. CODED_LO + SIZE`, less `CODED_LO`. Both are in the range.
+            #[inline(always)]
+            fn place(v: Symbol, before: Symbol) -> u32 {
+                let mut t = i64::from(v) - i64::from(before) - CODED_LO;
+                if t < 0 {
+                    t += SIZE;
+                }
+                if t >= SIZE {
+                    t -= SIZE;
+                }
+                t as u32
+            }
+
+            /// The value before input index `k` (the reference before the first).
+            #[inline(always)]
+            fn previous(input: &[Symbol], k: usize) -> Symbol {
+                match k.checked_sub(1).and_then(|j| input.get(j)) {
+                    Some(&v) => v,
+                    None => REFERENCE,
+                }
+            }
+
+            /// The value of place `u` (as decoded, in `Symbol`'s bits) after `before`:
+            /// `before` plus the difference, wrapped back into the range.
+            #[inline(always)]
+            fn value(u: Symbol, before: Symbol) -> Symbol {
+                let t = i64::from(before) + #unsigned_place + CODED_LO;
+                let t = if t > i64::from(HIGHEST) {
+                    t - SIZE
+                } else if t < i64::from(LOWEST) {
+                    t + SIZE
+                } else {
+                    t
+                };
+                t as Symbol
+            }
+        }
+    } else {
+        quote! {
+            /// The smallest value: the places are `v - LO`.
+            const LO: i64 = #lo;
+
+            /// The place of `v`, a value of the range.
+            #[inline(always)]
+            fn place(v: Symbol) -> u32 {
+                (i64::from(v) - LO) as u32
+            }
+        }
+    };
+    quote! {
+        #maps
+
+        /// The bin of place `u`: its row, `u`'s offset in it and the offset's width. A
+        /// binary search over [`BIN_START`] with a fixed number of halvings.
+        #[inline(always)]
+        fn bin(u: u32) -> (usize, u32, u32) {
+            let mut row = 0usize;
+            let mut size = ALPHABET_LEN;
+            while size > 1 {
+                let half = size / 2;
+                if BIN_START.get(row + half).is_some_and(|&s| s <= u) {
+                    row += half;
+                }
+                size -= half;
+            }
+            let start = BIN_START.get(row).copied().unwrap_or(0);
+            let width = BIN_WIDTH.get(row).copied().unwrap_or(0);
+            (row, u.wrapping_sub(start), u32::from(width))
+        }
+
+        /// The lane's starting state for a last symbol of encoding row `row`: the copy of
+        /// it the encoder reaches from state `L` (that symbol then costs no state bits).
+        #[inline(always)]
+        fn first_state(row: usize) -> u32 {
+            put_symbol(TABLE_LEN as u32, row).2
+        }
+
+        /// The first place of each bin, in place order.
+        static BIN_START: [u32; ALPHABET_LEN] = #start_rows;
+
+        /// The offset bits of each bin: it holds `2^width` places.
+        static BIN_WIDTH: [u8; ALPHABET_LEN] = #width_rows;
+
+        /// The offset bits of the symbol at each table position.
+        static WIDTHS: [u8; TABLE_LEN] = #widths_rows;
+    }
 }
 
 /// `start`: a lane's starting state from its last symbol; with the search, `trial` too.
 fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
+    if plan.spec.kind.integers().is_some() {
+        return TokenStream::new();
+    }
     let position = quote! {
         /// The table position at number `i` of the order the encoder tries starting states
         /// in: bit-reversed counting (0, L/2, L/4, 3L/4, ...), the most aligned first, so
@@ -571,6 +817,96 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
     let (finish, decode_start, decode_end) =
         (&parts.finish, &parts.decode_start, &parts.decode_end);
     let (encode_start, decode_tail) = (&parts.encode_start, &parts.decode_tail);
+    // Integers: each symbol's row from its value's bin, and its offset bits pushed first
+    // (the stream is built back to front: they follow the state bits when read).
+    let bind = |k: TokenStream| match parts.integers {
+        None => quote! {
+            let row = #row;
+            #check
+        },
+        Some(ints) => {
+            let place = place_of(ints, quote!(symbol), k);
+            quote!(let (row, offset, width) = bin(#place);)
+        }
+    };
+    let bind_rest = bind(quote!(rounds.len() * ENCODE_ROUND + i));
+    let bind_round = bind(quote!(r * ENCODE_ROUND + i));
+    let delta = parts.integers.is_some_and(|i| i.domain.delta);
+    let round_loop = if delta {
+        quote!(for (r, round) in rounds.iter().enumerate().rev())
+    } else {
+        quote!(for round in rounds.iter().rev())
+    };
+    let push_offset = match parts.integers {
+        None => TokenStream::new(),
+        Some(_) => quote! {
+            acc = acc.wrapping_shl(width) | u64::from(offset);
+            pending += width;
+        },
+    };
+    let (tail_offsets, offset_items) = match parts.integers {
+        None => (TokenStream::new(), TokenStream::new()),
+        Some(ints) => {
+            let place = place_of(ints, quote!(symbol), quote!(n - used + i));
+            let tail_loop = tail_loop(ints);
+            (
+                quote! {
+                    // The lanes' last symbols' offsets end the stream.
+                    #tail_loop {
+                        let (_, offset, width) = bin(#place);
+                        #push_offset
+                        store(out, &mut pos, acc, &mut pending)?;
+                    }
+                },
+                quote! {
+                    /// `width` (at most 32) offset bits at bit `at` of the payload.
+                    #[inline(always)]
+                    fn take(payload: &[u8], at: &mut usize, width: u32) -> u32 {
+                        let bits = (peek(payload, *at) & !u64::MAX.wrapping_shl(width)) as u32;
+                        *at = at.wrapping_add(width as usize);
+                        bits
+                    }
+                },
+            )
+        }
+    };
+    let (decode_round_step, decode_slow_step) = match parts.integers {
+        None => (
+            quote! {
+                let (symbol, bits, base) = step(*x & MASK);
+                *slot = symbol;
+                *x = base + (buf & !(u64::MAX << bits)) as usize;
+                buf >>= bits;
+                at += bits as usize;
+            },
+            quote! {
+                let (symbol, bits, base) = step(*x & MASK);
+                *slot = symbol;
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                at += bits as usize;
+            },
+        ),
+        Some(_) => (
+            quote! {
+                let p = *x & MASK;
+                let (symbol, bits, base) = step(p);
+                let width = u32::from(WIDTHS[p]);
+                *x = base + (buf & !(u64::MAX << bits)) as usize;
+                buf >>= bits;
+                let offset = buf & !u64::MAX.wrapping_shl(width);
+                buf = buf.wrapping_shr(width);
+                *slot = symbol.wrapping_add(offset as Symbol);
+                at += (bits + width) as usize;
+            },
+            quote! {
+                let p = *x & MASK;
+                let (symbol, bits, base) = step(p);
+                *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
+                at += bits as usize;
+                *slot = symbol.wrapping_add(take(payload, &mut at, u32::from(WIDTHS[p])) as Symbol);
+            },
+        ),
+    };
     quote! {
         /// The 64-bit path: a 64-bit bit buffer, rounds of symbols with one bounds check.
         #[cfg(target_pointer_width = "64")]
@@ -638,27 +974,28 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                 let mut pending: u32 = 0;
                 // Symbols go in backwards, so the last, partial round comes first.
                 let (rounds, rest) = head.as_chunks::<ENCODE_ROUND>();
+                #tail_offsets
                 for (i, &symbol) in rest.iter().enumerate().rev() {
-                    let row = #row;
-                    #check
+                    #bind_rest
                     let x = state[i % LANES];
                     let (bits, high, next) = put_symbol(x, row);
+                    #push_offset
                     acc = push(acc, x, high, bits);
                     state[i % LANES] = next;
                     pending += bits;
                     store(out, &mut pos, acc, &mut pending)?;
                 }
-                for round in rounds.iter().rev() {
+                #round_loop {
                     let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<ENCODE_WINDOW>);
                     if let Some(window) = window {
                         // Fast path: every store lands in `window`, no other check needed.
                         let top = pos;
                         for i in (0..ENCODE_ROUND).rev() {
                             let symbol = round[i];
-                            let row = #row;
-                            #check
+                            #bind_round
                             let x = state[i % LANES];
                             let (bits, high, next) = put_symbol(x, row);
+                            #push_offset
                             acc = push(acc, x, high, bits);
                             state[i % LANES] = next;
                             pending += bits;
@@ -674,10 +1011,10 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                     } else {
                         for i in (0..ENCODE_ROUND).rev() {
                             let symbol = round[i];
-                            let row = #row;
-                            #check
+                            #bind_round
                             let x = state[i % LANES];
                             let (bits, high, next) = put_symbol(x, row);
+                            #push_offset
                             acc = push(acc, x, high, bits);
                             state[i % LANES] = next;
                             pending += bits;
@@ -721,20 +1058,13 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                             buf = window_word(window, (at >> 3).wrapping_sub(first)) >> (at & 7);
                         }
                         let x = &mut state[i % LANES];
-                        let (symbol, bits, base) = step(*x & MASK);
-                        *slot = symbol;
-                        *x = base + (buf & !(u64::MAX << bits)) as usize;
-                        buf >>= bits;
-                        at += bits as usize;
+                        #decode_round_step
                     }
                     done += DECODE_ROUND;
                 }
                 for (i, slot) in head.iter_mut().enumerate().skip(done) {
                     let x = &mut state[i % LANES];
-                    let (symbol, bits, base) = step(*x & MASK);
-                    *slot = symbol;
-                    *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
-                    at += bits as usize;
+                    #decode_slow_step
                 }
                 #decode_tail
                 #decode_end
@@ -756,6 +1086,8 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
             fn peek(data: &[u8], at: usize) -> u64 {
                 word(data, at >> 3) >> (at & 7)
             }
+
+            #offset_items
         }
     }
 }
@@ -794,6 +1126,167 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
     } else {
         quote!(let absent = e.absent;)
     };
+    // Integers: a symbol's state step costs at most `MAX_STATE_BITS`; its offset bits go
+    // in pieces of at most 16 through the same buffer.
+    let state_bits = match parts.integers {
+        None => quote!(MAX_SYMBOL_BITS),
+        Some(_) => quote!(MAX_STATE_BITS),
+    };
+    let delta = parts.integers.is_some_and(|i| i.domain.delta);
+    let (before_param, encode_loop) = if delta {
+        (
+            quote!(, before: Symbol),
+            quote! {
+                // Each value goes as its place after the one before.
+                for k in (0..input.len()).rev() {
+                    if let Some(&symbol) = input.get(k) {
+                        e.one(writer, symbol, previous(input, k));
+                    }
+                }
+            },
+        )
+    } else {
+        (
+            TokenStream::new(),
+            quote! {
+                // Two symbols a turn of the loop: half the loop's own instructions.
+                let (rest, pairs) = input.as_rchunks::<2>();
+                for &[a, b] in pairs.iter().rev() {
+                    e.one(writer, b);
+                    e.one(writer, a);
+                }
+                for &symbol in rest.iter().rev() {
+                    e.one(writer, symbol);
+                }
+            },
+        )
+    };
+    let (encode_bind, encode_offset, tail_offsets, offset_items, decode_one) = match parts.integers
+    {
+        None => (
+            quote! {
+                let row = #row;
+                #note_absent
+            },
+            TokenStream::new(),
+            TokenStream::new(),
+            TokenStream::new(),
+            quote! {
+                if self.buf < 1 << MAX_SYMBOL_BITS {
+                    self.buf = reader.refill(self.buf);
+                }
+                let lane = self.lane % LANES;
+                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                *slot = symbol;
+                self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                self.buf >>= bits;
+                self.lane = (lane + 1) % LANES;
+            },
+        ),
+        Some(ints) => {
+            let place = place_of(ints, quote!(symbol), quote!(n - used + i));
+            let tail_loop = tail_loop(ints);
+            let max_state = Literal::u32_unsuffixed(u32::from(parts.max_state_bits));
+            let here = if delta {
+                quote!(place(symbol, before))
+            } else {
+                quote!(place(symbol))
+            };
+            (
+                quote!(let (row, offset, width) = bin(#here);),
+                quote!(self.acc = put_offset(writer, self.acc, offset, width);),
+                quote! {
+                    // The lanes' last symbols' offsets end the stream.
+                    #tail_loop {
+                        let (_, offset, width) = bin(#place);
+                        acc = put_offset(&mut writer, acc, offset, width);
+                    }
+                },
+                quote! {
+                    /// Most bits a symbol's state step costs (its offset bits aside).
+                    const MAX_STATE_BITS: u32 = #max_state;
+
+                    /// Pushes `width` (at most 32) offset bits under the pending bits of
+                    /// `acc`, high piece first, in pieces of at most 16, flushing so that
+                    /// each fits and `MOST` bits stay free after.
+                    #[inline(always)]
+                    fn put_offset(writer: &mut Writer<'_>, acc: u32, offset: u32, width: u32) -> u32 {
+                        let low = if width < 16 { width } else { 16 };
+                        let high = width.wrapping_sub(low);
+                        let mut acc = acc;
+                        if acc >> 16 != 0 {
+                            acc = writer.flush(acc);
+                        }
+                        acc = acc.wrapping_shl(high) | (offset.wrapping_shr(low) & !u32::MAX.wrapping_shl(high));
+                        if acc >> 16 != 0 {
+                            acc = writer.flush(acc);
+                        }
+                        acc = acc.wrapping_shl(low) | (offset & !u32::MAX.wrapping_shl(low));
+                        if acc >> (32 - MOST) != 0 {
+                            acc = writer.flush(acc);
+                        }
+                        acc
+                    }
+
+                    /// `width` (at most 32) offset bits at bit `at` of the payload, in two
+                    /// reads of at most 16 (`peek` holds 25 bits or more).
+                    #[inline(always)]
+                    fn take(payload: &[u8], at: &mut usize, width: u32) -> u32 {
+                        let low = if width < 16 { width } else { 16 };
+                        let high = width.wrapping_sub(low);
+                        let a = peek(payload, *at) & !u32::MAX.wrapping_shl(low);
+                        *at = at.wrapping_add(low as usize);
+                        let b = peek(payload, *at) & !u32::MAX.wrapping_shl(high);
+                        *at = at.wrapping_add(high as usize);
+                        a | b.wrapping_shl(low)
+                    }
+
+                    impl Decoding {
+                        /// The next `width` (at most 32) bits of the stream, in pieces
+                        /// of at most 16, refilling the buffer as it must.
+                        #[inline(always)]
+                        fn offset(&mut self, reader: &mut Reader<'_>, width: u32) -> u32 {
+                            let low = if width < 16 { width } else { 16 };
+                            let high = width.wrapping_sub(low);
+                            if self.buf < 1 << 16 {
+                                self.buf = reader.refill(self.buf);
+                            }
+                            let a = self.buf & !u32::MAX.wrapping_shl(low);
+                            self.buf = self.buf.wrapping_shr(low);
+                            if self.buf < 1 << 16 {
+                                self.buf = reader.refill(self.buf);
+                            }
+                            let b = self.buf & !u32::MAX.wrapping_shl(high);
+                            self.buf = self.buf.wrapping_shr(high);
+                            a | b.wrapping_shl(low)
+                        }
+                    }
+                },
+                quote! {
+                    if self.buf < 1 << MAX_STATE_BITS {
+                        self.buf = reader.refill(self.buf);
+                    }
+                    let lane = self.lane % LANES;
+                    let p = self.state[lane] & MASK;
+                    let (symbol, bits, base) = step(p);
+                    self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                    self.buf >>= bits;
+                    let offset = self.offset(reader, u32::from(WIDTHS[p]));
+                    *slot = symbol.wrapping_add(offset as Symbol);
+                    self.lane = (lane + 1) % LANES;
+                },
+            )
+        }
+    };
+    // Integers codecs read the lanes' last offsets after the loop: `at` moves on.
+    let (acc_decl, at_decl) = if parts.integers.is_some() {
+        (
+            quote!(let mut acc: u32 = 1;),
+            quote!(let mut at = reader.at(buf);),
+        )
+    } else {
+        (quote!(let acc: u32 = 1;), quote!(let at = reader.at(buf);))
+    };
     quote! {
         /// The 32-bit path: a 32-bit bit buffer and one loop for every symbol.
         #[cfg(not(target_pointer_width = "64"))]
@@ -803,7 +1296,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
             /// buffer holds a marker bit above its pending bits; at or above
             /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
-            const MOST: u32 = if MAX_SYMBOL_BITS > TABLE_BITS { MAX_SYMBOL_BITS } else { TABLE_BITS };
+            const MOST: u32 = if #state_bits > TABLE_BITS { #state_bits } else { TABLE_BITS };
 
             /// Where the encoder stores whole bytes, back to front. Kept out of the symbol
             /// loop (its stores are rare), so that the loop's values stay in registers.
@@ -873,25 +1366,17 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 #[inline(never)]
                 fn run(&mut self, writer: &mut Writer<'_>, input: &[Symbol]) {
                     let mut e = Encoding { state: self.state, ..*self };
-                    // Two symbols a turn of the loop: half the loop's own instructions.
-                    let (rest, pairs) = input.as_rchunks::<2>();
-                    for &[a, b] in pairs.iter().rev() {
-                        e.one(writer, b);
-                        e.one(writer, a);
-                    }
-                    for &symbol in rest.iter().rev() {
-                        e.one(writer, symbol);
-                    }
+                    #encode_loop
                     *self = e;
                 }
 
                 /// Puts one symbol into its lane's state.
                 #[inline(always)]
                 #[allow(clippy::modulo_one)]
-                fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol) {
+                fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol #before_param) {
                     let lane = self.lane % LANES;
-                    let row = #row;
-                    #note_absent
+                    #encode_bind
+                    #encode_offset
                     let x = self.state[lane];
                     let (bits, high, next) = put_symbol(x, row);
                     // `(acc << bits) | (x & mask)`, as `x ^ (high << bits)` is the low bits.
@@ -935,15 +1420,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 #[inline(always)]
                 #[allow(clippy::modulo_one)]
                 fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                    if self.buf < 1 << MAX_SYMBOL_BITS {
-                        self.buf = reader.refill(self.buf);
-                    }
-                    let lane = self.lane % LANES;
-                    let (symbol, bits, base) = step(self.state[lane] & MASK);
-                    *slot = symbol;
-                    self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
-                    self.buf >>= bits;
-                    self.lane = (lane + 1) % LANES;
+                    #decode_one
                 }
             }
 
@@ -989,7 +1466,8 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 };
                 #encode_start
                 // The pending bits under a marker bit: `1` alone is none.
-                let acc: u32 = 1;
+                #acc_decl
+                #tail_offsets
                 // Symbols go in backwards: the decoder reads the last one's bits first.
                 // Symbol `i` belongs to lane `i % LANES`.
                 let mut e = Encoding {
@@ -1044,7 +1522,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 };
                 d.run(&mut reader, head);
                 let Decoding { buf, state, .. } = d;
-                let at = reader.at(buf);
+                #at_decl
                 #decode_tail
                 #decode_end
             }
@@ -1054,6 +1532,8 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             fn peek(data: &[u8], at: usize) -> u32 {
                 word(data, at >> 3) >> (at & 7)
             }
+
+            #offset_items
         }
     }
 }

@@ -26,6 +26,7 @@ pub struct Bytes {
 fn read(
     symbols: Option<&Spanned<DeValue<'_>>>,
     _codec: Range<usize>,
+    _keys: &dyn super::SpecKeys,
 ) -> Result<Arc<dyn Kind>, Vec<Misplaced>> {
     let mut values: Vec<(u8, Range<usize>)> = Vec::new();
     let mut errors = Vec::new();

@@ -5,6 +5,7 @@
 //! generated `encode` finds its table row ([`InputMap`]).
 
 mod bytes;
+pub mod integers;
 mod tokens;
 
 pub use tokens::MAX_TOKENS;
@@ -19,11 +20,17 @@ use toml::Spanned;
 /// A problem with the spec at a byte span of its text; the spec stage adds file and codec.
 pub type Misplaced = (Range<usize>, String);
 
-/// Reads a kind's alphabet from its `symbols` value (absent: the kind's default, if any).
-/// `codec` is the span of the whole codec table, for errors about a missing key.
+/// The codec's keys (with `[defaults]` underneath), for kinds that read keys of their own.
+pub trait SpecKeys {
+    fn key(&self, name: &str) -> Option<&Spanned<DeValue<'_>>>;
+}
+
+/// Reads a kind's alphabet from its `symbols` value (absent: the kind's default, if any) and
+/// its own keys. `codec` is the span of the whole codec table, for errors about a missing key.
 pub type ReadSymbols = fn(
     symbols: Option<&Spanned<DeValue<'_>>>,
     codec: Range<usize>,
+    keys: &dyn SpecKeys,
 ) -> Result<Arc<dyn Kind>, Vec<Misplaced>>;
 
 /// One registered kind: its name in specs and its reader.
@@ -33,14 +40,14 @@ pub struct KindEntry {
 }
 
 /// Every kind a spec may name, in the order messages list them.
-pub const KINDS: &[KindEntry] = &[bytes::ENTRY, tokens::ENTRY];
+pub const KINDS: &[KindEntry] = &[bytes::ENTRY, tokens::ENTRY, integers::ENTRY];
 
 /// The kind named `name`, if registered.
 pub fn find(name: &str) -> Option<&'static KindEntry> {
     KINDS.iter().find(|k| k.name == name)
 }
 
-/// `"bytes" or "tokens"`, for messages.
+/// `"bytes", "tokens" or "integers"`, for messages.
 pub fn names() -> String {
     let quoted: Vec<String> = KINDS.iter().map(|k| format!("\"{}\"", k.name)).collect();
     match quoted.split_last() {
@@ -126,4 +133,12 @@ pub trait Kind: fmt::Debug + Send + Sync {
     fn all_symbols(&self) -> TokenStream;
     /// A symbol as a Rust expression in table rows (`b'a'`, `Symbol::Ok`).
     fn row_literal(&self, symbol: usize) -> String;
+    /// The integers alphabet, for the stages that treat its values and offset bits apart.
+    fn integers(&self) -> Option<&integers::Integers> {
+        None
+    }
+    /// Tables the kind adds to the method's (integer bins and their offset widths).
+    fn extra_tables(&self, _table_bits: u32) -> Vec<crate::method::LayoutEntry> {
+        Vec::new()
+    }
 }

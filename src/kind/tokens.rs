@@ -31,6 +31,7 @@ pub struct Tokens {
 fn read(
     symbols: Option<&Spanned<DeValue<'_>>>,
     codec: Range<usize>,
+    _keys: &dyn super::SpecKeys,
 ) -> Result<Arc<dyn Kind>, Vec<Misplaced>> {
     let Some(raw) = symbols else {
         return Err(vec![(

@@ -69,7 +69,8 @@ pub const SKEW16_COUNTS: [u64; 16] = [
 ];
 /// Synthetic: 0.9, 0.05, 0.03, 0.02 for 'a'..='d' (0.618 bits/symbol).
 pub const QUAD_COUNTS: [u64; 4] = [9000, 500, 300, 200];
-/// The level_delta counts of codecs.toml (zigzag deltas 0..=31); keep the two in step.
+/// The demo's level changes as zigzag bytes 0..=31 (the byte alphabet `level_delta` had before
+/// it became an integers codec; its differences in codecs.toml are these counts unfolded).
 pub const LEVEL_DELTA_COUNTS: [u64; 32] = [
     41210, 15150, 14880, 5520, 5390, 2010, 1980, 760, 735, 280, 270, 105, 101, 40, 38, 15, 14, 6,
     6, 2, 2, 1, 1, 1, 1, 1, 1, 1, 1, 1, 1, 9,
