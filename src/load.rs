@@ -81,57 +81,6 @@ pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Sample>> {
                 .in_codec(&codec.name)
             };
             let mut file = open_regular(path).map_err(cannot)?;
-            if let Some(integers) = codec.kind.integers() {
-                let mut scanner = integers.value_scanner();
-                let mut sample = Sample {
-                    counts: Vec::new(),
-                    kept: Vec::new(),
-                    total: 0,
-                    hash: 0,
-                    places: Vec::new(),
-                    place_counts: BTreeMap::new(),
-                };
-                let mut own = Fnv::default();
-                let mut places = Vec::new();
-                let mut block = vec![0u8; BLOCK];
-                let misfit = loop {
-                    places.clear();
-                    let (n, result) = match file.read(&mut block) {
-                        Ok(0) => (0, scanner.finish(&mut places)),
-                        Ok(n) => (n, scanner.feed(&block[..n], &mut places)),
-                        Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
-                        Err(e) => return Err(cannot(e.to_string())),
-                    };
-                    hash.write(&block[..n]);
-                    own.write(&block[..n]);
-                    for &u in &places {
-                        *sample.place_counts.entry(u).or_insert(0) += 1;
-                    }
-                    sample.total += places.len() as u64;
-                    let room = KEPT_SYMBOLS - sample.places.len();
-                    sample
-                        .places
-                        .extend_from_slice(&places[..places.len().min(room)]);
-                    match result {
-                        Err(m) => break Some(m),
-                        Ok(()) if n == 0 => break None,
-                        Ok(()) => {}
-                    }
-                };
-                if let Some(Misfit { offset, message }) = misfit {
-                    let at = locate(path, offset).map_err(cannot)?;
-                    return Err(Error::input(
-                        Some(at),
-                        format!("{message} (byte offset {offset})"),
-                    )
-                    .in_codec(&codec.name));
-                }
-                hash.end_part();
-                sample.hash = own.finish();
-                out.push(sample);
-                continue;
-            }
-            let mut scanner = codec.kind.scanner();
             let mut sample = Sample {
                 counts: vec![0; codec.kind.alphabet_len()],
                 kept: Vec::new(),
@@ -140,46 +89,90 @@ pub fn samples(codec: &CodecSpec, hash: &mut Fnv) -> Result<Vec<Sample>> {
                 places: Vec::new(),
                 place_counts: BTreeMap::new(),
             };
-            let mut own = Fnv::default();
-            let mut symbols = Vec::new();
-            let mut block = vec![0u8; BLOCK];
-            let misfit = loop {
-                symbols.clear();
-                let (n, result) = match file.read(&mut block) {
-                    Ok(0) => (0, scanner.finish(&mut symbols)),
-                    Ok(n) => (n, scanner.feed(&block[..n], &mut symbols)),
-                    Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
-                    Err(e) => return Err(cannot(e.to_string())),
-                };
-                hash.write(&block[..n]);
-                own.write(&block[..n]);
-                for &s in &symbols {
-                    sample.counts[usize::from(s)] += 1;
-                }
-                sample.total += symbols.len() as u64;
-                let room = KEPT_SYMBOLS - sample.kept.len();
-                sample
-                    .kept
-                    .extend_from_slice(&symbols[..symbols.len().min(room)]);
-                match result {
-                    Err(m) => break Some(m),
-                    Ok(()) if n == 0 => break None,
-                    Ok(()) => {}
-                }
+            let read = if let Some(integers) = codec.kind.integers() {
+                // Integers codecs keep values (places in the range); bins come later.
+                let mut scanner = integers.value_scanner();
+                let mut places = Vec::new();
+                read_blocks(&mut file, hash, |block| {
+                    places.clear();
+                    let result = match block {
+                        Some(b) => scanner.feed(b, &mut places),
+                        None => scanner.finish(&mut places),
+                    };
+                    for &u in &places {
+                        *sample.place_counts.entry(u).or_insert(0) += 1;
+                    }
+                    sample.total += places.len() as u64;
+                    let room = KEPT_SYMBOLS - sample.places.len();
+                    sample
+                        .places
+                        .extend_from_slice(&places[..places.len().min(room)]);
+                    result
+                })
+            } else {
+                let mut scanner = codec.kind.scanner();
+                let mut symbols = Vec::new();
+                read_blocks(&mut file, hash, |block| {
+                    symbols.clear();
+                    let result = match block {
+                        Some(b) => scanner.feed(b, &mut symbols),
+                        None => scanner.finish(&mut symbols),
+                    };
+                    for &s in &symbols {
+                        sample.counts[usize::from(s)] += 1;
+                    }
+                    sample.total += symbols.len() as u64;
+                    let room = KEPT_SYMBOLS - sample.kept.len();
+                    sample
+                        .kept
+                        .extend_from_slice(&symbols[..symbols.len().min(room)]);
+                    result
+                })
             };
-            if let Some(Misfit { offset, message }) = misfit {
-                let at = locate(path, offset).map_err(cannot)?;
-                return Err(
-                    Error::input(Some(at), format!("{message} (byte offset {offset})"))
-                        .in_codec(&codec.name),
-                );
+            match read.map_err(cannot)? {
+                Ok(own) => sample.hash = own,
+                Err(Misfit { offset, message }) => {
+                    let at = locate(path, offset).map_err(cannot)?;
+                    return Err(Error::input(
+                        Some(at),
+                        format!("{message} (byte offset {offset})"),
+                    )
+                    .in_codec(&codec.name));
+                }
             }
-            hash.end_part();
-            sample.hash = own.finish();
             out.push(sample);
         }
     }
     Ok(out)
+}
+
+/// Reads `file` in blocks into `hash` (ending its part), handing each block to `feed`, then
+/// `None` for the end of the input. Returns the file's own FNV-1a, or the first misfit
+/// `feed` found; an I/O failure is the outer error.
+fn read_blocks(
+    file: &mut std::fs::File,
+    hash: &mut Fnv,
+    mut feed: impl FnMut(Option<&[u8]>) -> std::result::Result<(), Misfit>,
+) -> std::result::Result<std::result::Result<u64, Misfit>, String> {
+    let mut own = Fnv::default();
+    let mut block = vec![0u8; BLOCK];
+    loop {
+        let n = match file.read(&mut block) {
+            Ok(n) => n,
+            Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
+            Err(e) => return Err(e.to_string()),
+        };
+        hash.write(&block[..n]);
+        own.write(&block[..n]);
+        let result = feed((n > 0).then(|| &block[..n]));
+        if let Err(m) = result {
+            return Ok(Err(m));
+        }
+        if n == 0 {
+            hash.end_part();
+            return Ok(Ok(own.finish()));
+        }
+    }
 }
 
 /// Line and column of byte `offset` of the file at `path`, read again in blocks (only on the
