@@ -470,3 +470,51 @@ fn bad_counts_files_and_corpora_are_located_errors() {
         "{err}"
     );
 }
+
+#[test]
+fn inspect_prints_the_values_of_an_integers_stream() {
+    // delta_l8_i8 (tests/specs/integers.toml): deltas of i8 values over eight lanes, tagged.
+    // Values at both ends of the range and big jumps, so that deltas wrap and bins of
+    // several widths carry offset bits.
+    let values: [i64; 12] = [0, 1, -1, 127, -128, 5, 5, 100, -100, 3, -3, 0];
+    let planned = precast::plan_spec(root().join("tests/specs/integers.toml")).unwrap();
+    let plan = planned
+        .plans
+        .iter()
+        .find(|p| p.spec.name == "delta_l8_i8")
+        .unwrap();
+    let ints = plan.spec.kind.integers().unwrap();
+    let (mut symbols, mut offsets) = (Vec::new(), Vec::new());
+    let mut prev = ints.domain.reference();
+    for &v in &values {
+        let place = ints.domain.place(v, prev);
+        let bin = precast::kind::integers::bin_index(&ints.bins, place);
+        symbols.push(bin as u16);
+        offsets.push(place - ints.bins[bin].start);
+        prev = v;
+    }
+    let stream = Reference::framed(
+        &plan.sets[0].tables,
+        plan.fingerprint,
+        plan.spec.framing,
+        plan.spec.lanes,
+    )
+    .with_widths(ints.bins.iter().map(|b| b.width).collect())
+    .encode_offsets(&symbols, &offsets);
+    let dir = scratch("inspect-integers");
+    let file = dir.join("frame.bin");
+    std::fs::write(&file, &stream).unwrap();
+    let spec = root().join("tests/specs/integers.toml");
+    let out = precast(&[
+        "inspect",
+        "--spec",
+        s(&spec),
+        "--codec",
+        "delta_l8_i8",
+        s(&file),
+    ]);
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    let shown = text(&out.stdout);
+    let want: Vec<String> = values.iter().map(|v| v.to_string()).collect();
+    assert!(shown.contains(&want.join(" ")), "{shown}");
+}

@@ -211,14 +211,19 @@ fn inspect(
     let [set, ..] = plan.sets.as_slice() else {
         return Err("internal: a codec without tables".into());
     };
-    let coder = Reference::framed(&set.tables, plan.fingerprint, framing, plan.spec.lanes);
+    let kind = plan.spec.kind.as_ref();
+    let mut coder = Reference::framed(&set.tables, plan.fingerprint, framing, plan.spec.lanes);
+    // Integers codecs: each symbol (a bin) is followed by its offset bits.
+    if let Some(ints) = kind.integers() {
+        coder = coder.with_widths(ints.bins.iter().map(|b| b.width).collect());
+    }
     let _ = writeln!(
         out,
         "payload: bytes {header}..{} ({} bytes)",
         stream.len(),
         stream.len().saturating_sub(header)
     );
-    let (decoded, used) = coder.decode(stream, symbols).map_err(|e| {
+    let (decoded, offsets, used) = coder.decode_offsets(stream, symbols).map_err(|e| {
         let end = stream.len();
         match e {
             StreamError::Truncated => format!(
@@ -239,8 +244,22 @@ fn inspect(
         }
     })?;
     let _ = writeln!(out, "symbols ({}):", decoded.len());
-    let kind = plan.spec.kind.as_ref();
-    if kind.name() == "bytes" {
+    if let Some(ints) = kind.integers() {
+        // Values: the bin's first place plus the offset, then (delta codecs) added to the
+        // previous value, the first to the reference.
+        let mut prev = ints.domain.reference();
+        let values: Vec<String> = decoded
+            .iter()
+            .zip(&offsets)
+            .map(|(&s, &o)| {
+                let start = ints.bins.get(usize::from(s)).map_or(0, |b| b.start);
+                let v = ints.domain.value(start.saturating_add(o), prev);
+                prev = v;
+                v.to_string()
+            })
+            .collect();
+        let _ = writeln!(out, "{}", values.join(" "));
+    } else if kind.name() == "bytes" {
         let values = kind.identity();
         let bytes: Vec<u8> = decoded
             .iter()
