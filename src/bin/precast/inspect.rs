@@ -230,7 +230,7 @@ fn inspect(
                 "byte offset {end}: the stream ends; the {symbols} symbols need more payload"
             ),
             StreamError::Corrupt => format!(
-                "byte offset {end}: the decoder's final states are not the encoder's starting ones: the payload (bytes {header}..{end}) is damaged or cut"
+                "byte offset {end}: the payload (bytes {header}..{end}) fails its end checks (set padding bits, or rANS final states other than the starting one): it is damaged or cut"
             ),
             StreamError::TrailingBytes => format!(
                 "byte offset {header}: the payload holds more than {symbols} symbols (whole bytes left over at its end)"
