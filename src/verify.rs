@@ -17,7 +17,11 @@ use crate::spec::Framing;
 pub const FORMAT_VERSION: u8 = 3;
 
 /// One-lane tANS streams of compact or bare framing with at most this many symbols try
-/// [`SEARCH_STARTS`] starting states and keep the shortest stream (FORMAT.md, "Frames").
+/// One-lane compact and bare tANS streams try [`SEARCH_STARTS`] starting states, each judged
+/// by a dry run over the first [`TRIAL_SYMBOLS`] symbols the encoder puts in (FORMAT.md,
+/// "Frames").
+pub const TRIAL_SYMBOLS: usize = 16;
+/// Streams of more symbols skip the search: what it saves (a byte at most) no longer counts.
 pub const SEARCH_SYMBOLS: usize = 256;
 /// Starting states tried by that search.
 pub const SEARCH_STARTS: usize = 16;
@@ -248,7 +252,6 @@ impl<'a> Reference<'a> {
         } else {
             1
         };
-        let mut best: Option<Vec<bool>> = None;
         // Without the search, the copy the encoder reaches from state `L`.
         let first: Vec<u32> = last
             .iter()
@@ -262,29 +265,58 @@ impl<'a> Reference<'a> {
                 self.positions[usize::from(s)][((l >> k) - q) as usize]
             })
             .collect();
-        let tried: Vec<Vec<u32>> = match last.first() {
-            Some(&s) if tries > 1 => self
-                .starts(tans, s, tries)
-                .into_iter()
-                .map(|p| vec![p])
-                .collect(),
-            _ => vec![first],
+        let start = match last.first() {
+            Some(&s) if tries > 1 => {
+                // The candidate whose first symbols write the fewest bits, less the zeros
+                // they end the stream with (the first on a tie).
+                let mut best: Option<(i64, u32)> = None;
+                for p in self.starts(tans, s, tries) {
+                    let score = self.trial(tans, &symbols[..n - 1], p);
+                    if best.is_none_or(|(b, _)| score < b) {
+                        best = Some((score, p));
+                    }
+                }
+                best.map_or(first, |(_, p)| vec![p])
+            }
+            _ => first,
         };
-        for start in tried {
-            let mut bits = self.tans_bits(tans, symbols, offsets, &start);
-            if !framed {
-                // Trailing zeros read as zeros past the end: leave them out, up to the limit.
-                let end = bits.iter().rposition(|&b| b).map_or(0, |i| i + 1);
-                bits.truncate(end.max(bits.len().saturating_sub(PAST_END_BITS)));
-            }
-            if best
-                .as_ref()
-                .is_none_or(|b| bits.len().div_ceil(8) < b.len().div_ceil(8))
-            {
-                best = Some(bits);
-            }
+        let mut bits = self.tans_bits(tans, symbols, offsets, &start);
+        if !framed {
+            // Trailing zeros read as zeros past the end: leave them out, up to the limit.
+            let end = bits.iter().rposition(|&b| b).map_or(0, |i| i + 1);
+            bits.truncate(end.max(bits.len().saturating_sub(PAST_END_BITS)));
         }
-        pack(&best.unwrap_or_default())
+        pack(&bits)
+    }
+
+    /// A starting position's score: over the first [`TRIAL_SYMBOLS`] symbols of `head` the
+    /// encoder puts in (backwards), the bits they write less the zeros these end the stream
+    /// with (read least significant first, a field ends in its high bits); when the whole
+    /// head is in the trial and wrote only zeros, the zeros of the first state's field too.
+    fn trial(&self, tans: &Tans, head: &[u16], start: u32) -> i64 {
+        let r = tans.table_bits;
+        let l = 1u32 << r;
+        let mut x = l + start;
+        let (mut bits, mut zeros, mut clean) = (0i64, 0i64, true);
+        for &s in head.iter().rev().take(TRIAL_SYMBOLS) {
+            let q = tans.slots[usize::from(s)];
+            let mut k = 0;
+            while (x >> k) >= 2 * q {
+                k += 1;
+            }
+            let low = x & ((1u32 << k) - 1);
+            if clean {
+                zeros += i64::from(k - (32 - low.leading_zeros()));
+                clean = low == 0;
+            }
+            bits += i64::from(k);
+            x = l + self.positions[usize::from(s)][((x >> k) - q) as usize];
+        }
+        if clean && head.len() <= TRIAL_SYMBOLS {
+            let field = x - l;
+            zeros += i64::from(r - (32 - field.leading_zeros()));
+        }
+        bits - zeros
     }
 
     /// The payload bits, in reading order, for the lanes' starting positions `start`.

@@ -265,29 +265,32 @@ pub mod gauge_status {
     fn position(i: u32) -> usize {
         (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
     }
-    /// Streams of up to this many symbols try several starting states.
-    const SEARCH_SYMBOLS: usize = 256;
     /// Starting states tried.
     const SEARCH_STARTS: usize = 16;
+    /// Symbols of the dry run that judges a starting state.
+    const TRIAL_SYMBOLS: usize = 16;
+    /// Streams of more symbols skip the search: what it saves (a byte at most) no longer
+    /// counts.
+    const SEARCH_SYMBOLS: usize = 256;
     /// The starting state of the lane whose last symbol is `last` (a copy of it, so that
-    /// it costs no bits): of its first `tries` copies in [`position`] order, the one that
-    /// gives the shortest stream for `head` (the first on a tie); with one try, the copy
-    /// the encoder reaches from state `L`.
-    fn start(head: &[Symbol], last: Symbol, tries: usize) -> u32 {
-        if tries == 1 {
+    /// it costs no bits): of its first `SEARCH_STARTS` copies in [`position`] order, the
+    /// one with the lowest [`trial`] score (the first on a tie); past `SEARCH_SYMBOLS`,
+    /// the copy the encoder reaches from state `L`.
+    fn start(head: &[Symbol], last: Symbol) -> u32 {
+        if head.len() >= SEARCH_SYMBOLS {
             let symbol = last;
             return put_symbol(TABLE_LEN as u32, symbol as usize).2;
         }
-        let mut best = (usize::MAX, TABLE_LEN as u32);
+        let mut best = (i32::MAX, TABLE_LEN as u32);
         let mut found = 0;
         let mut i = 0;
-        while i < TABLE_LEN as u32 && found < tries {
+        while i < TABLE_LEN as u32 && found < SEARCH_STARTS {
             let p = position(i);
             if SYMBOLS[p] == last {
                 let x = (TABLE_LEN + p) as u32;
-                let bytes = trial(head, x);
-                if bytes < best.0 {
-                    best = (bytes, x);
+                let score = trial(head, x);
+                if score < best.0 {
+                    best = (score, x);
                 }
                 found += 1;
             }
@@ -295,31 +298,34 @@ pub mod gauge_status {
         }
         best.1
     }
-    /// The payload bytes `head` takes from starting state `x` once its trailing zeros
-    /// (up to `PAST_END_BITS`) are left out: a dry run of the encoder that counts the
-    /// bits, and the zeros at the end of the stream (the first bits written).
-    fn trial(head: &[Symbol], mut x: u32) -> usize {
-        let mut bits = TABLE_BITS as usize;
-        let mut zeros = 0u32;
+    /// A dry run of the encoder from state `x` over the first `TRIAL_SYMBOLS` symbols it
+    /// puts in (the last of `head`): the bits they write less the zeros these end the
+    /// stream with (left out); with all of `head` in the run and only zeros written, the
+    /// zeros of the first state's field too.
+    fn trial(head: &[Symbol], mut x: u32) -> i32 {
+        let mut bits = 0i32;
+        let mut zeros = 0i32;
         let mut clean = true;
-        for &symbol in head.iter().rev() {
+        for &symbol in head.iter().rev().take(TRIAL_SYMBOLS) {
             let row = symbol as usize;
             let (k, high, next) = put_symbol(x, row);
             if clean {
                 let low = x ^ (high << k);
-                zeros = zeros.wrapping_add(k.wrapping_sub(32 - low.leading_zeros()));
+                zeros = zeros
+                    .wrapping_add(k.wrapping_sub(32 - low.leading_zeros()) as i32);
                 clean = low == 0;
             }
-            bits = bits.wrapping_add(k as usize);
+            bits = bits.wrapping_add(k as i32);
             x = next;
         }
-        if clean {
+        if clean && head.len() <= TRIAL_SYMBOLS {
             let first = x.wrapping_sub(TABLE_LEN as u32);
             zeros = zeros
-                .wrapping_add(first.leading_zeros().wrapping_sub(32 - TABLE_BITS));
+                .wrapping_add(
+                    first.leading_zeros().wrapping_sub(32 - TABLE_BITS) as i32,
+                );
         }
-        let cut = if (zeros as usize) < 64 { zeros as usize } else { 64 };
-        bits.saturating_sub(cut).div_ceil(8)
+        bits.wrapping_sub(zeros)
     }
     /// Bits a decoder may read past the end of the stream, as zeros: the trailing zeros
     /// the encoder leaves out.
@@ -403,11 +409,7 @@ pub mod gauge_status {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(
-                    head,
-                    last,
-                    if n <= SEARCH_SYMBOLS { SEARCH_STARTS } else { 1 },
-                );
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
@@ -764,11 +766,7 @@ pub mod gauge_status {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(
-                    head,
-                    last,
-                    if n <= SEARCH_SYMBOLS { SEARCH_STARTS } else { 1 },
-                );
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -2484,29 +2482,32 @@ pub mod field_notes {
     fn position(i: u32) -> usize {
         (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
     }
-    /// Streams of up to this many symbols try several starting states.
-    const SEARCH_SYMBOLS: usize = 256;
     /// Starting states tried.
     const SEARCH_STARTS: usize = 16;
+    /// Symbols of the dry run that judges a starting state.
+    const TRIAL_SYMBOLS: usize = 16;
+    /// Streams of more symbols skip the search: what it saves (a byte at most) no longer
+    /// counts.
+    const SEARCH_SYMBOLS: usize = 256;
     /// The starting state of the lane whose last symbol is `last` (a copy of it, so that
-    /// it costs no bits): of its first `tries` copies in [`position`] order, the one that
-    /// gives the shortest stream for `head` (the first on a tie); with one try, the copy
-    /// the encoder reaches from state `L`.
-    fn start(head: &[Symbol], last: Symbol, tries: usize) -> u32 {
-        if tries == 1 {
+    /// it costs no bits): of its first `SEARCH_STARTS` copies in [`position`] order, the
+    /// one with the lowest [`trial`] score (the first on a tie); past `SEARCH_SYMBOLS`,
+    /// the copy the encoder reaches from state `L`.
+    fn start(head: &[Symbol], last: Symbol) -> u32 {
+        if head.len() >= SEARCH_SYMBOLS {
             let symbol = last;
             return put_symbol(TABLE_LEN as u32, usize::from(symbol).min(123)).2;
         }
-        let mut best = (usize::MAX, TABLE_LEN as u32);
+        let mut best = (i32::MAX, TABLE_LEN as u32);
         let mut found = 0;
         let mut i = 0;
-        while i < TABLE_LEN as u32 && found < tries {
+        while i < TABLE_LEN as u32 && found < SEARCH_STARTS {
             let p = position(i);
             if SYMBOLS[p] == last {
                 let x = (TABLE_LEN + p) as u32;
-                let bytes = trial(head, x);
-                if bytes < best.0 {
-                    best = (bytes, x);
+                let score = trial(head, x);
+                if score < best.0 {
+                    best = (score, x);
                 }
                 found += 1;
             }
@@ -2514,31 +2515,34 @@ pub mod field_notes {
         }
         best.1
     }
-    /// The payload bytes `head` takes from starting state `x` once its trailing zeros
-    /// (up to `PAST_END_BITS`) are left out: a dry run of the encoder that counts the
-    /// bits, and the zeros at the end of the stream (the first bits written).
-    fn trial(head: &[Symbol], mut x: u32) -> usize {
-        let mut bits = TABLE_BITS as usize;
-        let mut zeros = 0u32;
+    /// A dry run of the encoder from state `x` over the first `TRIAL_SYMBOLS` symbols it
+    /// puts in (the last of `head`): the bits they write less the zeros these end the
+    /// stream with (left out); with all of `head` in the run and only zeros written, the
+    /// zeros of the first state's field too.
+    fn trial(head: &[Symbol], mut x: u32) -> i32 {
+        let mut bits = 0i32;
+        let mut zeros = 0i32;
         let mut clean = true;
-        for &symbol in head.iter().rev() {
+        for &symbol in head.iter().rev().take(TRIAL_SYMBOLS) {
             let row = usize::from(symbol).min(123);
             let (k, high, next) = put_symbol(x, row);
             if clean {
                 let low = x ^ (high << k);
-                zeros = zeros.wrapping_add(k.wrapping_sub(32 - low.leading_zeros()));
+                zeros = zeros
+                    .wrapping_add(k.wrapping_sub(32 - low.leading_zeros()) as i32);
                 clean = low == 0;
             }
-            bits = bits.wrapping_add(k as usize);
+            bits = bits.wrapping_add(k as i32);
             x = next;
         }
-        if clean {
+        if clean && head.len() <= TRIAL_SYMBOLS {
             let first = x.wrapping_sub(TABLE_LEN as u32);
             zeros = zeros
-                .wrapping_add(first.leading_zeros().wrapping_sub(32 - TABLE_BITS));
+                .wrapping_add(
+                    first.leading_zeros().wrapping_sub(32 - TABLE_BITS) as i32,
+                );
         }
-        let cut = if (zeros as usize) < 64 { zeros as usize } else { 64 };
-        bits.saturating_sub(cut).div_ceil(8)
+        bits.wrapping_sub(zeros)
     }
     /// Bits a decoder may read past the end of the stream, as zeros: the trailing zeros
     /// the encoder leaves out.
@@ -2626,11 +2630,7 @@ pub mod field_notes {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
                 absent |= u32::from(PUT[row][3] >> 7);
-                state[(n - used + i) % LANES] = start(
-                    head,
-                    last,
-                    if n <= SEARCH_SYMBOLS { SEARCH_STARTS } else { 1 },
-                );
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
@@ -3006,11 +3006,7 @@ pub mod field_notes {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
                 absent |= u32::from(PUT[row][3] >> 7);
-                state[(n - used + i) % LANES] = start(
-                    head,
-                    last,
-                    if n <= SEARCH_SYMBOLS { SEARCH_STARTS } else { 1 },
-                );
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
             let mut e = Encoding {

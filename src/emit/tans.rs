@@ -455,8 +455,8 @@ fn count_check(tans: &Tans, framing: &FramingTokens) -> TokenStream {
 
 /// The encoder's start: the symbols split into `head`, put into the lanes' states one by one,
 /// and the last symbol of each lane, which picks the lane's starting state (a copy of it, so
-/// that it costs no bits). One-lane compact and bare streams of up to `SEARCH_SYMBOLS` symbols
-/// try `SEARCH_STARTS` copies and keep the one that gives the shortest stream.
+/// that it costs no bits). One-lane compact and bare streams try `SEARCH_STARTS` copies, each
+/// judged by a dry run over `TRIAL_SYMBOLS` symbols.
 fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
     let InputTokens {
         row,
@@ -489,16 +489,6 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             }
         };
     }
-    let search = searches(plan);
-    let tries = if search {
-        quote!(if n <= SEARCH_SYMBOLS {
-            SEARCH_STARTS
-        } else {
-            1
-        })
-    } else {
-        quote!(1)
-    };
     quote! {
         let n = input.len();
         let used = if n < LANES { n } else { LANES };
@@ -509,7 +499,7 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
         let mut state = [TABLE_LEN as u32; LANES];
         for (i, &last) in tail.iter().enumerate() {
             #check_tail
-            state[(n - used + i) % LANES] = start(head, last, #tries);
+            state[(n - used + i) % LANES] = start(head, last);
         }
     }
 }
@@ -726,7 +716,7 @@ fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             /// encoder reaches from state `L` (that symbol then costs no bits), found without
             /// the decoding table, which an encoder-only image need not hold.
             #[inline(always)]
-            fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
+            fn start(_head: &[Symbol], last: Symbol) -> u32 {
                 let symbol = last;
                 put_symbol(TABLE_LEN as u32, #row).2
             }
@@ -735,31 +725,34 @@ fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
     quote! {
         #position
 
-        /// Streams of up to this many symbols try several starting states.
-        const SEARCH_SYMBOLS: usize = 256;
         /// Starting states tried.
         const SEARCH_STARTS: usize = 16;
+        /// Symbols of the dry run that judges a starting state.
+        const TRIAL_SYMBOLS: usize = 16;
+
+        /// Streams of more symbols skip the search: what it saves (a byte at most) no longer
+        /// counts.
+        const SEARCH_SYMBOLS: usize = 256;
 
         /// The starting state of the lane whose last symbol is `last` (a copy of it, so that
-        /// it costs no bits): of its first `tries` copies in [`position`] order, the one that
-        /// gives the shortest stream for `head` (the first on a tie); with one try, the copy
-        /// the encoder reaches from state `L`.
-        fn start(head: &[Symbol], last: Symbol, tries: usize) -> u32 {
-            if tries == 1 {
-                // Long streams: the copy the encoder reaches from state `L`.
+        /// it costs no bits): of its first `SEARCH_STARTS` copies in [`position`] order, the
+        /// one with the lowest [`trial`] score (the first on a tie); past `SEARCH_SYMBOLS`,
+        /// the copy the encoder reaches from state `L`.
+        fn start(head: &[Symbol], last: Symbol) -> u32 {
+            if head.len() >= SEARCH_SYMBOLS {
                 let symbol = last;
                 return put_symbol(TABLE_LEN as u32, #row).2;
             }
-            let mut best = (usize::MAX, TABLE_LEN as u32);
+            let mut best = (i32::MAX, TABLE_LEN as u32);
             let mut found = 0;
             let mut i = 0;
-            while i < TABLE_LEN as u32 && found < tries {
+            while i < TABLE_LEN as u32 && found < SEARCH_STARTS {
                 let p = position(i);
                 if SYMBOLS[p] == last {
                     let x = (TABLE_LEN + p) as u32;
-                    let bytes = trial(head, x);
-                    if bytes < best.0 {
-                        best = (bytes, x);
+                    let score = trial(head, x);
+                    if score < best.0 {
+                        best = (score, x);
                     }
                     found += 1;
                 }
@@ -768,31 +761,31 @@ fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             best.1
         }
 
-        /// The payload bytes `head` takes from starting state `x` once its trailing zeros
-        /// (up to `PAST_END_BITS`) are left out: a dry run of the encoder that counts the
-        /// bits, and the zeros at the end of the stream (the first bits written).
-        fn trial(head: &[Symbol], mut x: u32) -> usize {
-            let mut bits = TABLE_BITS as usize;
-            let mut zeros = 0u32;
+        /// A dry run of the encoder from state `x` over the first `TRIAL_SYMBOLS` symbols it
+        /// puts in (the last of `head`): the bits they write less the zeros these end the
+        /// stream with (left out); with all of `head` in the run and only zeros written, the
+        /// zeros of the first state's field too.
+        fn trial(head: &[Symbol], mut x: u32) -> i32 {
+            let mut bits = 0i32;
+            let mut zeros = 0i32;
             let mut clean = true;
-            for &symbol in head.iter().rev() {
+            for &symbol in head.iter().rev().take(TRIAL_SYMBOLS) {
                 let row = #row;
                 let (k, high, next) = put_symbol(x, row);
                 if clean {
                     let low = x ^ (high << k);
                     // Read least significant first, a field ends in its high zeros.
-                    zeros = zeros.wrapping_add(k.wrapping_sub(32 - low.leading_zeros()));
+                    zeros = zeros.wrapping_add(k.wrapping_sub(32 - low.leading_zeros()) as i32);
                     clean = low == 0;
                 }
-                bits = bits.wrapping_add(k as usize);
+                bits = bits.wrapping_add(k as i32);
                 x = next;
             }
-            if clean {
+            if clean && head.len() <= TRIAL_SYMBOLS {
                 let first = x.wrapping_sub(TABLE_LEN as u32);
-                zeros = zeros.wrapping_add(first.leading_zeros().wrapping_sub(32 - TABLE_BITS));
+                zeros = zeros.wrapping_add(first.leading_zeros().wrapping_sub(32 - TABLE_BITS) as i32);
             }
-            let cut = if (zeros as usize) < 64 { zeros as usize } else { 64 };
-            bits.saturating_sub(cut).div_ceil(8)
+            bits.wrapping_sub(zeros)
         }
     }
 }

@@ -330,7 +330,7 @@ pub mod mit_text {
     /// encoder reaches from state `L` (that symbol then costs no bits), found without
     /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
+    fn start(_head: &[Symbol], last: Symbol) -> u32 {
         let symbol = last;
         put_symbol(TABLE_LEN as u32, usize::from(symbol).min(123)).2
     }
@@ -417,7 +417,7 @@ pub mod mit_text {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
                 absent |= u32::from(PUT[row][3] >> 7);
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
@@ -780,7 +780,7 @@ pub mod mit_text {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
                 absent |= u32::from(PUT[row][3] >> 7);
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -1279,7 +1279,7 @@ pub mod five {
     /// encoder reaches from state `L` (that symbol then costs no bits), found without
     /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
+    fn start(_head: &[Symbol], last: Symbol) -> u32 {
         let symbol = last;
         put_symbol(TABLE_LEN as u32, symbol as usize).2
     }
@@ -1362,7 +1362,7 @@ pub mod five {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
@@ -1706,7 +1706,7 @@ pub mod five {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -2159,7 +2159,7 @@ pub mod skewed {
     /// encoder reaches from state `L` (that symbol then costs no bits), found without
     /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
+    fn start(_head: &[Symbol], last: Symbol) -> u32 {
         let symbol = last;
         put_symbol(TABLE_LEN as u32, symbol as usize).2
     }
@@ -2242,7 +2242,7 @@ pub mod skewed {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
@@ -2586,7 +2586,7 @@ pub mod skewed {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -3016,7 +3016,7 @@ pub mod single {
     /// encoder reaches from state `L` (that symbol then costs no bits), found without
     /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
+    fn start(_head: &[Symbol], last: Symbol) -> u32 {
         let symbol = last;
         put_symbol(TABLE_LEN as u32, symbol as usize).2
     }
@@ -3099,7 +3099,7 @@ pub mod single {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
@@ -3435,7 +3435,7 @@ pub mod single {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -3874,29 +3874,32 @@ pub mod five_bare {
     fn position(i: u32) -> usize {
         (i.reverse_bits() >> (32 - TABLE_BITS)) as usize & MASK
     }
-    /// Streams of up to this many symbols try several starting states.
-    const SEARCH_SYMBOLS: usize = 256;
     /// Starting states tried.
     const SEARCH_STARTS: usize = 16;
+    /// Symbols of the dry run that judges a starting state.
+    const TRIAL_SYMBOLS: usize = 16;
+    /// Streams of more symbols skip the search: what it saves (a byte at most) no longer
+    /// counts.
+    const SEARCH_SYMBOLS: usize = 256;
     /// The starting state of the lane whose last symbol is `last` (a copy of it, so that
-    /// it costs no bits): of its first `tries` copies in [`position`] order, the one that
-    /// gives the shortest stream for `head` (the first on a tie); with one try, the copy
-    /// the encoder reaches from state `L`.
-    fn start(head: &[Symbol], last: Symbol, tries: usize) -> u32 {
-        if tries == 1 {
+    /// it costs no bits): of its first `SEARCH_STARTS` copies in [`position`] order, the
+    /// one with the lowest [`trial`] score (the first on a tie); past `SEARCH_SYMBOLS`,
+    /// the copy the encoder reaches from state `L`.
+    fn start(head: &[Symbol], last: Symbol) -> u32 {
+        if head.len() >= SEARCH_SYMBOLS {
             let symbol = last;
             return put_symbol(TABLE_LEN as u32, symbol as usize).2;
         }
-        let mut best = (usize::MAX, TABLE_LEN as u32);
+        let mut best = (i32::MAX, TABLE_LEN as u32);
         let mut found = 0;
         let mut i = 0;
-        while i < TABLE_LEN as u32 && found < tries {
+        while i < TABLE_LEN as u32 && found < SEARCH_STARTS {
             let p = position(i);
             if SYMBOLS[p] == last {
                 let x = (TABLE_LEN + p) as u32;
-                let bytes = trial(head, x);
-                if bytes < best.0 {
-                    best = (bytes, x);
+                let score = trial(head, x);
+                if score < best.0 {
+                    best = (score, x);
                 }
                 found += 1;
             }
@@ -3904,31 +3907,34 @@ pub mod five_bare {
         }
         best.1
     }
-    /// The payload bytes `head` takes from starting state `x` once its trailing zeros
-    /// (up to `PAST_END_BITS`) are left out: a dry run of the encoder that counts the
-    /// bits, and the zeros at the end of the stream (the first bits written).
-    fn trial(head: &[Symbol], mut x: u32) -> usize {
-        let mut bits = TABLE_BITS as usize;
-        let mut zeros = 0u32;
+    /// A dry run of the encoder from state `x` over the first `TRIAL_SYMBOLS` symbols it
+    /// puts in (the last of `head`): the bits they write less the zeros these end the
+    /// stream with (left out); with all of `head` in the run and only zeros written, the
+    /// zeros of the first state's field too.
+    fn trial(head: &[Symbol], mut x: u32) -> i32 {
+        let mut bits = 0i32;
+        let mut zeros = 0i32;
         let mut clean = true;
-        for &symbol in head.iter().rev() {
+        for &symbol in head.iter().rev().take(TRIAL_SYMBOLS) {
             let row = symbol as usize;
             let (k, high, next) = put_symbol(x, row);
             if clean {
                 let low = x ^ (high << k);
-                zeros = zeros.wrapping_add(k.wrapping_sub(32 - low.leading_zeros()));
+                zeros = zeros
+                    .wrapping_add(k.wrapping_sub(32 - low.leading_zeros()) as i32);
                 clean = low == 0;
             }
-            bits = bits.wrapping_add(k as usize);
+            bits = bits.wrapping_add(k as i32);
             x = next;
         }
-        if clean {
+        if clean && head.len() <= TRIAL_SYMBOLS {
             let first = x.wrapping_sub(TABLE_LEN as u32);
             zeros = zeros
-                .wrapping_add(first.leading_zeros().wrapping_sub(32 - TABLE_BITS));
+                .wrapping_add(
+                    first.leading_zeros().wrapping_sub(32 - TABLE_BITS) as i32,
+                );
         }
-        let cut = if (zeros as usize) < 64 { zeros as usize } else { 64 };
-        bits.saturating_sub(cut).div_ceil(8)
+        bits.wrapping_sub(zeros)
     }
     /// Bits a decoder may read past the end of the stream, as zeros: the trailing zeros
     /// the encoder leaves out.
@@ -4011,11 +4017,7 @@ pub mod five_bare {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(
-                    head,
-                    last,
-                    if n <= SEARCH_SYMBOLS { SEARCH_STARTS } else { 1 },
-                );
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
@@ -4366,11 +4368,7 @@ pub mod five_bare {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(
-                    head,
-                    last,
-                    if n <= SEARCH_SYMBOLS { SEARCH_STARTS } else { 1 },
-                );
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
             let mut e = Encoding {
@@ -5257,7 +5255,7 @@ pub mod skewed_l8 {
     /// encoder reaches from state `L` (that symbol then costs no bits), found without
     /// the decoding table, which an encoder-only image need not hold.
     #[inline(always)]
-    fn start(_head: &[Symbol], last: Symbol, _tries: usize) -> u32 {
+    fn start(_head: &[Symbol], last: Symbol) -> u32 {
         let symbol = last;
         put_symbol(TABLE_LEN as u32, symbol as usize).2
     }
@@ -5340,7 +5338,7 @@ pub mod skewed_l8 {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
@@ -5684,7 +5682,7 @@ pub mod skewed_l8 {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = start(head, last, 1);
+                state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
             let mut e = Encoding {
