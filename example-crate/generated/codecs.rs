@@ -2401,6 +2401,18 @@ pub mod field_notes {
         put(3200, 123), put(3840, 128), put(2208, 119), put(2208, 130), put(1792, 136), put(2752, 163), put(3328, 171), put(2816, 171), // 112 ..
         put(3840, 178), put(3328, 178), put(3840, 181), put(0, 32768), // 120 ..
     ];
+    /// Not zero for an input value outside the alphabet: the top bit of `run`.
+    #[cfg(target_pointer_width = "64")]
+    #[inline(always)]
+    fn absent_flag(row: usize) -> u32 {
+        u32::from(PUT[row][3] >> 7)
+    }
+    /// Not zero for an input value outside the alphabet: the top bit of `run`.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn absent_flag(row: usize) -> u32 {
+        u32::from_le_bytes(PUT[row]) >> 31
+    }
     /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
     /// 32-bit core loads it as one word and a 64-bit one as two halves.
     const fn put(spend: u16, run: u16) -> [u8; 4] {
@@ -2629,7 +2641,7 @@ pub mod field_notes {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
-                absent |= u32::from(PUT[row][3] >> 7);
+                absent |= absent_flag(row);
                 state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
@@ -2637,7 +2649,7 @@ pub mod field_notes {
             let (rounds, rest) = head.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
                 let row = usize::from(symbol).min(123);
-                absent |= u32::from(PUT[row][3] >> 7);
+                absent |= absent_flag(row);
                 let x = state[i % LANES];
                 let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
@@ -2654,7 +2666,7 @@ pub mod field_notes {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(123);
-                        absent |= u32::from(PUT[row][3] >> 7);
+                        absent |= absent_flag(row);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -2677,7 +2689,7 @@ pub mod field_notes {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(123);
-                        absent |= u32::from(PUT[row][3] >> 7);
+                        absent |= absent_flag(row);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -2690,9 +2702,7 @@ pub mod field_notes {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| {
-                        u32::from(PUT[usize::from(symbol).min(123)][3] >> 7) != 0
-                    })
+                    .position(|&symbol| absent_flag(usize::from(symbol).min(123)) != 0)
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
@@ -2904,7 +2914,7 @@ pub mod field_notes {
                 let lane = self.lane % LANES;
                 let row = usize::from(symbol).min(123);
                 let mut absent = 0u32;
-                absent |= u32::from(PUT[row][3] >> 7);
+                absent |= absent_flag(row);
                 self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
@@ -3005,7 +3015,7 @@ pub mod field_notes {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
-                absent |= u32::from(PUT[row][3] >> 7);
+                absent |= absent_flag(row);
                 state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
@@ -3024,9 +3034,7 @@ pub mod field_notes {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| {
-                        u32::from(PUT[usize::from(symbol).min(123)][3] >> 7) != 0
-                    })
+                    .position(|&symbol| absent_flag(usize::from(symbol).min(123)) != 0)
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }

@@ -274,6 +274,27 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
     let kind = plan.spec.kind.as_ref();
     let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
     if tans.joined_put() {
+        // Raw-value inputs read the absent flag from the row as the encoder step reads the
+        // rest of it, so that the compiler loads the row once.
+        let absent = if matches!(plan.input, crate::kind::InputMap::Rows(_)) {
+            quote! {
+                /// Not zero for an input value outside the alphabet: the top bit of `run`.
+                #[cfg(target_pointer_width = "64")]
+                #[inline(always)]
+                fn absent_flag(row: usize) -> u32 {
+                    u32::from(PUT[row][3] >> 7)
+                }
+
+                /// Not zero for an input value outside the alphabet: the top bit of `run`.
+                #[cfg(not(target_pointer_width = "64"))]
+                #[inline(always)]
+                fn absent_flag(row: usize) -> u32 {
+                    u32::from_le_bytes(PUT[row]) >> 31
+                }
+            }
+        } else {
+            TokenStream::new()
+        };
         let put_rows = rows.add(input::put_rows(kind, &plan.input, 8, |line, row| {
             let (spend, run) = row.map_or((0, 0x8000), |s| (tans.puts[s].spend, tans.puts[s].run));
             line.push_str("put(");
@@ -316,6 +337,8 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
             /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
             /// a value outside the alphabet.
             static PUT: [[u8; 4]; #put_len] = #put_rows;
+
+            #absent
 
             /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
             /// 32-bit core loads it as one word and a 64-bit one as two halves.
@@ -360,7 +383,7 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
 /// A row's absent flag (not zero for an input value outside the alphabet).
 pub fn absent(tans: &Tans, row: TokenStream) -> TokenStream {
     if tans.joined_put() {
-        quote!(u32::from(PUT[#row][3] >> 7))
+        quote!(absent_flag(#row))
     } else {
         quote!(u32::from(RUN[#row] >> 15))
     }

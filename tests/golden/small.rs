@@ -204,6 +204,18 @@ pub mod mit_text {
         put(6528, 435), put(0, 32768), put(5376, 433), put(4608, 441), put(4384, 450), put(6400, 490), put(8704, 501), put(6528, 498), // 112 ..
         put(0, 32768), put(7424, 505), put(8704, 510), put(0, 32768), // 120 ..
     ];
+    /// Not zero for an input value outside the alphabet: the top bit of `run`.
+    #[cfg(target_pointer_width = "64")]
+    #[inline(always)]
+    fn absent_flag(row: usize) -> u32 {
+        u32::from(PUT[row][3] >> 7)
+    }
+    /// Not zero for an input value outside the alphabet: the top bit of `run`.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn absent_flag(row: usize) -> u32 {
+        u32::from_le_bytes(PUT[row]) >> 31
+    }
     /// A row of [`PUT`]: `spend` then `run`, 16 bits each, little-endian, so that a
     /// 32-bit core loads it as one word and a 64-bit one as two halves.
     const fn put(spend: u16, run: u16) -> [u8; 4] {
@@ -416,7 +428,7 @@ pub mod mit_text {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
-                absent |= u32::from(PUT[row][3] >> 7);
+                absent |= absent_flag(row);
                 state[(n - used + i) % LANES] = start(head, last);
             }
             let mut acc: u64 = 0;
@@ -424,7 +436,7 @@ pub mod mit_text {
             let (rounds, rest) = head.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in rest.iter().enumerate().rev() {
                 let row = usize::from(symbol).min(123);
-                absent |= u32::from(PUT[row][3] >> 7);
+                absent |= absent_flag(row);
                 let x = state[i % LANES];
                 let (bits, high, next) = put_symbol(x, row);
                 acc = push(acc, x, high, bits);
@@ -441,7 +453,7 @@ pub mod mit_text {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(123);
-                        absent |= u32::from(PUT[row][3] >> 7);
+                        absent |= absent_flag(row);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -464,7 +476,7 @@ pub mod mit_text {
                     for i in (0..ENCODE_ROUND).rev() {
                         let symbol = round[i];
                         let row = usize::from(symbol).min(123);
-                        absent |= u32::from(PUT[row][3] >> 7);
+                        absent |= absent_flag(row);
                         let x = state[i % LANES];
                         let (bits, high, next) = put_symbol(x, row);
                         acc = push(acc, x, high, bits);
@@ -477,9 +489,7 @@ pub mod mit_text {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| {
-                        u32::from(PUT[usize::from(symbol).min(123)][3] >> 7) != 0
-                    })
+                    .position(|&symbol| absent_flag(usize::from(symbol).min(123)) != 0)
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
@@ -678,7 +688,7 @@ pub mod mit_text {
                 let lane = self.lane % LANES;
                 let row = usize::from(symbol).min(123);
                 let mut absent = 0u32;
-                absent |= u32::from(PUT[row][3] >> 7);
+                absent |= absent_flag(row);
                 self.absent |= absent;
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
@@ -779,7 +789,7 @@ pub mod mit_text {
             for (i, &last) in tail.iter().enumerate() {
                 let symbol = last;
                 let row = usize::from(symbol).min(123);
-                absent |= u32::from(PUT[row][3] >> 7);
+                absent |= absent_flag(row);
                 state[(n - used + i) % LANES] = start(head, last);
             }
             let acc: u32 = 1;
@@ -798,9 +808,7 @@ pub mod mit_text {
             if absent != 0 {
                 let position = input
                     .iter()
-                    .position(|&symbol| {
-                        u32::from(PUT[usize::from(symbol).min(123)][3] >> 7) != 0
-                    })
+                    .position(|&symbol| absent_flag(usize::from(symbol).min(123)) != 0)
                     .unwrap_or(0);
                 return Err(Error::UnknownSymbol { position });
             }
