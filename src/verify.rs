@@ -253,18 +253,8 @@ impl<'a> Reference<'a> {
             1
         };
         // Without the search, the copy the encoder reaches from state `L`.
-        let first: Vec<u32> = last
-            .iter()
-            .map(|&s| {
-                let q = tans.slots[usize::from(s)];
-                let l = 1u32 << tans.table_bits;
-                let mut k = 0;
-                while (l >> k) >= 2 * q {
-                    k += 1;
-                }
-                self.positions[usize::from(s)][((l >> k) - q) as usize]
-            })
-            .collect();
+        let l = 1u32 << tans.table_bits;
+        let first: Vec<u32> = last.iter().map(|&s| self.put(tans, l, s).2 - l).collect();
         let start = match last.first() {
             Some(&s) if tries > 1 => {
                 // The candidate whose first symbols write the fewest bits, less the zeros
@@ -289,6 +279,19 @@ impl<'a> Reference<'a> {
         pack(&bits)
     }
 
+    /// One encoding step of symbol `s` from state `x`, found from the spread itself: the bit
+    /// count `k` (the one with `x >> k` in `[q_s, 2q_s)`), the `k` bits written, and the
+    /// state of copy number `x >> k` of `s`.
+    fn put(&self, tans: &Tans, x: u32, s: u16) -> (u32, u32, u32) {
+        let q = tans.slots[usize::from(s)];
+        let mut k = 0;
+        while (x >> k) >= 2 * q {
+            k += 1;
+        }
+        let next = self.positions[usize::from(s)][((x >> k) - q) as usize];
+        (k, x & ((1u32 << k) - 1), (1u32 << tans.table_bits) + next)
+    }
+
     /// A starting position's score: over the first [`TRIAL_SYMBOLS`] symbols of `head` the
     /// encoder puts in (backwards), the bits they write less the zeros these end the stream
     /// with (read least significant first, a field ends in its high bits); when the whole
@@ -299,18 +302,13 @@ impl<'a> Reference<'a> {
         let mut x = l + start;
         let (mut bits, mut zeros, mut clean) = (0i64, 0i64, true);
         for &s in head.iter().rev().take(TRIAL_SYMBOLS) {
-            let q = tans.slots[usize::from(s)];
-            let mut k = 0;
-            while (x >> k) >= 2 * q {
-                k += 1;
-            }
-            let low = x & ((1u32 << k) - 1);
+            let (k, low, next) = self.put(tans, x, s);
             if clean {
                 zeros += i64::from(k - (32 - low.leading_zeros()));
                 clean = low == 0;
             }
             bits += i64::from(k);
-            x = l + self.positions[usize::from(s)][((x >> k) - q) as usize];
+            x = next;
         }
         if clean && head.len() <= TRIAL_SYMBOLS {
             let field = x - l;
@@ -336,13 +334,9 @@ impl<'a> Reference<'a> {
             // A symbol's offset bits follow its state bits in reading order.
             chunks.push((offset(i), self.width(s)));
             let x = &mut x[i % self.lanes];
-            let q = tans.slots[usize::from(s)];
-            let mut k = 0;
-            while (*x >> k) >= 2 * q {
-                k += 1;
-            }
-            chunks.push((*x & ((1u32 << k) - 1), k));
-            *x = l + self.positions[usize::from(s)][((*x >> k) - q) as usize];
+            let (k, low, next) = self.put(tans, *x, s);
+            chunks.push((low, k));
+            *x = next;
         }
         for &x in x.iter().rev() {
             chunks.push((x - l, r));
