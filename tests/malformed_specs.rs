@@ -401,8 +401,8 @@ fn unknown_keys() -> Vec<Case> {
             .at(2, 1, "a", "unknown key `Kind`: did you mean `kind`?"),
         Case::new("codec_key_far", &[&codec[..], &["owner = \"ops\""]].concat())
             .at(4, 1, "a", "unknown key `owner`: expected one of kind, method"),
-        Case::new("old_key_beside_the_new_one", &[&codec[..], &["table_bits = 10", "scale_bits = 10"]].concat())
-            .at(5, 1, "a", "unknown key `scale_bits`: the table size is `table_bits`"),
+        Case::new("old_key_beside_the_new_one", &[&codec[..], &["table_bits = 10", "size_bits = 10"]].concat())
+            .at(5, 1, "a", "unknown key `size_bits`: the table size is `table_bits`"),
         Case::new("codec_subtable", &[&codec[..], &["[codec.a.options]", "fast = true"]].concat())
             .at(4, 10, "a", "unknown key `options`"),
     ]

@@ -221,13 +221,13 @@ fn every_mistake_of_a_spec_is_reported_at_once() {
 
 #[test]
 fn the_old_key_name_is_refused_with_the_new_one() {
-    let msg = err("[codec.a]\nkind = \"bytes\"\ntext = \"x\"\nscale_bits = 9\n");
+    let msg = err("[codec.a]\nkind = \"bytes\"\ntext = \"x\"\nsize_bits = 9\n");
     assert!(
-        msg.starts_with("codecs.toml:4:1: codec `a`: unknown key `scale_bits`"),
+        msg.starts_with("codecs.toml:4:1: codec `a`: unknown key `size_bits`"),
         "{msg}"
     );
     assert!(msg.contains("`table_bits`"), "{msg}");
-    let msg = err("[defaults]\nscale_bits = 9\n[codec.a]\nkind = \"bytes\"\ntext = \"x\"\n");
+    let msg = err("[defaults]\nsize_bits = 9\n[codec.a]\nkind = \"bytes\"\ntext = \"x\"\n");
     assert!(
         msg.starts_with("codecs.toml:2:1:") && msg.contains("`table_bits`"),
         "{msg}"
