@@ -112,6 +112,8 @@ pub fn render(path: impl AsRef<Path>) -> Result<Rendered> {
 
 /// A codec with one table set, as tests and tools inspect it.
 pub struct Built {
+    /// The alphabet as planned (an integers codec's with its bins).
+    pub kind: std::sync::Arc<dyn kind::Kind>,
     pub model: model::Model,
     pub tables: method::Tables,
     pub fingerprint: u16,
@@ -127,6 +129,7 @@ pub fn build_codec(codec: &spec::CodecSpec) -> Result<Built> {
         return Err(Error::internal("a plan without a table set"));
     };
     Ok(Built {
+        kind: plan.spec.kind.clone(),
         model: plan.model,
         tables: set.tables,
         fingerprint: plan.fingerprint,

@@ -3,7 +3,7 @@
 //! today; contexts will give a codec several.
 
 use crate::error::{Error, Result};
-use crate::kind::integers::{bin_index, Integers};
+use crate::kind::integers::Integers;
 use crate::kind::{self, Kind, Misfit};
 use crate::load::Sample;
 use crate::spec::{CodecSpec, Source};
@@ -115,6 +115,7 @@ pub fn build(codec: &CodecSpec, samples: Vec<Sample>) -> Result<Model> {
             }
         }
     }
+    escape_floor(kind, &mut counts);
     Ok(Model {
         counts,
         sequences,
@@ -122,6 +123,25 @@ pub fn build(codec: &CodecSpec, samples: Vec<Sample>) -> Result<Model> {
         bound: None,
         place_counts: BTreeMap::new(),
     })
+}
+
+/// The escape's count: as often as the training data left the alphabet with a floor, or
+/// the spec's `escape_share` ([`crate::kind::Escape::count`]).
+fn escape_floor(kind: &dyn Kind, counts: &mut [u64]) {
+    if let Some(e) = kind.escape() {
+        let seen = counts.get(e.symbol).copied().unwrap_or(0);
+        let others = counts
+            .iter()
+            .fold(0u64, |a, &c| a.saturating_add(c))
+            .saturating_sub(seen);
+        // No training data at all: every symbol stays equally likely.
+        if others == 0 && seen == 0 {
+            return;
+        }
+        if let Some(slot) = counts.get_mut(e.symbol) {
+            *slot = e.count(others, seen);
+        }
+    }
 }
 
 /// An integers codec: counts by place from every source, the bins chosen from them, then
@@ -186,20 +206,22 @@ fn build_integers(codec: &CodecSpec, integers: &Integers, samples: Vec<Sample>) 
     let bound = integers
         .bind(&place_counts)
         .map_err(|m| Error::input(Some(codec.location.clone()), m).in_codec(&codec.name))?;
-    let mut counts = vec![0u64; bound.bins.len()];
+    let mut counts = vec![0u64; bound.alphabet_len()];
     for (&u, &n) in &place_counts {
-        let i = bin_index(&bound.bins, u);
+        let i = bound.symbol_of(u);
         counts[i] = counts[i].saturating_add(n);
     }
+    escape_floor(&bound, &mut counts);
     let sequences = pieces
         .into_iter()
         .map(|(origin, places)| {
             let mut symbols = Vec::with_capacity(places.len());
             let mut offsets = Vec::with_capacity(places.len());
             for u in places {
-                let i = bin_index(&bound.bins, u);
+                let i = bound.symbol_of(u);
                 symbols.push(i as u16);
-                offsets.push(u - bound.bins[i].start);
+                // Escaped training values are kept as symbols only: their raw bits go as 0.
+                offsets.push(bound.bins.get(i).map_or(0, |b| u - b.start));
             }
             Sequence {
                 origin,

@@ -112,8 +112,15 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
         &set.tables,
         spec.lanes,
     );
-    let verified = verify::verify(&set.tables, fingerprint, spec.framing, spec.lanes, &model)
-        .map_err(in_codec)?;
+    let verified = verify::verify(
+        &set.tables,
+        fingerprint,
+        spec.framing,
+        spec.lanes,
+        &model,
+        spec.kind.widths(),
+    )
+    .map_err(in_codec)?;
     let mut report = report::build(&spec, &model, &set, verified.clone(), sizing);
     report.files = files;
     Ok(CodecPlan {

@@ -65,6 +65,39 @@ pub struct Report {
     pub files: Vec<(String, u64)>,
     /// Integers codecs: the figures per value, offset bits included.
     pub integers: Option<IntegerFigures>,
+    /// Codecs with an escape: what an escaped value costs.
+    pub escape: Option<EscapeFigures>,
+}
+
+/// What an escaped value costs: the escape symbol's bits and the raw bits after it.
+#[derive(Debug, Clone)]
+pub struct EscapeFigures {
+    /// -log2 of the escape's share of the table.
+    pub symbol_bits: f64,
+    pub raw_bits: u32,
+    pub slots: u32,
+    /// The count the escape was given, and whether it came from the spec's `escape_share`.
+    pub count: u64,
+    pub from_share: bool,
+}
+
+impl EscapeFigures {
+    pub fn line(&self, table_bits: u32) -> String {
+        format!(
+            "Escape: a value outside the alphabet costs about {:.2} bits: the escape symbol's {:.2} ({} of {} slots, from a count of {}{}) plus {} raw bits.",
+            self.symbol_bits + f64::from(self.raw_bits),
+            self.symbol_bits,
+            self.slots,
+            1u32 << table_bits,
+            self.count,
+            if self.from_share {
+                ", the spec's escape_share"
+            } else {
+                ": how often the training data left the alphabet, at least 1/1024 of it"
+            },
+            self.raw_bits
+        )
+    }
 }
 
 /// An integers codec's figures, in bits per value.
@@ -201,6 +234,10 @@ impl Report {
         }
         if let Some(i) = &self.integers {
             d.extend(i.doc_lines());
+        }
+        if let Some(e) = &self.escape {
+            d.push(String::new());
+            d.push(e.line(self.table_bits));
         }
         d.extend(self.sizing_lines());
         d.push(String::new());
@@ -381,6 +418,17 @@ pub fn build(
         layout: set.layout.clone(),
         files: Vec::new(),
         integers: integer_figures(codec, model, set.rate),
+        escape: kind.escape().map(|e| {
+            let slots = set.slots.get(e.symbol).copied().unwrap_or(1);
+            let table_bits = set.tables.table_bits();
+            EscapeFigures {
+                symbol_bits: f64::from(table_bits) - log2(f64::from(slots.max(1))),
+                raw_bits: e.raw_bits,
+                slots,
+                count: counts.get(e.symbol).copied().unwrap_or(0),
+                from_share: e.share.is_some(),
+            }
+        }),
     }
 }
 
@@ -570,6 +618,10 @@ pub fn markdown(plan: &crate::plan::CodecPlan) -> String {
             ));
         }
         None => line("| Huffman code for the same counts | no training data |".into()),
+    }
+    if let Some(e) = &r.escape {
+        line(String::new());
+        line(e.line(r.table_bits));
     }
     line(String::new());
     line("### Tables".into());

@@ -123,7 +123,10 @@ pub fn candidates(spec: &CodecSpec) -> Vec<Candidate> {
     // The method and lookup are chosen only with the size: a given table_bits keeps them.
     let methods: Vec<Method> = if spec.given.method || spec.given.table_bits {
         vec![spec.method]
-    } else if spec.framing == Framing::Tagged && spec.kind.integers().is_none() {
+    } else if spec.framing == Framing::Tagged
+        && spec.kind.integers().is_none()
+        && spec.kind.escape().is_none()
+    {
         // Offset bits (integers) ride on the tANS bit stream only.
         vec![Method::Tans, Method::Rans]
     } else {
@@ -172,7 +175,7 @@ pub fn candidates(spec: &CodecSpec) -> Vec<Candidate> {
 pub fn put_rows(input: &InputMap, symbols: usize) -> (usize, bool) {
     (
         row_count(input, symbols),
-        matches!(input, InputMap::Rows(_)),
+        matches!(input, InputMap::Rows(rows) if rows.contains(&None)),
     )
 }
 

@@ -170,6 +170,9 @@ pub const CODEC_KEYS: &[&str] = &[
     "value_type",
     "delta",
     "max_symbols",
+    // escapes (src/kind/mod.rs)
+    "escape",
+    "escape_share",
 ];
 
 /// Reads and validates the spec file at `path`; returns it with its text.
@@ -430,8 +433,27 @@ impl Checker<'_> {
                 }
             }
         }
+        if let Some(entry) = kind_entry.filter(|e| !["bytes", "integers"].contains(&e.name)) {
+            for key in kind::ESCAPE_KEYS {
+                if let Some(v) = keys.codec.get(*key) {
+                    fail(
+                        v.span(),
+                        format!(
+                            "`{key}` applies to kinds \"bytes\" and \"integers\", not \"{}\"",
+                            entry.name
+                        ),
+                    );
+                }
+            }
+        }
         // Offset bits ride on the tANS bit stream only.
         if let (Some(k), Some(Method::Rans), Some(v)) = (&alphabet, method, keys.get(Method::KEY)) {
+            if k.escape().is_some() && k.integers().is_none() {
+                fail(
+                    v.span(),
+                    "a codec with an escape is coded with method = \"tans\" (rANS does not carry raw bits yet)".to_string(),
+                );
+            }
             if k.integers().is_some() {
                 fail(
                     v.span(),

@@ -593,13 +593,8 @@ pub fn verify(
     framing: Framing,
     lanes: u32,
     model: &Model,
+    widths: Vec<u32>,
 ) -> Result<Verified> {
-    let widths = model
-        .bound
-        .as_ref()
-        .and_then(|k| k.integers())
-        .map(|i| i.bins.iter().map(|b| b.width).collect())
-        .unwrap_or_default();
     let coder = Reference::framed(tables, fingerprint, framing, lanes).with_widths(widths);
     let mut v = Verified::default();
     for seq in &model.sequences {

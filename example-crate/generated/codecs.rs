@@ -1225,7 +1225,7 @@ pub mod level_delta {
     #[inline(always)]
     fn bin(u: u32) -> (usize, u32, u32) {
         let mut row = 0usize;
-        let mut size = ALPHABET_LEN;
+        let mut size = BINS;
         while size > 1 {
             let half = size / 2;
             if BIN_START.get(row + half).is_some_and(|&s| s <= u) {
@@ -1243,8 +1243,10 @@ pub mod level_delta {
     fn first_state(row: usize) -> u32 {
         put_symbol(TABLE_LEN as u32, row).2
     }
+    /// Bins: the symbols before any escape.
+    const BINS: usize = 43;
     /// The first place of each bin, in place order.
-    static BIN_START: [u32; ALPHABET_LEN] = [
+    static BIN_START: [u32; BINS] = [
         0, 2048, 3072, 3584, 3840, 3968, 4032, 4064, // 0
         4080, 4081, 4082, 4084, 4086, 4087, 4088, 4089, // 8
         4090, 4091, 4092, 4093, 4094, 4095, 4096, 4097, // 16
@@ -1253,7 +1255,7 @@ pub mod level_delta {
         4608, 5120, 6144, // 40
     ];
     /// The offset bits of each bin: it holds `2^width` places.
-    static BIN_WIDTH: [u8; ALPHABET_LEN] = [
+    static BIN_WIDTH: [u8; BINS] = [
         11, 10, 9, 8, 7, 6, 5, 4, 0, 0, 1, 1, 0, 0, 0, 0, // 0
         0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, 0, // 16
         0, 0, 2, 4, 5, 6, 7, 8, 9, 10, 11, // 32

@@ -26,6 +26,15 @@ pub struct InputTokens {
 /// `u32` that is not zero for a value outside the alphabet.
 pub fn tokens(input: &InputMap, absent: impl Fn(TokenStream) -> TokenStream) -> InputTokens {
     match input {
+        // Every value has a symbol (all 256 bytes, or an escape's): nothing to refuse.
+        InputMap::Rows(rows) if !rows.contains(&None) => InputTokens {
+            row: clamped_row(rows.len()),
+            declare: quote!(),
+            check: quote!(),
+            refuse: quote!(),
+            error_variant: quote!(),
+            error_display: quote!(),
+        },
         InputMap::Index => InputTokens {
             row: quote!(symbol as usize),
             declare: quote!(),
@@ -36,12 +45,7 @@ pub fn tokens(input: &InputMap, absent: impl Fn(TokenStream) -> TokenStream) -> 
         },
         InputMap::Rows(rows) => {
             // Values past the rows land on the last row (an absent one: `InputMap::Rows`).
-            let row = if rows.len() >= 256 {
-                quote!(usize::from(symbol))
-            } else {
-                let last = proc_macro2::Literal::usize_unsuffixed(rows.len() - 1);
-                quote!(usize::from(symbol).min(#last))
-            };
+            let row = clamped_row(rows.len());
             let here = absent(quote!(row));
             let there = absent(row.clone());
             InputTokens {
@@ -71,6 +75,16 @@ pub fn tokens(input: &InputMap, absent: impl Fn(TokenStream) -> TokenStream) -> 
                 },
             }
         }
+    }
+}
+
+/// The row of a raw input value `symbol`: values past the last of `rows` rows land on it.
+pub fn clamped_row(rows: usize) -> TokenStream {
+    if rows >= 256 {
+        quote!(usize::from(symbol))
+    } else {
+        let last = proc_macro2::Literal::usize_unsuffixed(rows.saturating_sub(1));
+        quote!(usize::from(symbol).min(#last))
     }
 }
 

@@ -17,6 +17,7 @@ use super::framing::{Failure, FramingTokens};
 use super::input::{self, InputTokens};
 use super::rows::{push_number, rows_of, RowSets};
 use crate::kind::integers::Integers;
+use crate::kind::Escape;
 use crate::method::tans::Tans;
 use crate::plan::CodecPlan;
 use crate::spec::Framing;
@@ -58,6 +59,57 @@ impl Rounds {
     }
 }
 
+/// Raw bits after some symbols: an integers codec's bin offsets (and escaped values), or a
+/// byte codec's escaped bytes. The emitted `code` (or `bin` of a `place`) gives a value's
+/// encoding row, offset and width; the decoder adds the offset read with `WIDTHS` to the
+/// symbol's table value.
+#[derive(Clone, Copy)]
+enum Offsets<'a> {
+    Bins(&'a Integers),
+    Escape(&'a Escape),
+}
+
+impl<'a> Offsets<'a> {
+    fn of(plan: &'a CodecPlan) -> Option<Offsets<'a>> {
+        let kind = plan.spec.kind.as_ref();
+        match (kind.integers(), kind.escape()) {
+            (Some(i), _) => Some(Offsets::Bins(i)),
+            (None, Some(e)) => Some(Offsets::Escape(e)),
+            (None, None) => None,
+        }
+    }
+
+    fn delta(self) -> bool {
+        matches!(self, Offsets::Bins(i) if i.domain.delta)
+    }
+
+    fn max_width(self) -> u32 {
+        match self {
+            Offsets::Bins(i) => i.max_width().max(i.escape.map_or(0, |e| e.raw_bits)),
+            Offsets::Escape(e) => e.raw_bits,
+        }
+    }
+
+    /// `(row, offset, width)` of value `v`; `before` is the value before it (deltas).
+    fn code(self, v: TokenStream, before: TokenStream) -> TokenStream {
+        match self {
+            Offsets::Bins(i) if i.escape.is_none() => {
+                if i.domain.delta {
+                    quote!(bin(place(#v, #before)))
+                } else {
+                    quote!(bin(place(#v)))
+                }
+            }
+            Offsets::Bins(_) | Offsets::Escape(_) => quote!(code(#v)),
+        }
+    }
+
+    /// [`Offsets::code`] of input index `k`.
+    fn code_at(self, v: TokenStream, k: TokenStream) -> TokenStream {
+        self.code(v, quote!(previous(input, #k)))
+    }
+}
+
 /// The pieces both paths share.
 struct Parts<'a> {
     /// The decoder's start (header, count and padding checks, the lanes' first states) and
@@ -72,8 +124,8 @@ struct Parts<'a> {
     /// The encoder's start: `head` (the symbols put into the states), `used` lanes, and the
     /// lanes' starting states from their last symbols.
     encode_start: TokenStream,
-    /// Integers codecs: bins with offset bits, and whether values go as deltas.
-    integers: Option<&'a Integers>,
+    /// Codecs whose symbols carry raw bits (integers, escapes).
+    offsets: Option<Offsets<'a>>,
     /// Most bits a state step reads.
     max_state_bits: u8,
 }
@@ -85,11 +137,11 @@ pub fn body(
     input: &InputTokens,
     rows: &mut RowSets,
 ) -> TokenStream {
-    let integers = plan.spec.kind.integers();
+    let offsets = Offsets::of(plan);
     let r = Rounds::new(
         tans,
         plan.spec.lanes as usize,
-        integers.map_or(0, |i| i.max_width() as usize),
+        offsets.map_or(0, |o| o.max_width() as usize),
     );
     let max_bits = Literal::usize_unsuffixed(r.max_bits);
     let header_max = &framing.header_max;
@@ -123,14 +175,14 @@ pub fn body(
             return Err(Error::OutputTooSmall);
         };
     };
-    let decode_tail = match integers {
+    let decode_tail = match offsets {
         None => quote! {
             for (i, slot) in tail.iter_mut().enumerate() {
                 *slot = step(state[(count - used + i) % LANES] & MASK).0;
             }
         },
-        Some(ints) => {
-            let undelta = if ints.domain.delta {
+        Some(o) => {
+            let undelta = if o.delta() {
                 quote! {
                     // Places back to values: each after the one before.
                     let mut before = REFERENCE;
@@ -162,11 +214,14 @@ pub fn body(
         input,
         finish: finish(framing),
         encode_start: encode_start(plan, input),
-        integers,
+        offsets,
         max_state_bits: tans.decode.iter().map(|e| e.bits).max().unwrap_or(0),
     };
     let start_items = start_items(plan, input);
-    let integer_items = integers.map(|i| integer_items(i, tans, rows));
+    let integer_items = offsets.map(|o| match o {
+        Offsets::Bins(i) => integer_items(i, tans, rows),
+        Offsets::Escape(e) => escape_items(plan, e, tans, rows),
+    });
     let (prefix_vis, past_end) = if framing.to_the_end() {
         let past_end = quote! {
             /// Bits a decoder may read past the end of the stream, as zeros: the trailing zeros
@@ -496,9 +551,12 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             #check
         }
     };
-    if let Some(ints) = plan.spec.kind.integers() {
-        let first = place_of(ints, quote!(last), quote!(n - used + i));
-        let validate = validate(ints);
+    if let Some(o) = Offsets::of(plan) {
+        let first = o.code_at(quote!(last), quote!(n - used + i));
+        let validate = match o {
+            Offsets::Bins(ints) => validate(ints),
+            Offsets::Escape(_) => TokenStream::new(),
+        };
         return quote! {
             let n = input.len();
             #validate
@@ -508,7 +566,7 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = first_state(bin(#first).0);
+                state[(n - used + i) % LANES] = first_state(#first.0);
             }
         };
     }
@@ -531,23 +589,15 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
 /// whose trailing zeros are left out.
 fn searches(plan: &CodecPlan) -> bool {
     // Codecs with offset bits keep the first start (FORMAT.md).
-    plan.spec.framing != Framing::Tagged
-        && plan.spec.lanes == 1
-        && plan.spec.kind.integers().is_none()
-}
-
-/// The place of `v` (input index `k`) as an expression: with deltas, after the value before.
-fn place_of(ints: &Integers, v: TokenStream, k: TokenStream) -> TokenStream {
-    if ints.domain.delta {
-        quote!(place(#v, previous(input, #k)))
-    } else {
-        quote!(place(#v))
-    }
+    plan.spec.framing != Framing::Tagged && plan.spec.lanes == 1 && Offsets::of(plan).is_none()
 }
 
 /// Refuses input outside the range before any bit is written (no check where the range is
-/// the whole type).
+/// the whole type, or values outside it escape).
 fn validate(ints: &Integers) -> TokenStream {
+    if ints.escape.is_some() {
+        return TokenStream::new();
+    }
     let d = &ints.domain;
     let below = (d.lo > d.value_type.min()).then(|| quote!(v < LOWEST));
     let above = (d.hi < d.value_type.max()).then(|| quote!(v > HIGHEST));
@@ -586,16 +636,103 @@ pub fn range_error(ints: &Integers) -> (TokenStream, TokenStream) {
 
 /// Integers codecs: the bins' tables, the value/place maps and the bin search.
 /// `for` over the lanes' last symbols backwards, binding `symbol` (and `i` for deltas).
-fn tail_loop(ints: &Integers) -> TokenStream {
-    if ints.domain.delta {
+fn tail_loop(o: Offsets<'_>) -> TokenStream {
+    if o.delta() {
         quote!(for (i, &symbol) in tail.iter().enumerate().rev())
     } else {
         quote!(for &symbol in tail.iter().rev())
     }
 }
 
+/// `WIDTHS`: the raw bits after the symbol at each table position.
+fn widths_rows(kind: &dyn crate::kind::Kind, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+    let widths = kind.widths();
+    rows.add(rows_of(&tans.decode, 16, |line, e| {
+        let w = widths.get(usize::from(e.symbol)).copied().unwrap_or(0);
+        push_number(line, u64::from(w));
+        line.push_str(", ");
+    }))
+}
+
+/// A byte codec with an escape: which bytes escape, their `code`, and `WIDTHS`.
+fn escape_items(plan: &CodecPlan, e: &Escape, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+    let kind = plan.spec.kind.as_ref();
+    let mut words = [0u32; 8];
+    if let crate::kind::InputMap::Rows(r) = kind.input() {
+        // Values past the rows land on the last row.
+        for v in 0..256usize {
+            if r.get(v).or(r.last()) == Some(&Some(e.symbol as u16)) {
+                words[v >> 5] |= 1 << (v & 31);
+            }
+        }
+    }
+    let words = words.iter().map(|&w| Literal::u32_unsuffixed(w));
+    let widths_rows = widths_rows(kind, tans, rows);
+    let row = input::clamped_row(plan.put_rows().0);
+    let bits = Literal::u32_unsuffixed(e.raw_bits);
+    quote! {
+        /// Raw bits of an escaped byte.
+        const ESCAPE_BITS: u32 = #bits;
+
+        /// One bit per byte value, set for those outside the alphabet: they go as the escape
+        /// symbol and their bits.
+        static ESCAPED: [u32; 8] = [#(#words),*];
+
+        /// The encoding row of byte `v` (the escape's rows are its), its offset and the
+        /// offset's width: `v` in 8 bits after an escape, nothing otherwise.
+        #[inline(always)]
+        fn code(symbol: Symbol) -> (usize, u32, u32) {
+            let v = usize::from(symbol);
+            let escaped = (ESCAPED[v >> 5] >> (v & 31)) & 1;
+            let row = #row;
+            (row, u32::from(symbol) & 0u32.wrapping_sub(escaped), escaped * ESCAPE_BITS)
+        }
+
+        /// The lane's starting state for a last symbol of encoding row `row`: the copy of
+        /// it the encoder reaches from state `L` (that symbol then costs no state bits).
+        #[inline(always)]
+        fn first_state(row: usize) -> u32 {
+            put_symbol(TABLE_LEN as u32, row).2
+        }
+
+        /// The raw bits after the symbol at each table position: the escape's.
+        static WIDTHS: [u8; TABLE_LEN] = #widths_rows;
+    }
+}
+
 fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStream {
     let d = &ints.domain;
+    let escape = match &ints.escape {
+        None => TokenStream::new(),
+        Some(e) => {
+            let t = d.value_type;
+            let raw = match (t.bits(), t.min() < 0) {
+                (32, false) => quote!(v),
+                (32, true) => quote!(v as u32),
+                (_, false) => quote!(u32::from(v)),
+                (_, true) => {
+                    let u = t.unsigned();
+                    quote!(u32::from(v as #u))
+                }
+            };
+            let bits = Literal::u32_unsuffixed(e.raw_bits);
+            quote! {
+                /// The escape's row: a value outside the range goes as it and all its bits.
+                const ESCAPE: usize = BINS;
+
+                /// The encoding row of value `v`, its offset and the offset's width: its bin,
+                /// or outside the range the escape and `v`'s bits.
+                #[inline(always)]
+                fn code(v: Symbol) -> (usize, u32, u32) {
+                    if (LOWEST..=HIGHEST).contains(&v) {
+                        bin(place(v))
+                    } else {
+                        (ESCAPE, #raw, #bits)
+                    }
+                }
+            }
+        }
+    };
     let start_rows = rows.add(rows_of(&ints.bins, 8, |line, b| {
         push_number(line, u64::from(b.start));
         line.push_str(", ");
@@ -604,11 +741,8 @@ fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStrea
         push_number(line, u64::from(b.width));
         line.push_str(", ");
     }));
-    let widths_rows = rows.add(rows_of(&tans.decode, 16, |line, e| {
-        let w = ints.bins.get(usize::from(e.symbol)).map_or(0, |b| b.width);
-        push_number(line, u64::from(w));
-        line.push_str(", ");
-    }));
+    let widths_rows = widths_rows(ints, tans, rows);
+    let bins = Literal::usize_unsuffixed(ints.bins.len());
     let lo = Literal::i64_unsuffixed(d.lo);
     let size = Literal::i64_unsuffixed(d.size() as i64);
     let coded_lo = Literal::i64_unsuffixed(d.coded_lo());
@@ -687,7 +821,7 @@ fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStrea
         #[inline(always)]
         fn bin(u: u32) -> (usize, u32, u32) {
             let mut row = 0usize;
-            let mut size = ALPHABET_LEN;
+            let mut size = BINS;
             while size > 1 {
                 let half = size / 2;
                 if BIN_START.get(row + half).is_some_and(|&s| s <= u) {
@@ -707,11 +841,16 @@ fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStrea
             put_symbol(TABLE_LEN as u32, row).2
         }
 
+        /// Bins: the symbols before any escape.
+        const BINS: usize = #bins;
+
+        #escape
+
         /// The first place of each bin, in place order.
-        static BIN_START: [u32; ALPHABET_LEN] = #start_rows;
+        static BIN_START: [u32; BINS] = #start_rows;
 
         /// The offset bits of each bin: it holds `2^width` places.
-        static BIN_WIDTH: [u8; ALPHABET_LEN] = #width_rows;
+        static BIN_WIDTH: [u8; BINS] = #width_rows;
 
         /// The offset bits of the symbol at each table position.
         static WIDTHS: [u8; TABLE_LEN] = #widths_rows;
@@ -720,7 +859,7 @@ fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStrea
 
 /// `start`: a lane's starting state from its last symbol; with the search, `trial` too.
 fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
-    if plan.spec.kind.integers().is_some() {
+    if Offsets::of(plan).is_some() {
         return TokenStream::new();
     }
     let position = quote! {
@@ -835,41 +974,41 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
     let (encode_start, decode_tail) = (&parts.encode_start, &parts.decode_tail);
     // Integers: each symbol's row from its value's bin, and its offset bits pushed first
     // (the stream is built back to front: they follow the state bits when read).
-    let bind = |k: TokenStream| match parts.integers {
+    let bind = |k: TokenStream| match parts.offsets {
         None => quote! {
             let row = #row;
             #check
         },
-        Some(ints) => {
-            let place = place_of(ints, quote!(symbol), k);
-            quote!(let (row, offset, width) = bin(#place);)
+        Some(o) => {
+            let code = o.code_at(quote!(symbol), k);
+            quote!(let (row, offset, width) = #code;)
         }
     };
     let bind_rest = bind(quote!(rounds.len() * ENCODE_ROUND + i));
     let bind_round = bind(quote!(r * ENCODE_ROUND + i));
-    let delta = parts.integers.is_some_and(|i| i.domain.delta);
+    let delta = parts.offsets.is_some_and(|o| o.delta());
     let round_loop = if delta {
         quote!(for (r, round) in rounds.iter().enumerate().rev())
     } else {
         quote!(for round in rounds.iter().rev())
     };
-    let push_offset = match parts.integers {
+    let push_offset = match parts.offsets {
         None => TokenStream::new(),
         Some(_) => quote! {
             acc = acc.wrapping_shl(width) | u64::from(offset);
             pending += width;
         },
     };
-    let (tail_offsets, offset_items) = match parts.integers {
+    let (tail_offsets, offset_items) = match parts.offsets {
         None => (TokenStream::new(), TokenStream::new()),
-        Some(ints) => {
-            let place = place_of(ints, quote!(symbol), quote!(n - used + i));
-            let tail_loop = tail_loop(ints);
+        Some(o) => {
+            let code = o.code_at(quote!(symbol), quote!(n - used + i));
+            let tail_loop = tail_loop(o);
             (
                 quote! {
                     // The lanes' last symbols' offsets end the stream.
                     #tail_loop {
-                        let (_, offset, width) = bin(#place);
+                        let (_, offset, width) = #code;
                         #push_offset
                         store(out, &mut pos, acc, &mut pending)?;
                     }
@@ -886,7 +1025,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
             )
         }
     };
-    let (decode_round_step, decode_slow_step) = match parts.integers {
+    let (decode_round_step, decode_slow_step) = match parts.offsets {
         None => (
             quote! {
                 let (symbol, bits, base) = step(*x & MASK);
@@ -1144,11 +1283,11 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
     };
     // Integers: a symbol's state step costs at most `MAX_STATE_BITS`; its offset bits go
     // in pieces of at most 16 through the same buffer.
-    let state_bits = match parts.integers {
+    let state_bits = match parts.offsets {
         None => quote!(MAX_SYMBOL_BITS),
         Some(_) => quote!(MAX_STATE_BITS),
     };
-    let delta = parts.integers.is_some_and(|i| i.domain.delta);
+    let delta = parts.offsets.is_some_and(|o| o.delta());
     let (before_param, encode_loop) = if delta {
         (
             quote!(, before: Symbol),
@@ -1177,8 +1316,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             },
         )
     };
-    let (encode_bind, encode_offset, tail_offsets, offset_items, decode_one) = match parts.integers
-    {
+    let (encode_bind, encode_offset, tail_offsets, offset_items, decode_one) = match parts.offsets {
         None => (
             quote! {
                 let row = #row;
@@ -1199,22 +1337,18 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 self.lane = (lane + 1) % LANES;
             },
         ),
-        Some(ints) => {
-            let place = place_of(ints, quote!(symbol), quote!(n - used + i));
-            let tail_loop = tail_loop(ints);
+        Some(o) => {
+            let code = o.code_at(quote!(symbol), quote!(n - used + i));
+            let tail_loop = tail_loop(o);
             let max_state = Literal::u32_unsuffixed(u32::from(parts.max_state_bits));
-            let here = if delta {
-                quote!(place(symbol, before))
-            } else {
-                quote!(place(symbol))
-            };
+            let here = o.code(quote!(symbol), quote!(before));
             (
-                quote!(let (row, offset, width) = bin(#here);),
+                quote!(let (row, offset, width) = #here;),
                 quote!(self.acc = put_offset(writer, self.acc, offset, width);),
                 quote! {
                     // The lanes' last symbols' offsets end the stream.
                     #tail_loop {
-                        let (_, offset, width) = bin(#place);
+                        let (_, offset, width) = #code;
                         acc = put_offset(&mut writer, acc, offset, width);
                     }
                 },
@@ -1295,7 +1429,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
         }
     };
     // Integers codecs read the lanes' last offsets after the loop: `at` moves on.
-    let (acc_decl, at_decl) = if parts.integers.is_some() {
+    let (acc_decl, at_decl) = if parts.offsets.is_some() {
         (
             quote!(let mut acc: u32 = 1;),
             quote!(let mut at = reader.at(buf);),

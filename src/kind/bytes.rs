@@ -1,6 +1,7 @@
 //! `kind = "bytes"`: symbols are byte values, `Symbol = u8`.
 
-use super::{a_type, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
+use super::{a_type, Escape, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
+use crate::method::{Direction, LayoutEntry};
 use proc_macro2::{Literal, TokenStream};
 use quote::quote;
 use std::ops::Range;
@@ -13,23 +14,31 @@ pub const ENTRY: KindEntry = KindEntry {
     read,
 };
 
-/// A byte alphabet, in spec order.
+/// A byte alphabet, in spec order; with an escape, one more symbol after them stands for
+/// any other byte, whose 8 bits follow it.
 #[derive(Debug, Clone)]
 pub struct Bytes {
     values: Vec<u8>,
     /// Symbol index of each byte value.
     index: [Option<u16>; 256],
+    escape: Option<Escape>,
 }
+
+/// Raw bits of an escaped byte.
+const ESCAPED_BITS: u32 = 8;
 
 /// `symbols` is a string (its bytes) or a list of byte values and one-byte strings; absent,
 /// it is all 256 byte values.
 fn read(
     symbols: Option<&Spanned<DeValue<'_>>>,
     _codec: Range<usize>,
-    _keys: &dyn super::SpecKeys,
+    keys: &dyn super::SpecKeys,
 ) -> Result<Arc<dyn Kind>, Vec<Misplaced>> {
     let mut values: Vec<(u8, Range<usize>)> = Vec::new();
-    let mut errors = Vec::new();
+    let (share, mut errors) = match super::read_escape(keys) {
+        Ok(s) => (s, Vec::new()),
+        Err(e) => (None, e),
+    };
     match symbols {
         None => values.extend((0..=255u8).map(|b| (b, 0..0))),
         Some(raw) => match raw.get_ref() {
@@ -98,10 +107,23 @@ fn read(
             ));
         }
     }
+    if share.is_some() && kept.len() == 256 {
+        let at = keys.key("escape").map_or(0..0, |v| v.span());
+        errors.push((
+            at,
+            "`escape = true` needs an alphabet without some byte values: all 256 are symbols already".to_string(),
+        ));
+    }
     if errors.is_empty() {
+        let escape = share.map(|share| Escape {
+            symbol: kept.len(),
+            raw_bits: ESCAPED_BITS,
+            share,
+        });
         Ok(Arc::new(Bytes {
             values: kept,
             index,
+            escape,
         }))
     } else {
         Err(errors)
@@ -118,23 +140,35 @@ impl Kind for Bytes {
     }
 
     fn alphabet_len(&self) -> usize {
-        self.values.len()
+        self.values.len() + usize::from(self.escape.is_some())
     }
 
     fn symbol_bytes(&self) -> usize {
         1
     }
 
+    /// The values; with an escape, a repeated last value after them (no plain alphabet
+    /// repeats one, so the two cannot look alike).
     fn identity(&self) -> Vec<u8> {
-        self.values.clone()
+        let mut id = self.values.clone();
+        if let (Some(_), Some(&last)) = (self.escape, self.values.last()) {
+            id.extend([last, last]);
+        }
+        id
     }
 
     fn label(&self, symbol: usize) -> String {
-        show_byte(self.values[symbol])
+        match self.values.get(symbol) {
+            Some(&b) => show_byte(b),
+            None => format!("escape (any other byte, +{ESCAPED_BITS} bits)"),
+        }
     }
 
     fn describe(&self, symbol: usize) -> String {
-        show_byte(self.values[symbol])
+        match self.values.get(symbol) {
+            Some(&b) => show_byte(b),
+            None => "the escape".to_string(),
+        }
     }
 
     fn count_key(&self, key: &str) -> Result<usize, String> {
@@ -161,9 +195,20 @@ impl Kind for Bytes {
     }
 
     /// Rows for the byte values up to the largest in the alphabet; larger values are
-    /// refused through one absent row after them.
+    /// refused through one absent row after them. With an escape, every value has a row:
+    /// those outside the alphabet the escape's.
     fn input(&self) -> InputMap {
         let top = self.values.iter().copied().max().map_or(0, usize::from);
+        if let Some(e) = &self.escape {
+            // Larger values land on one more row, the escape's.
+            let escape = Some(e.symbol as u16);
+            let mut rows: Vec<Option<u16>> =
+                self.index[..=top].iter().map(|r| r.or(escape)).collect();
+            if rows.len() < 256 {
+                rows.push(escape);
+            }
+            return InputMap::Rows(rows);
+        }
         let mut rows = self.index[..=top].to_vec();
         // Larger values land on one more row, an absent one.
         if rows.len() < 256 {
@@ -174,6 +219,16 @@ impl Kind for Bytes {
 
     fn symbol_items(&self) -> TokenStream {
         let values = self.values.iter().map(|&b| Literal::u8_unsuffixed(b));
+        if self.escape.is_some() {
+            return quote! {
+                /// A byte of the input. Those in [`ALPHABET`] have symbols of their own; any
+                /// other goes as the escape symbol followed by its 8 bits.
+                pub type Symbol = u8;
+                /// The bytes with symbols of their own, in spec order (the escape is the last
+                /// symbol, after them).
+                pub const ALPHABET: [Symbol; ALPHABET_LEN - 1] = [#(#values),*];
+            };
+        }
         quote! {
             /// A symbol of this codec: one of the byte values in [`ALPHABET`].
             pub type Symbol = u8;
@@ -186,8 +241,36 @@ impl Kind for Bytes {
         quote!(ALPHABET)
     }
 
+    /// The escape decodes as 0 plus its raw bits.
     fn row_literal(&self, symbol: usize) -> String {
-        byte_literal(self.values[symbol])
+        self.values
+            .get(symbol)
+            .map_or_else(|| "0".to_string(), |&b| byte_literal(b))
+    }
+
+    fn escape(&self) -> Option<&Escape> {
+        self.escape.as_ref()
+    }
+
+    fn widths(&self) -> Vec<u32> {
+        match &self.escape {
+            Some(e) => {
+                let mut w = vec![0; self.alphabet_len()];
+                w[e.symbol] = e.raw_bits;
+                w
+            }
+            None => Vec::new(),
+        }
+    }
+
+    fn extra_tables(&self, table_bits: u32) -> Vec<LayoutEntry> {
+        if self.escape.is_none() {
+            return Vec::new();
+        }
+        vec![
+            LayoutEntry::new("ESCAPED", "u32", 8, &[4], Direction::Encode),
+            LayoutEntry::new("WIDTHS", "u8", 1 << table_bits, &[1], Direction::Decode),
+        ]
     }
 }
 
@@ -204,6 +287,9 @@ impl Scanner for ByteScanner<'_> {
         for (i, &b) in piece.iter().enumerate() {
             match self.alphabet.index[usize::from(b)] {
                 Some(s) => out.push(s),
+                None if self.alphabet.escape.is_some() => {
+                    out.push(self.alphabet.values.len() as u16)
+                }
                 None => {
                     return Err(Misfit {
                         offset: self.offset + i,

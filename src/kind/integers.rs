@@ -12,7 +12,7 @@
 //! own. [`choose_bins`] finds the partition of `0 .. N` into at most `max_symbols` such bins
 //! that minimises the coded size of the training data (DEVELOPERS.md, "Integer bins").
 
-use super::{a_type, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner, SpecKeys};
+use super::{a_type, Escape, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner, SpecKeys};
 use crate::method::{Direction, LayoutEntry};
 use crate::quantize::log2;
 use proc_macro2::{Ident, Literal, Span, TokenStream};
@@ -190,12 +190,19 @@ impl Bin {
 }
 
 /// An integers alphabet. Until the training data is counted it has no bins (`bins` empty,
-/// and `alphabet_len` is the cap); [`Integers::bind`] chooses them.
+/// and `alphabet_len` is the cap); [`Integers::bind`] chooses them. With an escape, one more
+/// symbol after the bins stands for any value of the type outside the range, followed by
+/// all its bits.
 #[derive(Debug, Clone)]
 pub struct Integers {
     pub domain: Domain,
     pub bins: Vec<Bin>,
+    pub escape: Option<Escape>,
 }
+
+/// The place the value scanner gives a value outside the range when escapes are on (a
+/// range with an escape is narrower than its type, so no place reaches it).
+pub const ESCAPED: u32 = u32::MAX;
 
 /// Reads `range`, `value_type`, `delta` and `max_symbols`; `symbols` has no meaning here.
 fn read(
@@ -203,7 +210,10 @@ fn read(
     codec: Range<usize>,
     keys: &dyn SpecKeys,
 ) -> Result<Arc<dyn Kind>, Vec<Misplaced>> {
-    let mut errors = Vec::new();
+    let (share, mut errors) = match super::read_escape(keys) {
+        Ok(s) => (s, Vec::new()),
+        Err(e) => (None, e),
+    };
     if let Some(s) = symbols {
         errors.push((
             s.span(),
@@ -335,13 +345,30 @@ fn read(
             Some(t) => t,
             None => {
                 errors.push((
-                    keys.key("range").map_or(codec, |v| v.span()),
+                    keys.key("range").map_or(codec.clone(), |v| v.span()),
                     format!("no value type holds the range [{lo}, {hi}]: it spans negative values and values above {}", i32::MAX),
                 ));
                 ValueType::I32
             }
         },
     };
+    if share.is_some() {
+        let at = keys.key("escape").map_or(codec.clone(), |v| v.span());
+        if delta {
+            errors.push((
+                at,
+                "`escape` applies to integers without `delta`: a delta codec codes every difference of values of its range, and refuses values outside it".to_string(),
+            ));
+        } else if lo == value_type.min() && hi == value_type.max() {
+            errors.push((
+                at,
+                format!(
+                    "`escape = true` needs a range narrower than value_type \"{}\": every value is in the range already",
+                    value_type.name()
+                ),
+            ));
+        }
+    }
     if !errors.is_empty() {
         return Err(errors);
     }
@@ -354,6 +381,11 @@ fn read(
             max_symbols,
         },
         bins: Vec::new(),
+        escape: share.map(|share| Escape {
+            symbol: max_symbols,
+            raw_bits: value_type.bits(),
+            share,
+        }),
     }))
 }
 
@@ -498,10 +530,13 @@ pub fn coded_bits(bins: &[Bin], counts: &BTreeMap<u32, u64>) -> f64 {
             .sum::<f64>()
 }
 
-/// Training values per bin.
+/// Training values per bin (escaped values aside).
 pub fn bin_counts(bins: &[Bin], counts: &BTreeMap<u32, u64>) -> Vec<u64> {
     let mut out = vec![0u64; bins.len()];
-    for (&u, &c) in counts {
+    let Some(end) = bins.last().map(Bin::last) else {
+        return out;
+    };
+    for (&u, &c) in counts.range(..=end.min(u64::from(u32::MAX - 1)) as u32) {
         let i = bin_index(bins, u);
         out[i] = out[i].saturating_add(c);
     }
@@ -520,15 +555,33 @@ impl Integers {
     /// This alphabet with the bins chosen for `counts` (by place); `Err` says why not.
     pub fn bind(&self, counts: &BTreeMap<u32, u64>) -> Result<Integers, String> {
         let cap = self.domain.max_symbols;
-        match choose_bins(self.domain.size(), counts, cap) {
+        let size = self.domain.size();
+        let in_range: BTreeMap<u32, u64> = counts
+            .iter()
+            .filter(|(&u, _)| u64::from(u) < size)
+            .map(|(&u, &c)| (u, c))
+            .collect();
+        match choose_bins(size, &in_range, cap) {
             Ok(bins) => Ok(Integers {
                 domain: self.domain,
+                escape: self.escape.map(|e| Escape {
+                    symbol: bins.len(),
+                    ..e
+                }),
                 bins,
             }),
             Err(fewest) => Err(format!(
                 "max_symbols = {cap} is too few: the range [{}, {}] needs at least {fewest} aligned bins",
                 self.domain.lo, self.domain.hi
             )),
+        }
+    }
+
+    /// The symbol of place `u`: its bin, or the escape for [`ESCAPED`].
+    pub fn symbol_of(&self, u: u32) -> usize {
+        match &self.escape {
+            Some(e) if u == ESCAPED => e.symbol,
+            _ => bin_index(&self.bins, u),
         }
     }
 
@@ -557,6 +610,7 @@ impl Integers {
             token: Vec::new(),
             token_start: 0,
             prev: self.domain.reference(),
+            escape: self.escape.is_some(),
         }
     }
 }
@@ -571,11 +625,12 @@ impl Kind for Integers {
     }
 
     fn alphabet_len(&self) -> usize {
-        if self.bins.is_empty() {
+        let bins = if self.bins.is_empty() {
             self.domain.max_symbols
         } else {
             self.bins.len()
-        }
+        };
+        bins + usize::from(self.escape.is_some())
     }
 
     fn symbol_bytes(&self) -> usize {
@@ -588,7 +643,7 @@ impl Kind for Integers {
         out.extend(d.lo.to_le_bytes());
         out.extend(d.hi.to_le_bytes());
         out.push(d.value_type.bits() as u8 | u8::from(d.value_type.signed()) << 7);
-        out.push(u8::from(d.delta));
+        out.push(u8::from(d.delta) | u8::from(self.escape.is_some()) << 1);
         for b in &self.bins {
             out.extend(b.start.to_le_bytes());
             out.push(b.width as u8);
@@ -597,17 +652,21 @@ impl Kind for Integers {
     }
 
     fn label(&self, symbol: usize) -> String {
-        match self.bins.get(symbol) {
-            Some(b) if b.width == 0 => self.show(b),
-            Some(b) => format!("{} (+{} bits)", self.show(b), b.width),
-            None => format!("bin {symbol}"),
+        match (self.bins.get(symbol), &self.escape) {
+            (Some(b), _) if b.width == 0 => self.show(b),
+            (Some(b), _) => format!("{} (+{} bits)", self.show(b), b.width),
+            (None, Some(e)) if e.symbol == symbol => {
+                format!("escape (any value outside the range, +{} bits)", e.raw_bits)
+            }
+            (None, _) => format!("bin {symbol}"),
         }
     }
 
     fn describe(&self, symbol: usize) -> String {
-        match self.bins.get(symbol) {
-            Some(b) => format!("bin {}", self.show(b)),
-            None => format!("bin {symbol}"),
+        match (self.bins.get(symbol), &self.escape) {
+            (Some(b), _) => format!("bin {}", self.show(b)),
+            (None, Some(e)) if e.symbol == symbol => "the escape".to_string(),
+            (None, _) => format!("bin {symbol}"),
         }
     }
 
@@ -644,7 +703,7 @@ impl Kind for Integers {
     fn scanner(&self) -> Box<dyn Scanner + '_> {
         Box::new(BinScanner {
             values: self.value_scanner(),
-            bins: &self.bins,
+            alphabet: self,
             places: Vec::new(),
         })
     }
@@ -659,8 +718,13 @@ impl Kind for Integers {
         let lo = d.value_type.literal(d.lo);
         let hi = d.value_type.literal(d.hi);
         let delta = d.delta;
+        let doc = if self.escape.is_some() {
+            " A value of this codec: any value encodes, those outside [`LOWEST`] ..= [`HIGHEST`] as the escape symbol and all their bits."
+        } else {
+            " A value of this codec: any value of [`LOWEST`] ..= [`HIGHEST`] encodes."
+        };
         quote! {
-            /// A value of this codec: any value of [`LOWEST`] ..= [`HIGHEST`] encodes.
+            #[doc = #doc]
             pub type Symbol = #t;
             /// The smallest value of the range.
             pub const LOWEST: Symbol = #lo;
@@ -677,9 +741,13 @@ impl Kind for Integers {
 
     /// A bin in decode rows: its first value (with deltas, its first place), as a value of
     /// `Symbol` to which the decoder adds the offset.
+    /// The escape decodes as 0 plus its raw bits.
     fn row_literal(&self, symbol: usize) -> String {
         let d = &self.domain;
-        let start = self.bins.get(symbol).map_or(0, |b| i64::from(b.start));
+        let Some(b) = self.bins.get(symbol) else {
+            return "0".to_string();
+        };
+        let start = i64::from(b.start);
         let first = if d.delta { start } else { d.lo + start };
         d.value_type.literal(first).to_string()
     }
@@ -688,8 +756,20 @@ impl Kind for Integers {
         Some(self)
     }
 
+    fn escape(&self) -> Option<&Escape> {
+        self.escape.as_ref()
+    }
+
+    fn widths(&self) -> Vec<u32> {
+        let mut w: Vec<u32> = self.bins.iter().map(|b| b.width).collect();
+        if let Some(e) = &self.escape {
+            w.push(e.raw_bits);
+        }
+        w
+    }
+
     fn extra_tables(&self, table_bits: u32) -> Vec<LayoutEntry> {
-        let bins = self.alphabet_len();
+        let bins = self.alphabet_len() - usize::from(self.escape.is_some());
         vec![
             LayoutEntry::new("BIN_START", "u32", bins, &[4], Direction::Encode),
             LayoutEntry::new("BIN_WIDTH", "u8", bins, &[1], Direction::Encode),
@@ -708,6 +788,8 @@ pub struct ValueScanner {
     token: Vec<u8>,
     token_start: usize,
     prev: i64,
+    /// Values outside the range become [`ESCAPED`] rather than errors.
+    escape: bool,
 }
 
 impl ValueScanner {
@@ -770,6 +852,12 @@ impl ValueScanner {
             return Err(self.bad());
         };
         let d = self.domain;
+        let t = d.value_type;
+        if self.escape && (v < d.lo || v > d.hi) && (t.min()..=t.max()).contains(&v) {
+            out.push(ESCAPED);
+            self.token.clear();
+            return Ok(());
+        }
         if v < d.lo || v > d.hi {
             return Err(Misfit {
                 offset: self.token_start,
@@ -786,7 +874,7 @@ impl ValueScanner {
 /// Values to bin indices (for [`Kind::scanner`]).
 struct BinScanner<'a> {
     values: ValueScanner,
-    bins: &'a [Bin],
+    alphabet: &'a Integers,
     places: Vec<u32>,
 }
 
@@ -794,14 +882,22 @@ impl Scanner for BinScanner<'_> {
     fn feed(&mut self, piece: &[u8], out: &mut Vec<u16>) -> Result<(), Misfit> {
         self.places.clear();
         let r = self.values.feed(piece, &mut self.places);
-        out.extend(self.places.iter().map(|&u| bin_index(self.bins, u) as u16));
+        out.extend(
+            self.places
+                .iter()
+                .map(|&u| self.alphabet.symbol_of(u) as u16),
+        );
         r
     }
 
     fn finish(&mut self, out: &mut Vec<u16>) -> Result<(), Misfit> {
         self.places.clear();
         let r = self.values.finish(&mut self.places);
-        out.extend(self.places.iter().map(|&u| bin_index(self.bins, u) as u16));
+        out.extend(
+            self.places
+                .iter()
+                .map(|&u| self.alphabet.symbol_of(u) as u16),
+        );
         r
     }
 }

@@ -141,4 +141,94 @@ pub trait Kind: fmt::Debug + Send + Sync {
     fn extra_tables(&self, _table_bits: u32) -> Vec<crate::method::LayoutEntry> {
         Vec::new()
     }
+    /// The escape symbol, when `escape = true`.
+    fn escape(&self) -> Option<&Escape> {
+        None
+    }
+    /// Raw bits that follow each symbol (integer bins' offsets, an escape's value); empty
+    /// when no symbol carries any.
+    fn widths(&self) -> Vec<u32> {
+        Vec::new()
+    }
+}
+
+/// Keys of escapes (`bytes`, `integers`).
+pub const ESCAPE_KEYS: &[&str] = &["escape", "escape_share"];
+
+/// Share of the training symbols the escape symbol counts as at least, when the spec gives
+/// no `escape_share`: its slots then cost about 10 bits, and an escape in data never seen
+/// in training stays cheap enough.
+pub const ESCAPE_FLOOR: f64 = 1.0 / 1024.0;
+
+/// `escape = true`: a reserved symbol, the last of the alphabet, followed by `raw_bits` raw
+/// bits of the value, makes every value of the kind's domain encodable.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Escape {
+    /// The escape's symbol index (the last one).
+    pub symbol: usize,
+    /// Raw bits of an escaped value.
+    pub raw_bits: u32,
+    /// `escape_share`: the share of the symbols the escape is counted as; `None`: as often
+    /// as the training data leaves the alphabet, at least [`ESCAPE_FLOOR`].
+    pub share: Option<f64>,
+}
+
+impl Escape {
+    /// The escape's count for a codec whose other symbols were counted `others` times and
+    /// whose training data left the alphabet `seen` times.
+    pub fn count(&self, others: u64, seen: u64) -> u64 {
+        let total = others.saturating_add(seen) as f64;
+        match self.share {
+            // share = e / (others + e)  =>  e = share * others / (1 - share).
+            Some(share) => ((share * others as f64 / (1.0 - share)).round() as u64).max(1),
+            None => seen.max((total * ESCAPE_FLOOR).ceil() as u64).max(1),
+        }
+    }
+}
+
+/// Reads `escape` and `escape_share`: `Some(share)` when escapes are on.
+pub fn read_escape(keys: &dyn SpecKeys) -> Result<Option<Option<f64>>, Vec<Misplaced>> {
+    let mut errors = Vec::new();
+    let on = match keys.key("escape") {
+        None => false,
+        Some(v) => match v.get_ref() {
+            DeValue::Boolean(b) => *b,
+            other => {
+                errors.push((
+                    v.span(),
+                    format!("`escape` must be true or false, found {}", a_type(other)),
+                ));
+                false
+            }
+        },
+    };
+    let share = match keys.key("escape_share") {
+        None => None,
+        Some(v) => {
+            let value = match v.get_ref() {
+                DeValue::Float(f) => f.as_str().parse::<f64>().ok(),
+                _ => None,
+            };
+            match value {
+                Some(x) if x > 0.0 && x < 0.5 => {
+                    if !on {
+                        errors.push((v.span(), "`escape_share` needs `escape = true`".to_string()));
+                    }
+                    Some(x)
+                }
+                _ => {
+                    errors.push((
+                        v.span(),
+                        "`escape_share` must be a number above 0 and below 0.5 (the escape's share of the symbols, e.g. 0.01)".to_string(),
+                    ));
+                    None
+                }
+            }
+        }
+    };
+    if errors.is_empty() {
+        Ok(on.then_some(share))
+    } else {
+        Err(errors)
+    }
 }
