@@ -50,6 +50,7 @@
 // does not matter.
 #![allow(clippy::result_large_err)]
 
+pub mod context;
 pub mod counts;
 pub mod emit;
 pub mod error;
