@@ -161,6 +161,19 @@ pub fn cluster(
     max_sets: usize,
     table_bits: u32,
 ) -> Result<Clustering> {
+    cluster_where(train, held, max_sets, table_bits, |_| true)
+}
+
+/// [`cluster`], keeping only groupings whose number of sets `allowed` accepts (one set is
+/// always accepted): the generated code takes powers of two, so that a set's index is
+/// masked, not checked.
+pub fn cluster_where(
+    train: &[Vec<u64>],
+    held: &[Vec<u64>],
+    max_sets: usize,
+    table_bits: u32,
+    allowed: impl Fn(usize) -> bool,
+) -> Result<Clustering> {
     if table_bits > MAX_TABLE_BITS {
         return Err(Error::internal(format!(
             "context clustering: table_bits {table_bits} above {MAX_TABLE_BITS}"
@@ -207,7 +220,7 @@ pub fn cluster(
     // Index order with a strict `<`: ties keep fewer sets.
     let mut best = 0;
     for (i, e) in evaluated.iter().enumerate() {
-        if score(e) < score(&evaluated[best]) {
+        if (e.sets == 1 || allowed(e.sets)) && score(e) < score(&evaluated[best]) {
             best = i;
         }
     }

@@ -116,7 +116,12 @@ pub struct Built {
     /// The alphabet as planned (an integers codec's with its bins).
     pub kind: std::sync::Arc<dyn kind::Kind>,
     pub model: model::Model,
+    /// The first (with one set, the only) table set.
     pub tables: method::Tables,
+    /// Every table set, and for a context codec the set of each context symbol (empty with
+    /// one set).
+    pub sets: Vec<method::Tables>,
+    pub set_of: Vec<u8>,
     pub fingerprint: u16,
     pub report: Report,
 }
@@ -126,13 +131,16 @@ pub struct Built {
 pub fn build_codec(codec: &spec::CodecSpec) -> Result<Built> {
     let samples = load::samples(codec, &mut verify::Fnv::default())?;
     let plan = plan::plan(codec, samples)?;
-    let Some(set) = plan.sets.into_iter().next() else {
+    let sets: Vec<method::Tables> = plan.sets.iter().map(|s| s.tables.clone()).collect();
+    let Some(first) = sets.first().cloned() else {
         return Err(Error::internal("a plan without a table set"));
     };
     Ok(Built {
         kind: plan.spec.kind.clone(),
         model: plan.model,
-        tables: set.tables,
+        tables: first,
+        sets,
+        set_of: plan.set_of,
         fingerprint: plan.fingerprint,
         report: plan.report,
     })

@@ -3,6 +3,7 @@
 //! with its slots, tables, rate and layout. A codec has exactly one table set today;
 //! contexts will give it several, so everything downstream iterates over `sets`.
 
+use crate::context;
 use crate::error::{Error, Result};
 use crate::kind::InputMap;
 use crate::method::{TableLayout, Tables};
@@ -30,6 +31,9 @@ pub struct CodecPlan {
     pub spec: CodecSpec,
     pub model: Model,
     pub sets: Vec<TableSet>,
+    /// Context codecs: the table set of each context symbol (alphabet order); empty with
+    /// one table set.
+    pub set_of: Vec<u8>,
     /// Ties streams to these tables (FORMAT.md).
     pub fingerprint: u16,
     pub input: InputMap,
@@ -106,14 +110,28 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
             )));
         }
     }
-    let fingerprint = verify::fingerprint(
-        spec.kind.tag(),
-        &spec.kind.identity(),
-        &set.tables,
-        spec.lanes,
-    );
+    let (sets, set_of, contexts) = match spec.context_tables {
+        Some(most) => {
+            let (sets, set_of, figures) =
+                context_sets(&spec, &model, set, most, rows, absent).map_err(in_codec)?;
+            (sets, set_of, Some(figures))
+        }
+        None => (vec![set], Vec::new(), None),
+    };
+    // The fingerprint covers the context map and every table set.
+    let mut identity = spec.kind.identity();
+    if !set_of.is_empty() {
+        identity.extend([0xC0, sets.len() as u8]);
+        identity.extend(&set_of);
+        for s in &sets[1..] {
+            identity.extend(s.tables.identity().1);
+        }
+    }
+    let fingerprint = verify::fingerprint(spec.kind.tag(), &identity, &sets[0].tables, spec.lanes);
+    let all: Vec<Tables> = sets.iter().map(|s| s.tables.clone()).collect();
     let verified = verify::verify(
-        &set.tables,
+        &all,
+        &set_of,
         fingerprint,
         spec.framing,
         spec.lanes,
@@ -121,17 +139,177 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
         spec.kind.widths(),
     )
     .map_err(in_codec)?;
-    let mut report = report::build(&spec, &model, &set, verified.clone(), sizing);
+    let mut report = report::build(&spec, &model, &sets[0], verified.clone(), sizing);
     report.files = files;
+    if let Some(c) = contexts {
+        report.table_bytes = c.table_bytes;
+        // The codec's rate: each set's at its share of the symbols.
+        let total: f64 = c.sets.iter().map(|s| s.symbols as f64).sum();
+        if total > 0.0 && c.sets.len() > 1 {
+            report.exact_rate = c
+                .sets
+                .iter()
+                .map(|s| s.symbols as f64 * s.rate)
+                .sum::<f64>()
+                / total;
+        }
+        report.contexts = Some(c);
+    }
     Ok(CodecPlan {
         spec,
         model,
-        sets: vec![set],
+        sets,
+        set_of,
         fingerprint,
         input,
         verified,
         report,
     })
+}
+
+/// Tables whose decode steps hold a position of every set in 16 bits: `table_bits` plus
+/// log2 of the sets at most 16.
+const MAX_POSITION_BITS: u32 = 16;
+
+/// The lane subsequences of the training sequences: symbol `i` of a sequence goes to lane
+/// `i % lanes`; in each, a symbol's context is the one before it (its lane's previous).
+fn lane_sequences(model: &Model, lanes: usize) -> Vec<Vec<u16>> {
+    let mut out = Vec::new();
+    for seq in &model.sequences {
+        for lane in 0..lanes.min(seq.symbols.len()) {
+            out.push(
+                seq.symbols
+                    .iter()
+                    .skip(lane)
+                    .step_by(lanes)
+                    .copied()
+                    .collect(),
+            );
+        }
+    }
+    out
+}
+
+/// A context codec's table sets: the contexts (each lane's previous symbol) grouped into at
+/// most `most` sets, a power of two, by [`context::cluster_where`] on a held-out split of
+/// the training sequences; each set's tables from the counts of its contexts. With a
+/// `flash_budget`, fewer sets until all fit (the order-0 set always does: sizing chose it).
+fn context_sets(
+    spec: &CodecSpec,
+    model: &Model,
+    order0: TableSet,
+    most: u32,
+    rows: usize,
+    absent: bool,
+) -> Result<(Vec<TableSet>, Vec<u8>, report::ContextFigures)> {
+    let n = spec.kind.alphabet_len();
+    let table_bits = spec.table_bits;
+    if model.sequences.iter().all(|s| s.symbols.is_empty()) {
+        return Err(Error::input(
+            Some(spec.location.clone()),
+            "context = \"previous\" learns from sequences: give `samples` or `text`, not only counts",
+        ));
+    }
+    let lanes = lane_sequences(model, spec.lanes as usize);
+    let refs: Vec<&[u16]> = lanes.iter().map(Vec::as_slice).collect();
+    let (train, held) = context::split_pair_counts(&refs, n);
+    let all = context::pair_counts(&refs, n);
+    let conditional = context::conditional_entropy(&all);
+    // Powers of two, and positions of every set within 16 bits.
+    let cap = 1u32 << MAX_POSITION_BITS.saturating_sub(table_bits).min(4);
+    let mut most = (most.min(cap) as usize).max(1);
+    most = 1 << most.ilog2();
+    loop {
+        let c = context::cluster_where(&train, &held, most, table_bits, usize::is_power_of_two)?;
+        let mut set_of = c.set_of.clone();
+        set_of.resize(n, 0);
+        let counts = context::set_counts(&all, &set_of, c.sets, n);
+        let mut sets = Vec::with_capacity(c.sets);
+        for set_counts in &counts {
+            let total: f64 = set_counts.iter().map(|&x| x as f64).sum();
+            let p: Vec<f64> = if total > 0.0 {
+                set_counts.iter().map(|&x| x as f64 / total).collect()
+            } else {
+                vec![1.0 / n as f64; n]
+            };
+            sets.push(table_set(spec, set_counts, &p, table_bits, rows, absent)?);
+        }
+        let bytes = combined_layout(&sets[0].layout, sets.len(), rows, table_bits).bytes();
+        let fits = spec.flash_budget.is_none_or(|b| bytes <= b);
+        if c.sets > 1 && !fits {
+            most = c.sets / 2;
+            continue;
+        }
+        if c.sets == 1 {
+            // One set: the order-0 tables (sizing priced those); contexts do not pay.
+            let figures = report::ContextFigures::new(
+                spec,
+                &c,
+                &[(set_of.clone(), model.counts.clone(), order0.clone())],
+                conditional,
+                order0.layout.bytes(),
+                most,
+            );
+            return Ok((vec![order0], Vec::new(), figures));
+        }
+        let members: Vec<(Vec<u8>, Vec<u64>, TableSet)> = counts
+            .into_iter()
+            .zip(sets.iter().cloned())
+            .map(|(counts, set)| (set_of.clone(), counts, set))
+            .collect();
+        let figures = report::ContextFigures::new(spec, &c, &members, conditional, bytes, most);
+        // The first set's layout is the codec's: every set's tables together.
+        if let Some(first) = sets.first_mut() {
+            first.layout = combined_layout(&order0.layout, c.sets, rows, table_bits);
+        }
+        return Ok((sets, set_of, figures));
+    }
+}
+
+/// The layout of `sets` table sets emitted together, from one set's: the method's tables
+/// and the decode positions' widths once per set, the kind's encode tables once, and
+/// `ROW_SET` (the table set of each encoding row as a context).
+pub fn combined_layout(
+    one: &TableLayout,
+    sets: usize,
+    rows: usize,
+    table_bits: u32,
+) -> TableLayout {
+    // Decode steps hold a position of every set: wider entries past 2^12 positions.
+    let wide_steps = crate::emit::tans::step_shift(table_bits, sets) > 12;
+    const PER_SET: &[&str] = &[
+        "SYMBOLS",
+        "STEPS",
+        "PUT",
+        "SPEND",
+        "RUN",
+        "NEXT_STATE",
+        "WIDTHS",
+    ];
+    let mut tables: Vec<_> = one
+        .tables
+        .iter()
+        .cloned()
+        .map(|mut t| {
+            if PER_SET.contains(&t.name) {
+                t.entries *= sets;
+            }
+            if t.name == "STEPS" && wide_steps {
+                t.entry_bytes = 4;
+            }
+            t
+        })
+        .collect();
+    if sets > 1 {
+        tables.push(crate::method::LayoutEntry::new(
+            "ROW_SET",
+            "u8",
+            rows,
+            &[1],
+            crate::method::Direction::Encode,
+        ));
+    }
+    TableLayout { tables }
 }
 
 /// The table set for `counts` at `table_bits`, by the codec's method and lookup.

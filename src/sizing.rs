@@ -126,8 +126,9 @@ pub fn candidates(spec: &CodecSpec) -> Vec<Candidate> {
     } else if spec.framing == Framing::Tagged
         && spec.kind.integers().is_none()
         && spec.kind.escape().is_none()
+        && spec.context_tables.is_none()
     {
-        // Offset bits (integers) ride on the tANS bit stream only.
+        // Offset bits (integers, escapes) and table sets ride on tANS only.
         vec![Method::Tans, Method::Rans]
     } else {
         // Untagged frames keep tANS.

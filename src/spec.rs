@@ -78,6 +78,25 @@ pub enum Framing {
     Bare,
 }
 
+/// What chooses the table set of a symbol.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Context {
+    /// One table set for every symbol (order 0).
+    None,
+    /// The lane's previous symbol chooses one of at most `context_tables` sets.
+    Previous,
+}
+
+impl Choice for Context {
+    const KEY: &'static str = "context";
+    const OPTIONS: &'static [(&'static str, Self)] =
+        &[("none", Context::None), ("previous", Context::Previous)];
+}
+
+/// Most table sets of a context codec (`context_tables`), and its default.
+pub const MAX_CONTEXT_TABLES: u32 = 16;
+pub const DEFAULT_CONTEXT_TABLES: u32 = 8;
+
 impl Choice for Framing {
     const KEY: &'static str = "framing";
     const OPTIONS: &'static [(&'static str, Self)] = &[
@@ -137,6 +156,8 @@ pub struct CodecSpec {
     pub framing: Framing,
     /// Bytes all of the codec's tables may take together, encode and decode (`flash_budget`).
     pub flash_budget: Option<usize>,
+    /// `context = "previous"`: at most this many table sets (`context_tables`); `None`: one.
+    pub context_tables: Option<u32>,
     pub given: Given,
     pub sources: Vec<Source>,
     /// Where the codec's table starts in the spec, for errors found by later stages.
@@ -160,6 +181,8 @@ pub const CODEC_KEYS: &[&str] = &[
     "symbol_lookup",
     "framing",
     "flash_budget",
+    "context",
+    "context_tables",
     "symbols",
     "counts",
     "text",
@@ -389,6 +412,33 @@ impl Checker<'_> {
                 .find(|&l| i128::from(l) == n)
                 .ok_or_else(|| format!("lanes = {written} is not available: expected 1, 2, 4 or 8"))
         });
+        let context = self.choice::<Context>(keys, &mut fail);
+        let context_tables =
+            self.optional_number(keys, "context_tables", &mut fail, |n, written| {
+                if (1..=i128::from(MAX_CONTEXT_TABLES)).contains(&n) {
+                    Ok(n as u32)
+                } else {
+                    Err(format!(
+                        "context_tables = {written} is out of range: expected 1 to {MAX_CONTEXT_TABLES}"
+                    ))
+                }
+            });
+        if let (Some(Context::None), Some(Some(_)), Some(v)) =
+            (context, context_tables, keys.get("context_tables"))
+        {
+            fail(
+                v.span(),
+                "`context_tables` applies to context = \"previous\"".to_string(),
+            );
+        }
+        if let (Some(Context::Previous), Some(Method::Rans), Some(v)) =
+            (context, method, keys.get(Method::KEY))
+        {
+            fail(
+                v.span(),
+                "a context codec is coded with method = \"tans\" (rANS table sets are not there yet)".to_string(),
+            );
+        }
         let table_bits = self.optional_number(keys, "table_bits", &mut fail, |n, written| {
             if (i128::from(MIN_TABLE_BITS)..=i128::from(MAX_TABLE_BITS)).contains(&n) {
                 Ok(n as u32)
@@ -535,6 +585,10 @@ impl Checker<'_> {
                 lookup,
                 framing,
                 flash_budget: flash_budget.map(|b| b as usize),
+                context_tables: match (context, context_tables) {
+                    (Some(Context::Previous), Some(k)) => Some(k.unwrap_or(DEFAULT_CONTEXT_TABLES)),
+                    _ => None,
+                },
                 given,
                 sources,
                 location: Location::at(self.path, self.text, span.start),

@@ -134,18 +134,44 @@ pub fn leb128(mut v: u64) -> Vec<u8> {
     }
 }
 
-/// The reference coder over one table set.
+/// The reference coder over a codec's table sets.
 pub struct Reference<'a> {
     tables: &'a Tables,
     fingerprint: u16,
     framing: Framing,
     lanes: usize,
-    /// tANS: for each symbol, the table positions of its copies, left to right.
-    positions: Vec<Vec<u32>>,
-    /// tANS: for each table position, the number of its copy (`q_s ..= 2q_s - 1`).
-    number: Vec<u32>,
+    /// tANS: each table set with where its copies are.
+    sets: Vec<TansSet<'a>>,
+    /// Context codecs: the table set of each context symbol; empty: one set.
+    set_of: Vec<u8>,
     /// Offset bits after each symbol (integers codecs); empty: none.
     widths: Vec<u32>,
+}
+
+/// One tANS table set and where its copies are.
+struct TansSet<'a> {
+    tans: &'a Tans,
+    /// For each symbol, the table positions of its copies, left to right.
+    positions: Vec<Vec<u32>>,
+    /// For each table position, the number of its copy (`q_s ..= 2q_s - 1`).
+    number: Vec<u32>,
+}
+
+impl<'a> TansSet<'a> {
+    fn new(tans: &'a Tans) -> Self {
+        let mut positions = vec![Vec::new(); tans.slots.len()];
+        let mut number = Vec::new();
+        for (i, &s) in tans.spread.iter().enumerate() {
+            let list: &mut Vec<u32> = &mut positions[usize::from(s)];
+            number.push(tans.slots[usize::from(s)] + list.len() as u32);
+            list.push(i as u32);
+        }
+        TansSet {
+            tans,
+            positions,
+            number,
+        }
+    }
 }
 
 /// Bits, least significant first, packed into bytes least significant bit first.
@@ -162,25 +188,44 @@ fn pack(bits: &[bool]) -> Vec<u8> {
 impl<'a> Reference<'a> {
     /// The coder for `framing` with `lanes` interleaved states.
     pub fn framed(tables: &'a Tables, fingerprint: u16, framing: Framing, lanes: u32) -> Self {
-        let mut positions = Vec::new();
-        let mut number = Vec::new();
-        if let Tables::Tans(tans) = tables {
-            positions = vec![Vec::new(); tans.slots.len()];
-            for (i, &s) in tans.spread.iter().enumerate() {
-                let list: &mut Vec<u32> = &mut positions[usize::from(s)];
-                number.push(tans.slots[usize::from(s)] + list.len() as u32);
-                list.push(i as u32);
-            }
-        }
+        let sets = match tables {
+            Tables::Tans(tans) => vec![TansSet::new(tans)],
+            Tables::Rans(_) => Vec::new(),
+        };
         Reference {
             tables,
             fingerprint,
             framing,
             lanes: lanes as usize,
-            positions,
-            number,
+            sets,
+            set_of: Vec::new(),
             widths: Vec::new(),
         }
+    }
+
+    /// The coder for a context codec (tANS): `all` its table sets, `set_of` the set of each
+    /// context symbol. A symbol's context is the symbol `lanes` before it, its lane's
+    /// previous one; a lane's first symbol has [`crate::context::FIRST_CONTEXT`].
+    pub fn with_contexts(mut self, all: &'a [Tables], set_of: Vec<u8>) -> Self {
+        self.sets = all
+            .iter()
+            .filter_map(|t| match t {
+                Tables::Tans(tans) => Some(TansSet::new(tans)),
+                Tables::Rans(_) => None,
+            })
+            .collect();
+        self.set_of = set_of;
+        self
+    }
+
+    /// The table set of symbol `i`, from the symbols before it.
+    fn set_at(&self, symbols: &[u16], i: usize) -> &TansSet<'a> {
+        let context = match i.checked_sub(self.lanes) {
+            Some(j) => usize::from(symbols[j]),
+            None => crate::context::FIRST_CONTEXT,
+        };
+        let set = self.set_of.get(context).map_or(0, |&s| usize::from(s));
+        &self.sets[set.min(self.sets.len() - 1)]
     }
 
     /// The coder for a codec whose symbols are followed by `widths[s]` raw offset bits.
@@ -246,22 +291,35 @@ impl<'a> Reference<'a> {
             last[i % self.lanes] = s;
         }
         let framed = self.framing == Framing::Tagged;
-        // Codecs with offset bits keep the first start: no search.
-        let tries = if !framed && self.lanes == 1 && n <= SEARCH_SYMBOLS && self.widths.is_empty() {
+        // Codecs with offset bits or contexts keep the first start: no search.
+        let tries = if !framed
+            && self.lanes == 1
+            && n <= SEARCH_SYMBOLS
+            && self.widths.is_empty()
+            && self.set_of.is_empty()
+        {
             SEARCH_STARTS
         } else {
             1
         };
-        // Without the search, the copy the encoder reaches from state `L`.
+        // Without the search, the copy the encoder reaches from state `L` (in the table set
+        // of the symbol's context).
         let l = 1u32 << tans.table_bits;
-        let first: Vec<u32> = last.iter().map(|&s| self.put(tans, l, s).2 - l).collect();
+        let first: Vec<u32> = (n - used..n)
+            .map(|i| self.put(self.set_at(symbols, i), l, symbols[i]).2 - l)
+            .collect();
+        let mut by_lane = first.clone();
+        for (j, i) in (n - used..n).enumerate() {
+            by_lane[i % self.lanes] = first[j];
+        }
+        let first = by_lane;
         let start = match last.first() {
             Some(&s) if tries > 1 => {
                 // The candidate whose first symbols write the fewest bits, less the zeros
                 // they end the stream with (the first on a tie).
                 let mut best: Option<(i64, u32)> = None;
                 for p in self.starts(tans, s, tries) {
-                    let score = self.trial(tans, &symbols[..n - 1], p);
+                    let score = self.trial(&self.sets[0], &symbols[..n - 1], p);
                     if best.is_none_or(|(b, _)| score < b) {
                         best = Some((score, p));
                     }
@@ -270,7 +328,7 @@ impl<'a> Reference<'a> {
             }
             _ => first,
         };
-        let mut bits = self.tans_bits(tans, symbols, offsets, &start);
+        let mut bits = self.tans_bits(tans.table_bits, symbols, offsets, &start);
         if !framed {
             // Trailing zeros read as zeros past the end: leave them out, up to the limit.
             let end = bits.iter().rposition(|&b| b).map_or(0, |i| i + 1);
@@ -282,27 +340,31 @@ impl<'a> Reference<'a> {
     /// One encoding step of symbol `s` from state `x`, found from the spread itself: the bit
     /// count `k` (the one with `x >> k` in `[q_s, 2q_s)`), the `k` bits written, and the
     /// state of copy number `x >> k` of `s`.
-    fn put(&self, tans: &Tans, x: u32, s: u16) -> (u32, u32, u32) {
-        let q = tans.slots[usize::from(s)];
+    fn put(&self, set: &TansSet<'_>, x: u32, s: u16) -> (u32, u32, u32) {
+        let q = set.tans.slots[usize::from(s)];
         let mut k = 0;
         while (x >> k) >= 2 * q {
             k += 1;
         }
-        let next = self.positions[usize::from(s)][((x >> k) - q) as usize];
-        (k, x & ((1u32 << k) - 1), (1u32 << tans.table_bits) + next)
+        let next = set.positions[usize::from(s)][((x >> k) - q) as usize];
+        (
+            k,
+            x & ((1u32 << k) - 1),
+            (1u32 << set.tans.table_bits) + next,
+        )
     }
 
     /// A starting position's score: over the first [`TRIAL_SYMBOLS`] symbols of `head` the
     /// encoder puts in (backwards), the bits they write less the zeros these end the stream
     /// with (read least significant first, a field ends in its high bits); when the whole
     /// head is in the trial and wrote only zeros, the zeros of the first state's field too.
-    fn trial(&self, tans: &Tans, head: &[u16], start: u32) -> i64 {
-        let r = tans.table_bits;
+    fn trial(&self, set: &TansSet<'_>, head: &[u16], start: u32) -> i64 {
+        let r = set.tans.table_bits;
         let l = 1u32 << r;
         let mut x = l + start;
         let (mut bits, mut zeros, mut clean) = (0i64, 0i64, true);
         for &s in head.iter().rev().take(TRIAL_SYMBOLS) {
-            let (k, low, next) = self.put(tans, x, s);
+            let (k, low, next) = self.put(set, x, s);
             if clean {
                 zeros += i64::from(k - (32 - low.leading_zeros()));
                 clean = low == 0;
@@ -318,8 +380,7 @@ impl<'a> Reference<'a> {
     }
 
     /// The payload bits, in reading order, for the lanes' starting positions `start`.
-    fn tans_bits(&self, tans: &Tans, symbols: &[u16], offsets: &[u32], start: &[u32]) -> Vec<bool> {
-        let r = tans.table_bits;
+    fn tans_bits(&self, r: u32, symbols: &[u16], offsets: &[u32], start: &[u32]) -> Vec<bool> {
         let l = 1u32 << r;
         let n = symbols.len();
         // Chunks in the order the encoder produces them; the decoder reads them backwards.
@@ -333,8 +394,9 @@ impl<'a> Reference<'a> {
         for (i, &s) in symbols.iter().enumerate().rev().skip(start.len()) {
             // A symbol's offset bits follow its state bits in reading order.
             chunks.push((offset(i), self.width(s)));
+            let set = self.set_at(symbols, i);
             let x = &mut x[i % self.lanes];
-            let (k, low, next) = self.put(tans, *x, s);
+            let (k, low, next) = self.put(set, *x, s);
             chunks.push((low, k));
             *x = next;
         }
@@ -472,12 +534,13 @@ impl<'a> Reference<'a> {
         let mut out = Vec::with_capacity(count.min(1 << 20));
         let mut offsets = Vec::with_capacity(count.min(1 << 20));
         for i in 0..count {
+            let set = self.set_at(&out, i);
             let state = &mut state[i % self.lanes];
-            let s = tans.spread[*state];
+            let s = set.tans.spread[*state];
             out.push(s);
             // A lane's last symbol is its final state's: no state bits after it.
             if i + self.lanes < count {
-                let o = self.number[*state];
+                let o = set.number[*state];
                 let k = r - (31 - o.leading_zeros());
                 *state = (((o << k) | read(k)) - (1u32 << r)) as usize;
             }
@@ -588,14 +651,21 @@ pub const VERIFY_STREAM: usize = 1 << 20;
 
 /// Round-trips every training sequence through the reference coder.
 pub fn verify(
-    tables: &Tables,
+    sets: &[Tables],
+    set_of: &[u8],
     fingerprint: u16,
     framing: Framing,
     lanes: u32,
     model: &Model,
     widths: Vec<u32>,
 ) -> Result<Verified> {
-    let coder = Reference::framed(tables, fingerprint, framing, lanes).with_widths(widths);
+    let Some(tables) = sets.first() else {
+        return Err(Error::internal("verify: no table set"));
+    };
+    let mut coder = Reference::framed(tables, fingerprint, framing, lanes).with_widths(widths);
+    if !set_of.is_empty() {
+        coder = coder.with_contexts(sets, set_of.to_vec());
+    }
     let mut v = Verified::default();
     for seq in &model.sequences {
         let empty: &[u16] = &[];

@@ -12,6 +12,7 @@ use std::path::Path;
 
 #[path = "../../tests/common/mod.rs"]
 mod common;
+mod contexts;
 mod escapes;
 mod integers;
 use common::Rng;

@@ -74,11 +74,11 @@ pub fn docs(lines: &[String]) -> TokenStream {
 
 fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     let spec = &plan.spec;
-    let [set] = plan.sets.as_slice() else {
+    // A context codec's first set carries the layout of all of them (`plan.rs`).
+    let Some(set) = plan.sets.first() else {
         return Err(Error::internal(format!(
-            "codec `{}` has {} table sets; the emitter writes one",
-            spec.name,
-            plan.sets.len()
+            "codec `{}` has no table set",
+            spec.name
         )));
     };
     let name = Ident::new(&spec.name, Span::call_site());
@@ -97,7 +97,9 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     let framing = framing::tokens(spec.framing);
     let input = match &set.tables {
         // tANS marks an absent value by the top bit of its `run`, rANS by a flag.
-        Tables::Tans(t) => input::tokens(&plan.input, |row| tans::absent(t, row)),
+        Tables::Tans(t) => {
+            input::tokens(&plan.input, |row| tans::absent(t, plan.sets.len() > 1, row))
+        }
         Tables::Rans(_) => input::tokens(&plan.input, |row| quote!(u32::from(PUTS[#row].absent))),
     };
     let body = match &set.tables {

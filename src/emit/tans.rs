@@ -18,7 +18,7 @@ use super::input::{self, InputTokens};
 use super::rows::{push_number, rows_of, RowSets};
 use crate::kind::integers::Integers;
 use crate::kind::Escape;
-use crate::method::tans::Tans;
+use crate::method::tans::{DecodeEntry, Tans};
 use crate::plan::CodecPlan;
 use crate::spec::Framing;
 use proc_macro2::{Literal, TokenStream};
@@ -110,6 +110,83 @@ impl<'a> Offsets<'a> {
     }
 }
 
+/// The table sets of a codec: one, or a context codec's several. With several, the decoder's
+/// state is a position among all sets' (`POSITIONS`): each decode step's base leads into the
+/// set its symbol chooses for the lane's next symbol, so that choosing costs the decoder
+/// nothing. The encoder reads `PUT[set][row]` and the set's run of `NEXT_STATE`.
+struct Sets<'a> {
+    all: Vec<&'a Tans>,
+    set_of: &'a [u8],
+}
+
+impl<'a> Sets<'a> {
+    fn of(plan: &'a CodecPlan) -> Sets<'a> {
+        let all: Vec<&Tans> = plan
+            .sets
+            .iter()
+            .filter_map(|s| match &s.tables {
+                crate::method::Tables::Tans(t) => Some(t),
+                crate::method::Tables::Rans(_) => None,
+            })
+            .collect();
+        Sets {
+            all,
+            set_of: &plan.set_of,
+        }
+    }
+
+    fn many(&self) -> bool {
+        self.all.len() > 1
+    }
+
+    /// The decoder's mask of a position.
+    fn mask(&self) -> TokenStream {
+        if self.many() {
+            quote!(POSITION_MASK)
+        } else {
+            quote!(MASK)
+        }
+    }
+
+    /// `set,` before the row in `put_symbol`'s arguments, with several sets.
+    fn arg(&self) -> TokenStream {
+        if self.many() {
+            quote!(set,)
+        } else {
+            TokenStream::new()
+        }
+    }
+
+    /// The set symbol `s` chooses as its lane's next context.
+    fn next_set(&self, s: u16) -> usize {
+        self.set_of
+            .get(usize::from(s))
+            .map_or(0, |&x| usize::from(x))
+    }
+
+    /// Every set's decode entries in turn, each base a position among all sets'.
+    fn decode(&self) -> Vec<DecodeEntry> {
+        let l = self.all.first().map_or(0, |t| t.table_len());
+        self.all
+            .iter()
+            .flat_map(|t| t.decode.iter())
+            .map(|e| DecodeEntry {
+                base: (usize::from(e.base) + self.next_set(e.symbol) * l) as u16,
+                ..*e
+            })
+            .collect()
+    }
+
+    /// The decode graph of all sets, for its longest run of bit-free steps.
+    fn joined(&self) -> Option<Tans> {
+        let first = self.all.first()?;
+        Some(Tans {
+            decode: self.decode(),
+            ..(*first).clone()
+        })
+    }
+}
+
 /// The pieces both paths share.
 struct Parts<'a> {
     /// The decoder's start (header, count and padding checks, the lanes' first states) and
@@ -128,6 +205,7 @@ struct Parts<'a> {
     offsets: Option<Offsets<'a>>,
     /// Most bits a state step reads.
     max_state_bits: u8,
+    sets: &'a Sets<'a>,
 }
 
 pub fn body(
@@ -138,26 +216,45 @@ pub fn body(
     rows: &mut RowSets,
 ) -> TokenStream {
     let offsets = Offsets::of(plan);
+    let sets = Sets::of(plan);
+    let joined = sets.joined();
+    let tans_all = joined.as_ref().filter(|_| sets.many()).unwrap_or(tans);
     let r = Rounds::new(
-        tans,
+        tans_all,
         plan.spec.lanes as usize,
         offsets.map_or(0, |o| o.max_width() as usize),
     );
     let max_bits = Literal::usize_unsuffixed(r.max_bits);
     let header_max = &framing.header_max;
 
-    let decode_tables = decode_tables(plan, tans, rows);
-    let put_tables = put_tables(plan, tans, rows);
+    let decode_tables = decode_tables(plan, &sets, tans, rows);
+    let put_tables = put_tables(plan, &sets, tans, rows);
+    let next_len = if sets.many() {
+        quote!(POSITIONS)
+    } else {
+        quote!(TABLE_LEN)
+    };
     let state = if tans.next_bytes() == 1 {
         quote!(u8)
     } else {
         quote!(u16)
     };
-    let next_rows = rows.add(rows_of(&tans.next_state, 16, |line, &v| {
+    let next_all: Vec<u16> = sets
+        .all
+        .iter()
+        .flat_map(|t| t.next_state.iter().copied())
+        .collect();
+    let next_rows = rows.add(rows_of(&next_all, 16, |line, &v| {
         push_number(line, u64::from(v));
         line.push_str(", ");
     }));
-    let count_check = count_check(tans, framing);
+    let count_check = count_check(tans_all, framing);
+    let pm = sets.mask();
+    let first_state = if sets.many() {
+        quote!((peek(payload, at) as usize & MASK) | FIRST_BASE)
+    } else {
+        quote!(peek(payload, at) as usize & MASK)
+    };
     let start = &framing.start;
     let decode_start = quote! {
         #start
@@ -167,7 +264,7 @@ pub fn body(
         let mut at = 0usize;
         let mut state = [0usize; LANES];
         for x in state.iter_mut().take(used) {
-            *x = peek(payload, at) as usize & MASK;
+            *x = #first_state;
             at += TABLE_BITS as usize;
         }
         // A lane's last symbol is its final state's: `tail` is decoded without reading.
@@ -178,7 +275,7 @@ pub fn body(
     let decode_tail = match offsets {
         None => quote! {
             for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+                *slot = step(state[(count - used + i) % LANES] & #pm).0;
             }
         },
         Some(o) => {
@@ -197,7 +294,7 @@ pub fn body(
             quote! {
                 // The lanes' last symbols read no state bits; their offsets come last.
                 for (i, slot) in tail.iter_mut().enumerate() {
-                    let p = state[(count - used + i) % LANES] & MASK;
+                    let p = state[(count - used + i) % LANES] & #pm;
                     let width = u32::from(WIDTHS[p]);
                     *slot = step(p).0.wrapping_add(take(payload, &mut at, width) as Symbol);
                 }
@@ -213,15 +310,17 @@ pub fn body(
         framing,
         input,
         finish: finish(framing),
-        encode_start: encode_start(plan, input),
+        encode_start: encode_start(plan, &sets, input),
         offsets,
-        max_state_bits: tans.decode.iter().map(|e| e.bits).max().unwrap_or(0),
+        max_state_bits: tans_all.decode.iter().map(|e| e.bits).max().unwrap_or(0),
+        sets: &sets,
     };
-    let start_items = start_items(plan, input);
+    let start_items = start_items(plan, &sets, input);
     let integer_items = offsets.map(|o| match o {
-        Offsets::Bins(i) => integer_items(i, tans, rows),
-        Offsets::Escape(e) => escape_items(plan, e, tans, rows),
+        Offsets::Bins(i) => integer_items(i, &sets, tans_all, rows),
+        Offsets::Escape(e) => escape_items(plan, e, &sets, tans_all, rows),
     });
+    let context_items = context_items(plan, &sets, offsets, rows);
     let (prefix_vis, past_end) = if framing.to_the_end() {
         let past_end = quote! {
             /// Bits a decoder may read past the end of the stream, as zeros: the trailing zeros
@@ -241,6 +340,8 @@ pub fn body(
         pub const MAX_SYMBOL_BITS: u32 = #max_bits;
 
         #integer_items
+
+        #context_items
 
         /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
         pub const fn max_encoded_len(symbols: usize) -> usize {
@@ -274,22 +375,34 @@ pub fn body(
         #word
 
         /// For each symbol in alphabet order, the states of its copies in the table, left
-        /// to right (a state is `TABLE_LEN` + position).
-        static NEXT_STATE: [#state; TABLE_LEN] = #next_rows;
+        /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+        /// table per set in turn.
+        static NEXT_STATE: [#state; #next_len] = #next_rows;
     }
 }
 
 /// The decoding tables and `step`, which reads one entry. Symbols and steps stay in two
 /// tables: each is one load indexed by the position (a joined record costs an address
 /// computation more on Cortex-M, measured).
-fn decode_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+fn decode_tables(
+    plan: &CodecPlan,
+    sets: &Sets<'_>,
+    tans: &Tans,
+    rows: &mut RowSets,
+) -> TokenStream {
     let kind = plan.spec.kind.as_ref();
-    let shift = tans.step_shift();
-    let symbol_rows = rows.add(rows_of(&tans.decode, 8, |line, e| {
+    let shift = step_shift(tans.table_bits, sets.all.len());
+    let decode = sets.decode();
+    let symbol_rows = rows.add(rows_of(&decode, 8, |line, e| {
         line.push_str(&kind.row_literal(usize::from(e.symbol)));
         line.push_str(", ");
     }));
-    let step_rows = rows.add(rows_of(&tans.decode, 16, |line, e| {
+    let positions = if sets.many() {
+        quote!(POSITIONS)
+    } else {
+        quote!(TABLE_LEN)
+    };
+    let step_rows = rows.add(rows_of(&decode, 16, |line, e| {
         push_number(line, u64::from(e.base) | u64::from(e.bits) << shift);
         line.push_str(", ");
     }));
@@ -313,63 +426,112 @@ fn decode_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStre
         const STEP_SHIFT: u32 = #step_shift;
 
         /// The symbol at each table position (the spread of symbols over the table).
-        static SYMBOLS: [Symbol; TABLE_LEN] = #symbol_rows;
+        static SYMBOLS: [Symbol; #positions] = #symbol_rows;
 
         /// The decode step at each table position: after emitting the position's symbol the
         /// decoder reads `step >> STEP_SHIFT` bits `b` and goes to position
         /// `(step & (2^STEP_SHIFT - 1)) + b`.
-        static STEPS: [#step; TABLE_LEN] = #step_rows;
+        static STEPS: [#step; #positions] = #step_rows;
+    }
+}
+
+/// Where a decode step's bit count starts: above a position of every set.
+pub fn step_shift(table_bits: u32, sets: usize) -> u32 {
+    if table_bits + sets.max(1).ilog2() <= 12 {
+        12
+    } else {
+        16
     }
 }
 
 /// The encoding tables and `put_symbol`, which reads one row: `spend | run << 16` in one
 /// table when the sum `x + spend` stays below 16 bits, else `SPEND` and `RUN` apart. An
 /// input value outside the alphabet has the top bit of its `run` set.
-fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+fn put_tables(plan: &CodecPlan, sets: &Sets<'_>, tans: &Tans, rows: &mut RowSets) -> TokenStream {
     let kind = plan.spec.kind.as_ref();
     let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
+    // With several sets: a `[rows; SETS]` table, `set` masked so that the index is proven,
+    // and the set's part of `NEXT_STATE`.
+    let many = sets.many();
+    let (sp, set_index, zero) = if many {
+        (quote!(set: usize,), quote!([set & (SETS - 1)]), quote!([0]))
+    } else {
+        (TokenStream::new(), TokenStream::new(), TokenStream::new())
+    };
+    // A copy's index in `NEXT_STATE`: in the set's part with several sets.
+    let next_index = |e: TokenStream| {
+        if many {
+            quote!(((set & (SETS - 1)) << TABLE_BITS) | (#e))
+        } else {
+            e
+        }
+    };
+    let joined_index = next_index(quote!((high as usize + usize::from(run)) & MASK));
+    let word_index = next_index(quote!((high as usize + (put >> 16) as usize) & MASK));
+    let split_index =
+        next_index(quote!((high as usize + usize::from(RUN #set_index [row])) & MASK));
+    let table = |inner: TokenStream| if many { quote!([#inner; SETS]) } else { inner };
+    // Each set's rows in turn (nested when there are several).
+    let per_set =
+        |rows: &mut RowSets, per_line: usize, cell: &dyn Fn(&Tans, &mut String, Option<usize>)| {
+            let mut all: Vec<String> = Vec::new();
+            for (j, t) in sets.all.iter().enumerate() {
+                let lines =
+                    input::put_rows(kind, &plan.input, per_line, |line, row| cell(t, line, row));
+                if many {
+                    all.push(format!("// table set {j}"));
+                    all.push("[".to_string());
+                    all.extend(lines.into_iter().map(|l| format!("    {l}")));
+                    all.push("],".to_string());
+                } else {
+                    all.extend(lines);
+                }
+            }
+            rows.add(all)
+        };
     if tans.joined_put() {
         // Raw-value inputs read the absent flag from the row as the encoder step reads the
         // rest of it, so that the compiler loads the row once.
-        let absent = if matches!(plan.input, crate::kind::InputMap::Rows(_)) {
+        let absent = if matches!(&plan.input, crate::kind::InputMap::Rows(r) if r.contains(&None)) {
             quote! {
                 /// Not zero for an input value outside the alphabet: the top bit of `run`.
                 #[cfg(target_pointer_width = "64")]
                 #[inline(always)]
                 fn absent_flag(row: usize) -> u32 {
-                    u32::from(PUT[row][3] >> 7)
+                    u32::from(PUT #zero [row][3] >> 7)
                 }
 
                 /// Not zero for an input value outside the alphabet: the top bit of `run`.
                 #[cfg(not(target_pointer_width = "64"))]
                 #[inline(always)]
                 fn absent_flag(row: usize) -> u32 {
-                    u32::from_le_bytes(PUT[row]) >> 31
+                    u32::from_le_bytes(PUT #zero [row]) >> 31
                 }
             }
         } else {
             TokenStream::new()
         };
-        let put_rows = rows.add(input::put_rows(kind, &plan.input, 8, |line, row| {
+        let put_rows = per_set(rows, 8, &|tans, line, row| {
             let (spend, run) = row.map_or((0, 0x8000), |s| (tans.puts[s].spend, tans.puts[s].run));
             line.push_str("put(");
             push_number(line, u64::from(spend));
             line.push_str(", ");
             push_number(line, u64::from(run));
             line.push_str("), ");
-        }));
+        });
+        let put_type = table(quote!([[u8; 4]; #put_len]));
         return quote! {
             /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
             /// count, the bits above them (`x >> bits`, the copy number whose state comes
             /// next) and the next state. 64-bit targets load the two halves of the row apart.
             #[cfg(target_pointer_width = "64")]
             #[inline(always)]
-            fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-                let [a, b, c, d] = PUT[row];
+            fn put_symbol(x: u32, #sp row: usize) -> (u32, u32, u32) {
+                let [a, b, c, d] = PUT #set_index [row];
                 let (spend, run) = (u16::from_le_bytes([a, b]), u16::from_le_bytes([c, d]));
                 let bits = x.wrapping_add(u32::from(spend)) >> (TABLE_BITS + 1);
                 let high = x >> bits;
-                let next = NEXT_STATE[(high as usize + usize::from(run)) & MASK];
+                let next = NEXT_STATE[#joined_index];
                 (bits, high, u32::from(next))
             }
 
@@ -379,11 +541,11 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
             /// stays under 16 bits, and `run` is a shifted operand.
             #[cfg(not(target_pointer_width = "64"))]
             #[inline(always)]
-            fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-                let put = u32::from_le_bytes(PUT[row]);
+            fn put_symbol(x: u32, #sp row: usize) -> (u32, u32, u32) {
+                let put = u32::from_le_bytes(PUT #set_index [row]);
                 let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
                 let high = x >> bits;
-                let next = NEXT_STATE[(high as usize + (put >> 16) as usize) & MASK];
+                let next = NEXT_STATE[#word_index];
                 (bits, high, u32::from(next))
             }
 
@@ -391,7 +553,7 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
             /// `k = (x + spend) >> (TABLE_BITS + 1)` bits and goes to state
             /// `NEXT_STATE[((x >> k) + run) % TABLE_LEN]`. A `run` with its top bit set marks
             /// a value outside the alphabet.
-            static PUT: [[u8; 4]; #put_len] = #put_rows;
+            static PUT: #put_type = #put_rows;
 
             #absent
 
@@ -404,23 +566,25 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
             }
         };
     }
-    let spend_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
+    let spend_rows = per_set(rows, 16, &|tans, line, row| {
         push_number(line, row.map_or(0, |s| u64::from(tans.puts[s].spend)));
         line.push_str(", ");
-    }));
-    let run_rows = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
+    });
+    let run_rows = per_set(rows, 16, &|tans, line, row| {
         push_number(line, row.map_or(0x8000, |s| u64::from(tans.puts[s].run)));
         line.push_str(", ");
-    }));
+    });
+    let spend_type = table(quote!([u32; #put_len]));
+    let run_type = table(quote!([u16; #put_len]));
     quote! {
         /// One encoder step from state `x` for the symbol of encoding row `row`: the bit
         /// count, the bits above them (`x >> bits`, the copy number whose state comes next)
         /// and the next state.
         #[inline(always)]
-        fn put_symbol(x: u32, row: usize) -> (u32, u32, u32) {
-            let bits = x.wrapping_add(SPEND[row]) >> (TABLE_BITS + 1);
+        fn put_symbol(x: u32, #sp row: usize) -> (u32, u32, u32) {
+            let bits = x.wrapping_add(SPEND #set_index [row]) >> (TABLE_BITS + 1);
             let high = x >> bits;
-            let next = NEXT_STATE[(high as usize + usize::from(RUN[row])) & MASK];
+            let next = NEXT_STATE[#split_index];
             (bits, high, u32::from(next))
         }
 
@@ -428,17 +592,19 @@ fn put_tables(plan: &CodecPlan, tans: &Tans, rows: &mut RowSets) -> TokenStream 
         /// `k = (x + SPEND) >> (TABLE_BITS + 1)` bits and goes to state
         /// `NEXT_STATE[((x >> k) + RUN) % TABLE_LEN]`. A `RUN` with its top bit set marks a
         /// value outside the alphabet.
-        static SPEND: [u32; #put_len] = #spend_rows;
+        static SPEND: #spend_type = #spend_rows;
 
         /// See [`SPEND`].
-        static RUN: [u16; #put_len] = #run_rows;
+        static RUN: #run_type = #run_rows;
     }
 }
 
 /// A row's absent flag (not zero for an input value outside the alphabet).
-pub fn absent(tans: &Tans, row: TokenStream) -> TokenStream {
+pub fn absent(tans: &Tans, many_sets: bool, row: TokenStream) -> TokenStream {
     if tans.joined_put() {
         quote!(absent_flag(#row))
+    } else if many_sets {
+        quote!(u32::from(RUN[0][#row] >> 15))
     } else {
         quote!(u32::from(RUN[#row] >> 15))
     }
@@ -535,7 +701,16 @@ fn count_check(tans: &Tans, framing: &FramingTokens) -> TokenStream {
 /// and the last symbol of each lane, which picks the lane's starting state (a copy of it, so
 /// that it costs no bits). One-lane compact and bare streams try `SEARCH_STARTS` copies, each
 /// judged by a dry run over `TRIAL_SYMBOLS` symbols.
-fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
+fn encode_start(plan: &CodecPlan, sets: &Sets<'_>, input: &InputTokens) -> TokenStream {
+    // A context codec's lane starts in the set of its last symbol's context.
+    let (bind_set, sa) = if sets.many() {
+        (
+            quote!(let set = context_set(input, n - used + i);),
+            quote!(set,),
+        )
+    } else {
+        (TokenStream::new(), TokenStream::new())
+    };
     let InputTokens {
         row,
         declare,
@@ -566,7 +741,8 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             };
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
-                state[(n - used + i) % LANES] = first_state(#first.0);
+                #bind_set
+                state[(n - used + i) % LANES] = first_state(#sa #first.0);
             }
         };
     }
@@ -580,7 +756,8 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
         let mut state = [TABLE_LEN as u32; LANES];
         for (i, &last) in tail.iter().enumerate() {
             #check_tail
-            state[(n - used + i) % LANES] = start(head, last);
+            #bind_set
+            state[(n - used + i) % LANES] = start(head, #sa last);
         }
     }
 }
@@ -589,7 +766,10 @@ fn encode_start(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
 /// whose trailing zeros are left out.
 fn searches(plan: &CodecPlan) -> bool {
     // Codecs with offset bits keep the first start (FORMAT.md).
-    plan.spec.framing != Framing::Tagged && plan.spec.lanes == 1 && Offsets::of(plan).is_none()
+    plan.spec.framing != Framing::Tagged
+        && plan.spec.lanes == 1
+        && Offsets::of(plan).is_none()
+        && plan.sets.len() == 1
 }
 
 /// Refuses input outside the range before any bit is written (no check where the range is
@@ -644,6 +824,86 @@ fn tail_loop(o: Offsets<'_>) -> TokenStream {
     }
 }
 
+/// The length of tables with an entry per decode position.
+fn positions(sets: &Sets<'_>) -> TokenStream {
+    if sets.many() {
+        quote!(POSITIONS)
+    } else {
+        quote!(TABLE_LEN)
+    }
+}
+
+/// `set: usize,` as a parameter and `set,` as an argument, with several table sets.
+fn set_param(sets: &Sets<'_>) -> (TokenStream, TokenStream) {
+    if sets.many() {
+        (quote!(set: usize,), quote!(set,))
+    } else {
+        (TokenStream::new(), TokenStream::new())
+    }
+}
+
+/// A context codec's items: the sets, the first symbol's set, and each encoding row's set
+/// as a context.
+fn context_items(
+    plan: &CodecPlan,
+    sets: &Sets<'_>,
+    offsets: Option<Offsets<'_>>,
+    rows: &mut RowSets,
+) -> TokenStream {
+    if !sets.many() {
+        return TokenStream::new();
+    }
+    let kind = plan.spec.kind.as_ref();
+    let count = Literal::usize_unsuffixed(sets.all.len());
+    let first = Literal::usize_unsuffixed(sets.next_set(crate::context::FIRST_CONTEXT as u16));
+    let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
+    let row_sets = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
+        push_number(line, row.map_or(0, |s| sets.next_set(s as u16) as u64));
+        line.push_str(", ");
+    }));
+    let row = match offsets {
+        Some(o) => {
+            let code = o.code_at(quote!(symbol), quote!(j));
+            quote!(#code.0)
+        }
+        None => {
+            let r = input::tokens(&plan.input, |_| quote!(0u32)).row;
+            quote!(#r)
+        }
+    };
+    let first_label = format!(
+        " The set of a lane's first symbol: that of the context {}, the alphabet's first symbol.",
+        kind.label(crate::context::FIRST_CONTEXT)
+    );
+    quote! {
+        /// Table sets: a symbol's lane's previous symbol chooses which codes it.
+        pub const SETS: usize = #count;
+        /// Positions of every set's table, the decoder's state.
+        const POSITIONS: usize = SETS * TABLE_LEN;
+        const POSITION_MASK: usize = POSITIONS - 1;
+        #[doc = #first_label]
+        const FIRST_SET: usize = #first;
+        /// Where the first set's positions start.
+        const FIRST_BASE: usize = FIRST_SET << TABLE_BITS;
+
+        /// The table set each encoding row's symbol chooses for its lane's next symbol.
+        static ROW_SET: [u8; #put_len] = #row_sets;
+
+        /// The table set of input symbol `k`: its lane's previous symbol's choice, or for a
+        /// lane's first symbol [`FIRST_SET`].
+        #[inline(always)]
+        fn context_set(input: &[Symbol], k: usize) -> usize {
+            match k.checked_sub(LANES) {
+                Some(j) => match input.get(j) {
+                    Some(&symbol) => usize::from(ROW_SET[#row]) & (SETS - 1),
+                    None => FIRST_SET,
+                },
+                None => FIRST_SET,
+            }
+        }
+    }
+}
+
 /// `WIDTHS`: the raw bits after the symbol at each table position.
 fn widths_rows(kind: &dyn crate::kind::Kind, tans: &Tans, rows: &mut RowSets) -> TokenStream {
     let widths = kind.widths();
@@ -655,8 +915,16 @@ fn widths_rows(kind: &dyn crate::kind::Kind, tans: &Tans, rows: &mut RowSets) ->
 }
 
 /// A byte codec with an escape: which bytes escape, their `code`, and `WIDTHS`.
-fn escape_items(plan: &CodecPlan, e: &Escape, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+fn escape_items(
+    plan: &CodecPlan,
+    e: &Escape,
+    sets: &Sets<'_>,
+    tans: &Tans,
+    rows: &mut RowSets,
+) -> TokenStream {
     let kind = plan.spec.kind.as_ref();
+    let (sp, sa) = set_param(sets);
+    let wl = positions(sets);
     let mut words = [0u32; 8];
     if let crate::kind::InputMap::Rows(r) = kind.input() {
         // Values past the rows land on the last row.
@@ -691,17 +959,19 @@ fn escape_items(plan: &CodecPlan, e: &Escape, tans: &Tans, rows: &mut RowSets) -
         /// The lane's starting state for a last symbol of encoding row `row`: the copy of
         /// it the encoder reaches from state `L` (that symbol then costs no state bits).
         #[inline(always)]
-        fn first_state(row: usize) -> u32 {
-            put_symbol(TABLE_LEN as u32, row).2
+        fn first_state(#sp row: usize) -> u32 {
+            put_symbol(TABLE_LEN as u32, #sa row).2
         }
 
         /// The raw bits after the symbol at each table position: the escape's.
-        static WIDTHS: [u8; TABLE_LEN] = #widths_rows;
+        static WIDTHS: [u8; #wl] = #widths_rows;
     }
 }
 
-fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStream {
+fn integer_items(ints: &Integers, sets: &Sets<'_>, tans: &Tans, rows: &mut RowSets) -> TokenStream {
     let d = &ints.domain;
+    let (sp, sa) = set_param(sets);
+    let wl = positions(sets);
     let escape = match &ints.escape {
         None => TokenStream::new(),
         Some(e) => {
@@ -837,8 +1107,8 @@ fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStrea
         /// The lane's starting state for a last symbol of encoding row `row`: the copy of
         /// it the encoder reaches from state `L` (that symbol then costs no state bits).
         #[inline(always)]
-        fn first_state(row: usize) -> u32 {
-            put_symbol(TABLE_LEN as u32, row).2
+        fn first_state(#sp row: usize) -> u32 {
+            put_symbol(TABLE_LEN as u32, #sa row).2
         }
 
         /// Bins: the symbols before any escape.
@@ -853,15 +1123,16 @@ fn integer_items(ints: &Integers, tans: &Tans, rows: &mut RowSets) -> TokenStrea
         static BIN_WIDTH: [u8; BINS] = #width_rows;
 
         /// The offset bits of the symbol at each table position.
-        static WIDTHS: [u8; TABLE_LEN] = #widths_rows;
+        static WIDTHS: [u8; #wl] = #widths_rows;
     }
 }
 
 /// `start`: a lane's starting state from its last symbol; with the search, `trial` too.
-fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
+fn start_items(plan: &CodecPlan, sets: &Sets<'_>, input: &InputTokens) -> TokenStream {
     if Offsets::of(plan).is_some() {
         return TokenStream::new();
     }
+    let (sp, sa) = set_param(sets);
     let position = quote! {
         /// The table position at number `i` of the order the encoder tries starting states
         /// in: bit-reversed counting (0, L/2, L/4, 3L/4, ...), the most aligned first, so
@@ -878,9 +1149,9 @@ fn start_items(plan: &CodecPlan, input: &InputTokens) -> TokenStream {
             /// encoder reaches from state `L` (that symbol then costs no bits), found without
             /// the decoding table, which an encoder-only image need not hold.
             #[inline(always)]
-            fn start(_head: &[Symbol], last: Symbol) -> u32 {
+            fn start(_head: &[Symbol], #sp last: Symbol) -> u32 {
                 let symbol = last;
-                put_symbol(TABLE_LEN as u32, #row).2
+                put_symbol(TABLE_LEN as u32, #sa #row).2
             }
         };
     }
@@ -974,20 +1245,34 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
     let (encode_start, decode_tail) = (&parts.encode_start, &parts.decode_tail);
     // Integers: each symbol's row from its value's bin, and its offset bits pushed first
     // (the stream is built back to front: they follow the state bits when read).
-    let bind = |k: TokenStream| match parts.offsets {
-        None => quote! {
-            let row = #row;
-            #check
-        },
-        Some(o) => {
-            let code = o.code_at(quote!(symbol), k);
-            quote!(let (row, offset, width) = #code;)
+    let many = parts.sets.many();
+    let sa = parts.sets.arg();
+    let pm = parts.sets.mask();
+    let bind = |k: TokenStream| {
+        let set = if many {
+            quote!(let set = context_set(input, #k);)
+        } else {
+            TokenStream::new()
+        };
+        match parts.offsets {
+            None => quote! {
+                let row = #row;
+                #check
+                #set
+            },
+            Some(o) => {
+                let code = o.code_at(quote!(symbol), k);
+                quote! {
+                    let (row, offset, width) = #code;
+                    #set
+                }
+            }
         }
     };
     let bind_rest = bind(quote!(rounds.len() * ENCODE_ROUND + i));
     let bind_round = bind(quote!(r * ENCODE_ROUND + i));
     let delta = parts.offsets.is_some_and(|o| o.delta());
-    let round_loop = if delta {
+    let round_loop = if delta || many {
         quote!(for (r, round) in rounds.iter().enumerate().rev())
     } else {
         quote!(for round in rounds.iter().rev())
@@ -1028,14 +1313,14 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
     let (decode_round_step, decode_slow_step) = match parts.offsets {
         None => (
             quote! {
-                let (symbol, bits, base) = step(*x & MASK);
+                let (symbol, bits, base) = step(*x & #pm);
                 *slot = symbol;
                 *x = base + (buf & !(u64::MAX << bits)) as usize;
                 buf >>= bits;
                 at += bits as usize;
             },
             quote! {
-                let (symbol, bits, base) = step(*x & MASK);
+                let (symbol, bits, base) = step(*x & #pm);
                 *slot = symbol;
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
@@ -1043,7 +1328,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
         ),
         Some(_) => (
             quote! {
-                let p = *x & MASK;
+                let p = *x & #pm;
                 let (symbol, bits, base) = step(p);
                 let width = u32::from(WIDTHS[p]);
                 *x = base + (buf & !(u64::MAX << bits)) as usize;
@@ -1054,7 +1339,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                 at += (bits + width) as usize;
             },
             quote! {
-                let p = *x & MASK;
+                let p = *x & #pm;
                 let (symbol, bits, base) = step(p);
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
@@ -1133,7 +1418,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                 for (i, &symbol) in rest.iter().enumerate().rev() {
                     #bind_rest
                     let x = state[i % LANES];
-                    let (bits, high, next) = put_symbol(x, row);
+                    let (bits, high, next) = put_symbol(x, #sa row);
                     #push_offset
                     acc = push(acc, x, high, bits);
                     state[i % LANES] = next;
@@ -1149,7 +1434,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                             let symbol = round[i];
                             #bind_round
                             let x = state[i % LANES];
-                            let (bits, high, next) = put_symbol(x, row);
+                            let (bits, high, next) = put_symbol(x, #sa row);
                             #push_offset
                             acc = push(acc, x, high, bits);
                             state[i % LANES] = next;
@@ -1168,7 +1453,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
                             let symbol = round[i];
                             #bind_round
                             let x = state[i % LANES];
-                            let (bits, high, next) = put_symbol(x, row);
+                            let (bits, high, next) = put_symbol(x, #sa row);
                             #push_offset
                             acc = push(acc, x, high, bits);
                             state[i % LANES] = next;
@@ -1288,14 +1573,28 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
         Some(_) => quote!(MAX_STATE_BITS),
     };
     let delta = parts.offsets.is_some_and(|o| o.delta());
-    let (before_param, encode_loop) = if delta {
+    let many = parts.sets.many();
+    let sa = parts.sets.arg();
+    let pm = parts.sets.mask();
+    let (before_param, encode_loop) = if delta || many {
+        let (before_param, before_arg) = if delta {
+            (quote!(, before: Symbol), quote!(, previous(input, k)))
+        } else {
+            (TokenStream::new(), TokenStream::new())
+        };
+        let (set_param, set_arg) = if many {
+            (quote!(, set: usize), quote!(, context_set(input, k)))
+        } else {
+            (TokenStream::new(), TokenStream::new())
+        };
         (
-            quote!(, before: Symbol),
+            quote!(#before_param #set_param),
             quote! {
-                // Each value goes as its place after the one before.
+                // Each value after the one before (its place, deltas), or its lane's
+                // previous one (its table set, contexts).
                 for k in (0..input.len()).rev() {
                     if let Some(&symbol) = input.get(k) {
-                        e.one(writer, symbol, previous(input, k));
+                        e.one(writer, symbol #before_arg #set_arg);
                     }
                 }
             },
@@ -1330,7 +1629,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     self.buf = reader.refill(self.buf);
                 }
                 let lane = self.lane % LANES;
-                let (symbol, bits, base) = step(self.state[lane] & MASK);
+                let (symbol, bits, base) = step(self.state[lane] & #pm);
                 *slot = symbol;
                 self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                 self.buf >>= bits;
@@ -1417,7 +1716,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                         self.buf = reader.refill(self.buf);
                     }
                     let lane = self.lane % LANES;
-                    let p = self.state[lane] & MASK;
+                    let p = self.state[lane] & #pm;
                     let (symbol, bits, base) = step(p);
                     self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                     self.buf >>= bits;
@@ -1528,7 +1827,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     #encode_bind
                     #encode_offset
                     let x = self.state[lane];
-                    let (bits, high, next) = put_symbol(x, row);
+                    let (bits, high, next) = put_symbol(x, #sa row);
                     // `(acc << bits) | (x & mask)`, as `x ^ (high << bits)` is the low bits.
                     self.acc = ((self.acc ^ high) << bits) ^ x;
                     self.state[lane] = next;
