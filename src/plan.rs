@@ -110,6 +110,27 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
             )));
         }
     }
+    // A context codec's open table size stops at CONTEXT_TABLE_BITS: every set multiplies
+    // the tables, and larger sets gain little.
+    let mut set = set;
+    let mut sizing = sizing;
+    if spec.context_tables.is_some()
+        && !spec.given.table_bits
+        && spec.table_bits > CONTEXT_TABLE_BITS
+    {
+        let smallest = crate::spec::smallest_table_bits(spec.kind.alphabet_len());
+        spec.table_bits = CONTEXT_TABLE_BITS.max(smallest);
+        set = table_set(
+            &spec,
+            &model.counts,
+            &probabilities,
+            spec.table_bits,
+            rows,
+            absent,
+        )
+        .map_err(in_codec)?;
+        sizing = None;
+    }
     let (sets, set_of, contexts) = match spec.context_tables {
         Some(most) => {
             let (sets, set_of, figures) =
@@ -167,9 +188,20 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
     })
 }
 
-/// Tables whose decode steps hold a position of every set in 16 bits: `table_bits` plus
-/// log2 of the sets at most 16.
-const MAX_POSITION_BITS: u32 = 16;
+/// The largest open `table_bits` of a context codec: every set multiplies the tables. On
+/// the licence pairs of [`CONTEXT_BLEND`] the mean gain over order 0 was 11.3 % with sets of
+/// at most 2^12 slots, 11.8 % at 2^13 and 12.0 % with no limit (the order-0 choice, 2^14).
+pub const CONTEXT_TABLE_BITS: u32 = 13;
+
+/// Share of the order-0 distribution blended into each context set's counts. On the 56
+/// ordered pairs of eight licence texts of /usr/share/common-licenses (train on one, code
+/// another; bytes, 8 sets, open `table_bits`) the mean gain over order 0 went from 11.5 %
+/// unblended to 12.0 %, the worst pair from 5.6 % to 7.5 %; 0.2 and 0.35 gained less.
+const CONTEXT_BLEND: f64 = 0.1;
+
+/// Decode steps hold a position of every set in 20 bits: `table_bits` plus log2 of the
+/// sets at most 20 (32-bit steps, the bit count above).
+const MAX_POSITION_BITS: u32 = 20;
 
 /// The lane subsequences of the training sequences: symbol `i` of a sequence goes to lane
 /// `i % lanes`; in each, a symbol's context is the one before it (its lane's previous).
@@ -225,7 +257,23 @@ fn context_sets(
         set_of.resize(n, 0);
         let counts = context::set_counts(&all, &set_of, c.sets, n);
         let mut sets = Vec::with_capacity(c.sets);
-        for set_counts in &counts {
+        // Each set's counts blended with CONTEXT_BLEND of the order-0 distribution (in
+        // 64ths of a count), so that a pair the training data never showed stays cheap.
+        let order0_total: f64 = model.counts.iter().map(|&x| x as f64).sum();
+        let blended: Vec<Vec<u64>> = counts
+            .iter()
+            .map(|sc| {
+                let total: f64 = sc.iter().map(|&x| x as f64).sum();
+                sc.iter()
+                    .zip(&model.counts)
+                    .map(|(&x, &o)| {
+                        let prior = CONTEXT_BLEND * total * o as f64 / order0_total.max(1.0);
+                        (64.0 * (x as f64 + prior)).round() as u64
+                    })
+                    .collect()
+            })
+            .collect();
+        for set_counts in &blended {
             let total: f64 = set_counts.iter().map(|&x| x as f64).sum();
             let p: Vec<f64> = if total > 0.0 {
                 set_counts.iter().map(|&x| x as f64 / total).collect()

@@ -958,7 +958,8 @@ pub mod gauge_status {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u8; TABLE_LEN] = [
         64, 65, 66, 67, 68, 70, 71, 72, 73, 74, 75, 76, 77, 78, 79, 80, // 0
         81, 82, 83, 84, 85, 86, 87, 88, 90, 91, 92, 94, 95, 96, 97, 98, // 16
@@ -2123,7 +2124,8 @@ pub mod level_delta {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u8; TABLE_LEN] = [
         218, 219, 220, 221, 222, 223, 224, 225, 226, 254, 250, 251, 252, 247, 245, 243, // 0
         241, 239, 199, 142, 184, 135, 153, 167, 183, 200, 217, 129, 134, 140, 147, 152, // 16
@@ -3217,7 +3219,8 @@ pub mod field_notes {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u16; TABLE_LEN] = [
         269, 284, 297, 313, 326, 345, 363, 379, 392, 409, 424, 437, 457, 468, 483, 488, // 0
         279, 357, 430, 286, 316, 352, 383, 413, 445, 473, 494, 258, 282, 305, 334, 360, // 16

@@ -171,7 +171,7 @@ impl<'a> Sets<'a> {
             .iter()
             .flat_map(|t| t.decode.iter())
             .map(|e| DecodeEntry {
-                base: (usize::from(e.base) + self.next_set(e.symbol) * l) as u16,
+                base: e.base + (self.next_set(e.symbol) * l) as u32,
                 ..*e
             })
             .collect()
@@ -409,7 +409,7 @@ fn decode_tables(
     let (step, step_shift) = if shift == 12 {
         (quote!(u16), Literal::u32_unsuffixed(12))
     } else {
-        (quote!(u32), Literal::u32_unsuffixed(16))
+        (quote!(u32), Literal::u32_unsuffixed(shift))
     };
     quote! {
         /// The decode step at table position `i`: its symbol, the bits to read, and the
@@ -437,10 +437,10 @@ fn decode_tables(
 
 /// Where a decode step's bit count starts: above a position of every set.
 pub fn step_shift(table_bits: u32, sets: usize) -> u32 {
-    if table_bits + sets.max(1).ilog2() <= 12 {
-        12
-    } else {
-        16
+    match table_bits + sets.max(1).ilog2() {
+        0..=12 => 12,
+        13..=16 => 16,
+        _ => 20,
     }
 }
 

@@ -67,7 +67,7 @@ impl Chain {
         let (mut weight, mut weight_rest, mut bits) = (vec![0.0; n], vec![0.0; n], vec![0.0; n]);
         for y in 0..n {
             let e = tans.decode[y];
-            lo[y] = usize::from(e.base);
+            lo[y] = e.base as usize;
             hi[y] = lo[y] + (1usize << e.bits);
             let s = usize::from(e.symbol);
             weight[y] = p[s];

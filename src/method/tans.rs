@@ -52,7 +52,7 @@ pub struct DecodeEntry {
     /// Bits to read after emitting.
     pub bits: u8,
     /// Next position before the read bits are added: `(o << bits) - L`.
-    pub base: u16,
+    pub base: u32,
 }
 
 /// How the encoder puts one symbol into the state: a record per symbol. The arithmetic is
@@ -149,7 +149,7 @@ impl Tans {
                 }
                 marks[i] = OPEN;
                 chain.push(i);
-                i = usize::from(self.decode[i].base);
+                i = self.decode[i].base as usize;
             };
             for &j in chain.iter().rev() {
                 tail += 1;
@@ -404,7 +404,7 @@ pub fn from_spread(
         decode.push(DecodeEntry {
             symbol: s,
             bits: bits as u8,
-            base: ((o << bits) - l as u32) as u16,
+            base: (o << bits) - l as u32,
         });
         next_state[(first[s_ix] + o - slots[s_ix]) as usize] = (l + i) as u16;
     }

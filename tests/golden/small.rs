@@ -976,7 +976,8 @@ pub mod mit_text {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u16; TABLE_LEN] = [
         514, 561, 608, 651, 691, 736, 784, 824, 872, 912, 957, 525, 526, 529, 536, 542, // 0
         551, 560, 567, 573, 583, 588, 593, 605, 612, 619, 624, 629, 640, 649, 654, 659, // 16
@@ -1893,7 +1894,8 @@ pub mod five {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u8; TABLE_LEN] = [
         65, 70, 73, 78, 80, 85, 90, 93, 98, 100, 105, 110, 113, 118, 120, 124, // 0
         66, 71, 74, 79, 81, 86, 91, 94, 99, 101, 106, 111, 114, 119, 121, 125, // 16
@@ -2773,7 +2775,8 @@ pub mod skewed {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u8; TABLE_LEN] = [
         128, 129, 130, 131, 132, 133, 135, 136, 137, 138, 139, 140, 141, 142, 143, 145, // 0
         146, 147, 148, 149, 150, 151, 152, 153, 155, 156, 157, 158, 159, 160, 161, 162, // 16
@@ -3614,7 +3617,8 @@ pub mod single {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u8; TABLE_LEN] = [
         2, 3, // 0
     ];
@@ -4563,7 +4567,8 @@ pub mod five_bare {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u8; TABLE_LEN] = [
         65, 70, 73, 78, 80, 85, 90, 93, 98, 100, 105, 110, 113, 118, 120, 124, // 0
         66, 71, 74, 79, 81, 86, 91, 94, 99, 101, 106, 111, 114, 119, 121, 125, // 16
@@ -5869,7 +5874,8 @@ pub mod skewed_l8 {
         }
     }
     /// For each symbol in alphabet order, the states of its copies in the table, left
-    /// to right (a state is `TABLE_LEN` + position).
+    /// to right (a state is `TABLE_LEN` + position); with several table sets, one such
+    /// table per set in turn.
     static NEXT_STATE: [u8; TABLE_LEN] = [
         128, 129, 130, 131, 132, 133, 135, 136, 137, 138, 139, 140, 141, 142, 143, 145, // 0
         146, 147, 148, 149, 150, 151, 152, 153, 155, 156, 157, 158, 159, 160, 161, 162, // 16
