@@ -4,6 +4,7 @@
 //! (headers), [`input`] (how input finds its table row), and one file per method's encoder
 //! and decoder ([`tans`], [`rans`]).
 
+pub mod chars;
 pub mod framing;
 pub mod input;
 pub mod rans;
@@ -117,6 +118,28 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     if let Some(ints) = spec.kind.integers() {
         (error_variant, error_display) = tans::range_error(ints);
     }
+    let table_consts = quote! {
+        const TABLE_LEN: usize = 1 << TABLE_BITS;
+        const MASK: usize = TABLE_LEN - 1;
+    };
+    let core = quote! {
+        #entry_points
+
+        #body
+
+        #framing_items
+
+        #layout_check
+    };
+    // A chars codec wraps the index codec in its text API.
+    let (table_consts, after_error) = match spec.kind.chars() {
+        Some(c) => {
+            (error_variant, error_display) = chars::unknown_error();
+            let core = quote!(#table_consts #core);
+            (TokenStream::new(), chars::items(plan, c, core, rows))
+        }
+        None => (table_consts, core),
+    };
 
     Ok(quote! {
         #module_doc
@@ -137,8 +160,7 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
 
             #symbol_items
 
-            const TABLE_LEN: usize = 1 << TABLE_BITS;
-            const MASK: usize = TABLE_LEN - 1;
+            #table_consts
 
             /// Why encoding or decoding failed.
             #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
@@ -161,13 +183,7 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
 
             impl ::core::error::Error for Error {}
 
-            #entry_points
-
-            #body
-
-            #framing_items
-
-            #layout_check
+            #after_error
         }
     })
 }
