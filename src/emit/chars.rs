@@ -176,14 +176,16 @@ pub fn items(
     } else {
         TokenStream::new()
     };
-    // Items of the index codec that only some methods have, and its symbols in order for
-    // the rANS search.
-    let mut reexports = TokenStream::new();
-    if let Tables::Tans(_) = &plan.sets[0].tables {
-        reexports = quote! {
-            pub use indices::MAX_SYMBOL_BITS;
-        };
-    }
+    // `MAX_SYMBOL_BITS` (tANS only), and the index codec's symbols in order for the rANS
+    // search.
+    let symbol_bits = if let Tables::Tans(_) = &plan.sets[0].tables {
+        quote! {
+            /// Most bits any one character costs.
+            pub const MAX_SYMBOL_BITS: u32 = indices::MAX_SYMBOL_BITS;
+        }
+    } else {
+        TokenStream::new()
+    };
     let indices_list =
         if matches!(plan.sets[0].tables, Tables::Rans(_)) && plan.spec.lookup == Lookup::Search {
             let all = (0..chars.chars().len()).map(|i| Literal::u8_unsuffixed(i as u8));
@@ -214,8 +216,13 @@ pub fn items(
             chars.saturating_mul(MAX_UTF8_LEN)
         }
 
-        pub use indices::symbol_count;
-        #reexports
+        /// The number of characters in the stream at the front of `stream`, read from its
+        /// header: [`max_decoded_bytes`] of it sizes `out` for [`decode`].
+        pub fn symbol_count(stream: &[u8]) -> Result<usize, Error> {
+            indices::symbol_count(stream)
+        }
+
+        #symbol_bits
 
         /// Encodes `input` into `out`; returns the stream's length (the stream is
         /// `out[..len]`). `out` is also the scratch space: its front first takes one index
