@@ -203,7 +203,7 @@ pub fn items(
         const ABSENT: u8 = #absent;
 
         /// Largest stream [`encode`] writes for `chars` characters, plus the one byte per
-        /// character it uses as scratch in front of the stream: a `out` this long always
+        /// character it uses as scratch in front of the stream: an `out` this long always
         /// suffices.
         pub const fn max_encoded_len(chars: usize) -> usize {
             chars.saturating_add(indices::max_encoded_len(chars))

@@ -131,6 +131,11 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
 
         #layout_check
     };
+    let too_small_doc = if spec.kind.chars().is_some() {
+        " The output buffer is too small; [`max_encoded_len`] always suffices to encode, [`max_decoded_bytes`] of the count to decode."
+    } else {
+        " The output buffer is too small; [`max_encoded_len`] always suffices."
+    };
     // A chars codec wraps the index codec in its text API.
     let (table_consts, after_error) = match spec.kind.chars() {
         Some(c) => {
@@ -165,7 +170,7 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
             /// Why encoding or decoding failed.
             #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
             pub enum Error {
-                /// The output buffer is too small; [`max_encoded_len`] always suffices.
+                #[doc = #too_small_doc]
                 OutputTooSmall,
                 #error_variant
                 #framing_errors
