@@ -624,11 +624,17 @@ table_bits = 6
 }
 
 /// Control and bidirectional-override characters reach the generated source escaped only
-/// (the `latin` codec has U+202E, and compiles above under `-D warnings` in clippy).
+/// (the `costs` codec has U+202E, and compiles above under `-D warnings` in clippy).
 #[test]
 fn unusual_characters_are_escaped_in_the_source() {
     let out = precast::render(spec_path()).unwrap();
     assert!(!out.source.contains('\u{202e}'));
     assert!(out.source.contains("'\\u{202e}' (U+202E)"));
-    assert_eq!(latin::ALPHABET.last(), Some(&'\u{202e}'));
+    assert_eq!(costs::ALPHABET.last(), Some(&'\u{202e}'));
+    // `latin` has two-byte characters only: one dense table, no search.
+    assert_eq!(latin::MAX_UTF8_LEN, 2);
+    let latin = out.source.split("pub mod latin {").nth(1).unwrap();
+    let latin = latin.split("\npub mod ").next().unwrap();
+    assert!(!latin.contains("WIDE_CHARS"));
+    assert!(latin.contains("static CHAR_INDEX: [u8; 253]"));
 }
