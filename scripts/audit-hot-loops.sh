@@ -3,8 +3,8 @@
 # function of a codec module that the compiler kept out of line: encode, decode and the
 # helpers) in an optimised build, and fails if any of them is a panic (a bounds, overflow
 # or unwrap check that the compiler could not remove). x86-64 with binutils' objdump. The
-# calls that remain are memcpy/memmove and the encoders' calls of their module's
-# `move_to_front`, outside the loops.
+# calls that remain are memcpy/memmove, the encoders' calls of their module's
+# `move_to_front`, outside the loops, and a chars codec's calls of its index codec.
 #
 #     scripts/audit-hot-loops.sh
 set -eu

@@ -496,6 +496,12 @@ impl Checker<'_> {
                 }
             }
         }
+        if let (Some(k), Some(f)) = (&alphabet, framing) {
+            if let Some(message) = k.framing_error(f) {
+                let at = keys.get(Framing::KEY).map_or(span.clone(), |v| v.span());
+                fail(at, message);
+            }
+        }
         // Offset bits ride on the tANS bit stream only.
         if let (Some(k), Some(Method::Rans), Some(v)) = (&alphabet, method, keys.get(Method::KEY)) {
             if k.escape().is_some() && k.integers().is_none() {

@@ -416,7 +416,7 @@ fn wrong_types() -> Vec<Case> {
         Case::new("kind_integer", &["[codec.a]", "kind = 1", "text = \"a\""])
             .at(2, 8, "a", "`kind` must be a string, found an integer"),
         Case::new("kind_capitalised", &["[codec.a]", "kind = \"Bytes\"", "text = \"a\""])
-            .at(2, 8, "a", "unknown kind \"Bytes\": expected \"bytes\", \"tokens\" or \"integers\""),
+            .at(2, 8, "a", "unknown kind \"Bytes\": expected \"bytes\", \"tokens\", \"integers\" or \"chars\""),
         Case::new("kind_empty", &["[codec.a]", "kind = \"\"", "text = \"a\""])
             .at(2, 8, "a", "unknown kind \"\""),
         bytes("method_boolean", "method = true")
@@ -578,7 +578,7 @@ fn byte_alphabets() -> Vec<Case> {
 fn missing() -> Vec<Case> {
     vec![
         Case::new("missing_kind", &["[codec.a]", "symbols = \"ab\"", "text = \"ab\""])
-            .at(1, 1, "a", "missing key `kind` (\"bytes\", \"tokens\" or \"integers\")"),
+            .at(1, 1, "a", "missing key `kind` (\"bytes\", \"tokens\", \"integers\" or \"chars\")"),
         Case::new("missing_symbols_with_kind_from_defaults", &["[defaults]", "kind = \"tokens\"", "", "[codec.a]", "counts = { ok = 1 }"])
             .at(4, 1, "a", "missing key `symbols`"),
         Case::new("no_training_data", &["[codec.a]", "kind = \"bytes\"", "symbols = \"ab\"", "lanes = 2"])

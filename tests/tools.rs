@@ -198,6 +198,39 @@ fn inspect_lists_the_tokens_of_a_good_hex_stream() {
     );
 }
 
+/// A chars stream shows as its text, escaped as a Rust string.
+#[test]
+fn inspect_shows_the_text_of_a_chars_stream() {
+    let dir = scratch("inspect-chars");
+    let file = dir.join("frame.bin");
+    let spec = root().join("tests/specs/chars.toml");
+    let planned = precast::plan_spec(&spec).unwrap();
+    let plan = planned
+        .plans
+        .iter()
+        .find(|p| p.spec.name == "costs")
+        .unwrap();
+    let note = "18,50 € → 3 ‰\n";
+    let alphabet = plan.spec.kind.chars().unwrap().chars();
+    let symbols: Vec<u16> = note
+        .chars()
+        .map(|c| alphabet.iter().position(|&a| a == c).unwrap() as u16)
+        .collect();
+    let stream = Reference::framed(
+        &plan.sets[0].tables,
+        plan.fingerprint,
+        plan.spec.framing,
+        plan.spec.lanes,
+    )
+    .encode(&symbols);
+    std::fs::write(&file, stream).unwrap();
+    let out = precast(&["inspect", "--spec", s(&spec), "--codec", "costs", s(&file)]);
+    assert!(out.status.success(), "{}", text(&out.stderr));
+    let shown = text(&out.stdout);
+    assert!(shown.contains("symbol count: 14"), "{shown}");
+    assert!(shown.contains("\"18,50 € → 3 ‰\\n\""), "{shown}");
+}
+
 #[test]
 fn inspect_names_the_codec_that_wrote_a_foreign_stream() {
     let dir = scratch("inspect-foreign");

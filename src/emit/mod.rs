@@ -4,6 +4,7 @@
 //! (headers), [`input`] (how input finds its table row), and one file per method's encoder
 //! and decoder ([`tans`], [`rans`]).
 
+pub mod chars;
 pub mod framing;
 pub mod input;
 pub mod rans;
@@ -119,6 +120,33 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     if let Some(ints) = spec.kind.integers() {
         (error_variant, error_display) = tans::range_error(ints);
     }
+    let table_consts = quote! {
+        const TABLE_LEN: usize = 1 << TABLE_BITS;
+        const MASK: usize = TABLE_LEN - 1;
+    };
+    let core = quote! {
+        #entry_points
+
+        #body
+
+        #framing_items
+
+        #layout_check
+    };
+    let too_small_doc = if spec.kind.chars().is_some() {
+        " The output buffer is too small; [`max_encoded_len`] always suffices to encode, [`max_decoded_bytes`] of the count to decode."
+    } else {
+        " The output buffer is too small; [`max_encoded_len`] always suffices."
+    };
+    // A chars codec wraps the index codec in its text API.
+    let (table_consts, after_error) = match spec.kind.chars() {
+        Some(c) => {
+            (error_variant, error_display) = chars::unknown_error();
+            let core = quote!(#table_consts #core);
+            (TokenStream::new(), chars::items(plan, c, core, rows))
+        }
+        None => (table_consts, core),
+    };
 
     Ok(quote! {
         #module_doc
@@ -139,13 +167,12 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
 
             #symbol_items
 
-            const TABLE_LEN: usize = 1 << TABLE_BITS;
-            const MASK: usize = TABLE_LEN - 1;
+            #table_consts
 
             /// Why encoding or decoding failed.
             #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
             pub enum Error {
-                /// The output buffer is too small; [`max_encoded_len`] always suffices.
+                #[doc = #too_small_doc]
                 OutputTooSmall,
                 #error_variant
                 #framing_errors
@@ -163,13 +190,7 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
 
             impl ::core::error::Error for Error {}
 
-            #entry_points
-
-            #body
-
-            #framing_items
-
-            #layout_check
+            #after_error
         }
     })
 }

@@ -5,6 +5,7 @@
 //! generated `encode` finds its table row ([`InputMap`]).
 
 mod bytes;
+pub mod chars;
 pub mod integers;
 mod tokens;
 
@@ -40,14 +41,14 @@ pub struct KindEntry {
 }
 
 /// Every kind a spec may name, in the order messages list them.
-pub const KINDS: &[KindEntry] = &[bytes::ENTRY, tokens::ENTRY, integers::ENTRY];
+pub const KINDS: &[KindEntry] = &[bytes::ENTRY, tokens::ENTRY, integers::ENTRY, chars::ENTRY];
 
 /// The kind named `name`, if registered.
 pub fn find(name: &str) -> Option<&'static KindEntry> {
     KINDS.iter().find(|k| k.name == name)
 }
 
-/// `"bytes", "tokens" or "integers"`, for messages.
+/// `"bytes", "tokens", "integers" or "chars"`, for messages.
 pub fn names() -> String {
     let quoted: Vec<String> = KINDS.iter().map(|k| format!("\"{}\"", k.name)).collect();
     match quoted.split_last() {
@@ -135,6 +136,14 @@ pub trait Kind: fmt::Debug + Send + Sync {
     fn row_literal(&self, symbol: usize) -> String;
     /// The integers alphabet, for the stages that treat its values and offset bits apart.
     fn integers(&self) -> Option<&integers::Integers> {
+        None
+    }
+    /// The chars alphabet, for the emitter's text wrapper around the index codec.
+    fn chars(&self) -> Option<&chars::Chars> {
+        None
+    }
+    /// Why the kind cannot be framed this way, if it cannot (the spec stage locates it).
+    fn framing_error(&self, _framing: crate::spec::Framing) -> Option<String> {
         None
     }
     /// Tables the kind adds to the method's (integer bins and their offset widths).

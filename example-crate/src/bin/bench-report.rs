@@ -14,6 +14,30 @@ use common::{Dataset, HuffmanOnly, Run, N};
 use std::process::ExitCode;
 use std::time::{Duration, Instant};
 
+/// The chars codec (not timed): its round trip of the field notes and a few wider
+/// characters, through function pointers the compiler cannot see through, so that its
+/// functions stay in this binary for `scripts/audit-hot-loops.sh`.
+fn chars_round_trip() {
+    use common::generated::field_text_chars as codec;
+    type Encode = fn(&str, &mut [u8]) -> Result<usize, codec::Error>;
+    type Decode = for<'a> fn(&[u8], &'a mut [u8]) -> Result<&'a str, codec::Error>;
+    let encode: Encode = std::hint::black_box(codec::encode);
+    let decode: Decode = std::hint::black_box(codec::decode);
+    let text = concat!(
+        include_str!("../../samples/field_notes.txt"),
+        "gauge 14: 0.82 m → 0.85 m, 9 °c, rising 🌊\n"
+    );
+    let chars = text.chars().count();
+    let mut stream = vec![0u8; codec::max_encoded_len(chars)];
+    let len = encode(text, &mut stream).expect("the chars codec encodes the field notes");
+    let mut out = vec![0u8; codec::max_decoded_bytes(chars)];
+    assert_eq!(
+        decode(&stream[..len], &mut out),
+        Ok(text),
+        "field_text_chars"
+    );
+}
+
 #[derive(Clone, Copy, PartialEq, Eq)]
 enum Op {
     Memcpy,
@@ -142,6 +166,7 @@ fn main() -> ExitCode {
     }
 
     let codecs = common::codecs();
+    chars_round_trip();
     let mut states = Vec::new();
     let mut ops = Vec::new();
     for (d, dataset) in Dataset::ALL.into_iter().enumerate() {

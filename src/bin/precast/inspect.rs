@@ -266,6 +266,19 @@ fn inspect(
             .map(|&s| values.get(usize::from(s)).copied().unwrap_or(0))
             .collect();
         let _ = writeln!(out, "\"{}\"", bytes.escape_ascii());
+    } else if let Some(chars) = kind.chars() {
+        // The text, escaped as Rust writes a string (control characters stay visible).
+        let text: String = decoded
+            .iter()
+            .map(|&s| {
+                chars
+                    .chars()
+                    .get(usize::from(s))
+                    .copied()
+                    .unwrap_or('\u{fffd}')
+            })
+            .collect();
+        let _ = writeln!(out, "\"{}\"", text.escape_debug());
     } else {
         let labels: Vec<String> = decoded
             .iter()
