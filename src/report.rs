@@ -201,13 +201,20 @@ pub struct EscapeFigures {
     /// The count the escape was given, and whether it came from the spec's `escape_share`.
     pub count: u64,
     pub from_share: bool,
+    /// Escaped symbols a value takes (a chars codec's escaped character: three).
+    pub units: u32,
 }
 
 impl EscapeFigures {
     pub fn line(&self, table_bits: u32) -> String {
         format!(
-            "Escape: a value outside the alphabet costs about {:.2} bits: the escape symbol's {:.2} ({} of {} slots, from a count of {}{}) plus {} raw bits.",
-            self.symbol_bits + f64::from(self.raw_bits),
+            "Escape: a value outside the alphabet costs about {:.2} bits: {}the escape symbol's {:.2} ({} of {} slots, from a count of {}{}) plus {} raw bits.",
+            f64::from(self.units) * (self.symbol_bits + f64::from(self.raw_bits)),
+            if self.units > 1 {
+                format!("{} times ", self.units)
+            } else {
+                String::new()
+            },
             self.symbol_bits,
             self.slots,
             1u32 << table_bits,
@@ -552,6 +559,11 @@ pub fn build(
                 slots,
                 count: counts.get(e.symbol).copied().unwrap_or(0),
                 from_share: e.share.is_some(),
+                units: if kind.chars().is_some() {
+                    crate::kind::chars::ESCAPE_DIGITS as u32
+                } else {
+                    1
+                },
             }
         }),
         contexts: None,

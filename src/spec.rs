@@ -483,13 +483,15 @@ impl Checker<'_> {
                 }
             }
         }
-        if let Some(entry) = kind_entry.filter(|e| !["bytes", "integers"].contains(&e.name)) {
+        if let Some(entry) =
+            kind_entry.filter(|e| !["bytes", "chars", "integers"].contains(&e.name))
+        {
             for key in kind::ESCAPE_KEYS {
                 if let Some(v) = keys.codec.get(*key) {
                     fail(
                         v.span(),
                         format!(
-                            "`{key}` applies to kinds \"bytes\" and \"integers\", not \"{}\"",
+                            "`{key}` applies to kinds \"bytes\", \"chars\" and \"integers\", not \"{}\"",
                             entry.name
                         ),
                     );

@@ -638,3 +638,134 @@ fn unusual_characters_are_escaped_in_the_source() {
     assert!(!latin.contains("WIDE_CHARS"));
     assert!(latin.contains("static CHAR_INDEX: [u8; 253]"));
 }
+
+/// One escape codec's functions.
+struct Escaping<E> {
+    name: &'static str,
+    alphabet: &'static [char],
+    max_encoded_len: fn(usize) -> usize,
+    max_decoded_bytes: fn(usize) -> usize,
+    encode: fn(&str, &mut [u8]) -> Result<usize, E>,
+    decode: for<'a> fn(&[u8], &'a mut [u8]) -> Result<&'a str, E>,
+    symbol_count: fn(&[u8]) -> Result<usize, E>,
+}
+
+macro_rules! escaping {
+    ($m:ident) => {
+        Escaping {
+            name: stringify!($m),
+            alphabet: &$m::ALPHABET,
+            max_encoded_len: $m::max_encoded_len,
+            max_decoded_bytes: $m::max_decoded_bytes,
+            encode: $m::encode,
+            decode: $m::decode,
+            symbol_count: $m::symbol_count,
+        }
+    };
+}
+
+/// Text with characters outside the alphabet round-trips, the stream byte for byte the
+/// reference coder's for the index bytes (an escaped character as three digits of 7 bits,
+/// each the escape symbol and its 8 bits); damaged streams never panic.
+fn check_escapes<E: std::fmt::Debug + PartialEq + Copy>(c: Escaping<E>) {
+    let (built, framing, lanes) = built(c.name);
+    let k = c.alphabet.len() as u16;
+    let reference = Reference::framed(&built.tables, built.fingerprint, framing, lanes)
+        .with_widths(built.kind.widths());
+    // Index bytes and their raw bits, as the encoder's scratch holds them.
+    let split = |text: &str| -> (Vec<u16>, Vec<u32>) {
+        let mut s = Vec::new();
+        let mut o = Vec::new();
+        for ch in text.chars() {
+            match c.alphabet.iter().position(|&a| a == ch) {
+                Some(i) => {
+                    s.push(i as u16);
+                    o.push(0);
+                }
+                None => {
+                    let v = u32::from(ch);
+                    for d in [v >> 14, (v >> 7) & 127, v & 127] {
+                        s.push(k);
+                        o.push(u32::from(k) + d);
+                    }
+                }
+            }
+        }
+        (s, o)
+    };
+    let mut texts: Vec<String> = vec![
+        String::new(),
+        "é".into(),
+        "A".into(),
+        "\u{0}".into(),
+        "\u{10FFFF}".into(),
+        "\u{FFFD}\u{7FF}\u{800}\u{FFFF}\u{10000}".into(),
+        "Level 2.4 m ↑, 🌊 rising at Gauge 7 (Ü-bridge).".into(),
+    ];
+    texts.push(notes_text());
+    texts.push(licence_text());
+    let pool: Vec<char> = notes_text()
+        .chars()
+        .chain("ABCßΩЖ中😀\u{10FFFF}".chars())
+        .collect();
+    let mut rng = Rng(41);
+    for len in [1usize, 2, 3, 5, 8, 13, 64, 257, 1000] {
+        texts.push((0..len).map(|_| pool[rng.below(pool.len())]).collect());
+    }
+    for text in &texts {
+        let n = text.chars().count();
+        let mut buf = vec![0u8; (c.max_encoded_len)(n)];
+        let len = (c.encode)(text, &mut buf).unwrap_or_else(|e| panic!("{}: {e:?}", c.name));
+        let stream = &buf[..len];
+        let (symbols, offsets) = split(text);
+        assert_eq!(
+            stream,
+            &reference.encode_offsets(&symbols, &offsets)[..],
+            "{}: {text:?}",
+            c.name
+        );
+        let count = (c.symbol_count)(stream).unwrap();
+        assert_eq!(count, symbols.len());
+        let mut out = vec![0u8; (c.max_decoded_bytes)(count)];
+        assert_eq!(
+            (c.decode)(stream, &mut out),
+            Ok(text.as_str()),
+            "{}",
+            c.name
+        );
+        // Damaged streams: any outcome but a panic; whatever decodes is text.
+        if text.len() < 300 {
+            for _ in 0..40.min(len * 8) {
+                let mut bad = stream.to_vec();
+                let bit = rng.below(len * 8);
+                bad[bit / 8] ^= 1 << (bit % 8);
+                let mut out = vec![0u8; 4 * (count + 64)];
+                let _ = (c.decode)(&bad, &mut out);
+            }
+            for cut in 0..len {
+                let mut out = vec![0u8; 4 * (count + 64)];
+                let _ = (c.decode)(&stream[..cut], &mut out);
+            }
+        }
+    }
+    // An escaped character's three index bytes fit in what `max_encoded_len` promises.
+    let all_escaped: String = "😀".repeat(50);
+    let mut buf = vec![0u8; (c.max_encoded_len)(50)];
+    assert!((c.encode)(&all_escaped, &mut buf).is_ok());
+    let e = built.report.escape.as_ref().unwrap();
+    eprintln!(
+        "{}: an escaped index byte costs {:.2} bits, a character three of them",
+        c.name,
+        e.symbol_bits + f64::from(e.raw_bits)
+    );
+}
+
+#[test]
+fn escapes_carry_any_character() {
+    check_escapes(escaping!(lower_escape));
+}
+
+#[test]
+fn escapes_compact_two_lanes() {
+    check_escapes(escaping!(lower_escape_compact_l2));
+}

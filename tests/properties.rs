@@ -216,9 +216,9 @@ fn check_tans(tans: &Tans, slots: &[u32], table_bits: u32) -> Result<(), TestCas
         let k = table_bits - o.ilog2();
         prop_assert_eq!(usize::from(entry.symbol), s, "position {}", i);
         prop_assert_eq!(u32::from(entry.bits), k, "position {}", i);
-        prop_assert_eq!(u32::from(entry.base), (o << k) - l, "position {}", i);
+        prop_assert_eq!(entry.base, (o << k) - l, "position {}", i);
         prop_assert!(
-            u32::from(entry.base) + (1 << k) <= l,
+            entry.base + (1 << k) <= l,
             "position {} leaves the table",
             i
         );
@@ -241,7 +241,7 @@ fn check_tans(tans: &Tans, slots: &[u32], table_bits: u32) -> Result<(), TestCas
             prop_assert_eq!(u32::from(entry.bits), k, "encode {} from {}", s, x);
             let low = x & ((1 << k) - 1);
             prop_assert_eq!(
-                l + u32::from(entry.base) + low,
+                l + entry.base + low,
                 x,
                 "encode {} from {}",
                 s,

@@ -39,9 +39,11 @@ pub fn items(
     core: TokenStream,
     rows: &mut RowSets,
 ) -> TokenStream {
-    let longest = chars.max_utf8_len();
+    let longest = chars.decoded_per_index();
     let absent = Literal::u8_unsuffixed(ABSENT);
-    let ascii = longest == 1;
+    let escapes = chars.escapes();
+    let ascii = longest == 1 && !escapes;
+    let chars_len = Literal::usize_unsuffixed(chars.chars().len());
 
     let dense = chars.dense();
     let dense_len = Literal::usize_unsuffixed(dense.len());
@@ -162,6 +164,140 @@ pub fn items(
         }
         sum
     };
+    // With an escape a character outside the alphabet takes three index bytes; the index
+    // codec then refuses nothing.
+    let (map, max_encoded, unknown_arm, digits_per_char) = if escapes {
+        (
+            quote! {
+                let mut n = 0usize;
+                for c in input.chars() {
+                    let index = index_of(c);
+                    if index != ABSENT {
+                        let Some(slot) = out.get_mut(n) else {
+                            return Err(Error::OutputTooSmall);
+                        };
+                        *slot = index;
+                        n += 1;
+                    } else {
+                        let v = c as u32;
+                        let digits = [
+                            ESCAPE_BASE + ((v >> 14) & 127) as u8,
+                            ESCAPE_BASE + ((v >> 7) & 127) as u8,
+                            ESCAPE_BASE + (v & 127) as u8,
+                        ];
+                        let Some(slot) = out.get_mut(n..).and_then(<[u8]>::first_chunk_mut::<3>) else {
+                            return Err(Error::OutputTooSmall);
+                        };
+                        *slot = digits;
+                        n += 3;
+                    }
+                }
+            },
+            quote! {
+                chars.saturating_mul(3).saturating_add(indices::max_encoded_len(chars.saturating_mul(3)))
+            },
+            TokenStream::new(),
+            quote!(3),
+        )
+    } else {
+        (
+            quote! {
+                #map
+                if text.next().is_some() {
+                    return Err(Error::OutputTooSmall);
+                }
+            },
+            quote!(chars.saturating_add(indices::max_encoded_len(chars))),
+            quote! {
+                Err(Error::UnknownSymbol { position }) => {
+                    return Err(Error::UnknownSymbol { position: #position });
+                }
+            },
+            quote!(1),
+        )
+    };
+    let expand_step = if escapes {
+        quote! {
+            if index < ESCAPE_BASE {
+                let Some(&row) = UTF8.get(usize::from(index)) else {
+                    return Err(Error::Corrupt);
+                };
+                if let Some(dst) = out.get_mut(written..).and_then(<[u8]>::first_chunk_mut::<MAX_UTF8_LEN>) {
+                    *dst = row;
+                }
+                written += #char_len;
+                read += 1;
+            } else {
+                // Three digits of 7 bits each, the scalar value's high bits first.
+                let (Some(&a), Some(&b), Some(&c)) = (out.get(read), out.get(read + 1), out.get(read + 2)) else {
+                    return Err(Error::Corrupt);
+                };
+                let (a, b, c) = (a.wrapping_sub(ESCAPE_BASE), b.wrapping_sub(ESCAPE_BASE), c.wrapping_sub(ESCAPE_BASE));
+                if (a | b | c) > 127 {
+                    return Err(Error::Corrupt);
+                }
+                let v = u32::from(a) << 14 | u32::from(b) << 7 | u32::from(c);
+                let Some(ch) = char::from_u32(v) else {
+                    return Err(Error::Corrupt);
+                };
+                let (bytes, len) = utf8(ch);
+                if let Some(dst) = out.get_mut(written..).and_then(<[u8]>::first_chunk_mut::<4>) {
+                    *dst = bytes;
+                }
+                written += len;
+                read += 3;
+            }
+        }
+    } else {
+        quote! {
+            // Decoded indices are below ALPHABET_LEN: the decode table holds no other.
+            let Some(&row) = UTF8.get(usize::from(index)) else {
+                return Err(Error::Corrupt);
+            };
+            if let Some(dst) = out.get_mut(written..).and_then(<[u8]>::first_chunk_mut::<MAX_UTF8_LEN>) {
+                *dst = row;
+            }
+            written += #char_len;
+            read += 1;
+        }
+    };
+    let escape_items = if escapes {
+        quote! {
+            /// The first index byte of an escaped character's digits: the alphabet's length.
+            const ESCAPE_BASE: u8 = #chars_len;
+
+            /// The UTF-8 of `c`, padded to four bytes, and its length (The Unicode Standard,
+            /// ch. 3, Table 3-6).
+            fn utf8(c: char) -> ([u8; 4], usize) {
+                let v = c as u32;
+                if v < 0x80 {
+                    ([v as u8, 0, 0, 0], 1)
+                } else if v < 0x800 {
+                    ([0xc0 | (v >> 6) as u8, 0x80 | (v & 0x3f) as u8, 0, 0], 2)
+                } else if v < 0x10000 {
+                    ([0xe0 | (v >> 12) as u8, 0x80 | ((v >> 6) & 0x3f) as u8, 0x80 | (v & 0x3f) as u8, 0], 3)
+                } else {
+                    (
+                        [
+                            0xf0 | (v >> 18) as u8,
+                            0x80 | ((v >> 12) & 0x3f) as u8,
+                            0x80 | ((v >> 6) & 0x3f) as u8,
+                            0x80 | (v & 0x3f) as u8,
+                        ],
+                        4,
+                    )
+                }
+            }
+        }
+    } else {
+        TokenStream::new()
+    };
+    let utf8_len = if escapes {
+        quote!(ALPHABET_LEN - 1)
+    } else {
+        quote!(ALPHABET_LEN)
+    };
+    let _ = digits_per_char;
     let prefix = if plan.spec.framing == Framing::Tagged {
         quote! {
             /// Decodes the stream at the front of `stream` (tagged streams delimit
@@ -206,7 +342,7 @@ pub fn items(
         /// character it uses as scratch in front of the stream: an `out` this long always
         /// suffices.
         pub const fn max_encoded_len(chars: usize) -> usize {
-            chars.saturating_add(indices::max_encoded_len(chars))
+            #max_encoded
         }
 
         /// Bytes of `out` that [`decode`] needs for a stream of `chars` characters
@@ -233,17 +369,12 @@ pub fn items(
         /// contents of `out` are unspecified.
         pub fn encode(input: &str, out: &mut [u8]) -> Result<usize, Error> {
             #map
-            if text.next().is_some() {
-                return Err(Error::OutputTooSmall);
-            }
             let Some((scratch, rest)) = out.split_at_mut_checked(n) else {
                 return Err(Error::OutputTooSmall);
             };
             let len = match indices::encode(scratch, rest) {
                 Ok(len) => len,
-                Err(Error::UnknownSymbol { position }) => {
-                    return Err(Error::UnknownSymbol { position: #position });
-                }
+                #unknown_arm
                 Err(e) => return Err(e),
             };
             // The stream moves forward by `n`: each byte is read before a write reaches it.
@@ -293,15 +424,7 @@ pub fn items(
             let mut written = 0usize;
             let mut read = start;
             while let Some(&index) = out.get(read) {
-                // Decoded indices are below ALPHABET_LEN: the decode table holds no other.
-                let Some(&row) = UTF8.get(usize::from(index)) else {
-                    return Err(Error::Corrupt);
-                };
-                if let Some(dst) = out.get_mut(written..).and_then(<[u8]>::first_chunk_mut::<MAX_UTF8_LEN>) {
-                    *dst = row;
-                }
-                written += #char_len;
-                read += 1;
+                #expand_step
             }
             let out: &[u8] = out;
             // Valid by construction; checking is the only way to a `&str` without `unsafe`.
@@ -316,7 +439,9 @@ pub fn items(
         static CHAR_INDEX: [u8; #dense_len] = #dense_rows;
 
         /// The UTF-8 of each character by index, padded with zeros to `MAX_UTF8_LEN` bytes.
-        static UTF8: [[u8; MAX_UTF8_LEN]; ALPHABET_LEN] = #utf8_rows;
+        static UTF8: [[u8; MAX_UTF8_LEN]; #utf8_len] = #utf8_rows;
+
+        #escape_items
 
         /// The index codec: the ordinary core over index bytes (`Symbol = u8`), private:
         /// only the text API above calls it, with indices below `ALPHABET_LEN` or `ABSENT`.

@@ -141,7 +141,11 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
     // A chars codec wraps the index codec in its text API.
     let (table_consts, after_error) = match spec.kind.chars() {
         Some(c) => {
-            (error_variant, error_display) = chars::unknown_error();
+            (error_variant, error_display) = if c.escapes() {
+                (TokenStream::new(), TokenStream::new())
+            } else {
+                chars::unknown_error()
+            };
             let core = quote!(#table_consts #core);
             (TokenStream::new(), chars::items(plan, c, core, rows))
         }

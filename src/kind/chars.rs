@@ -3,7 +3,7 @@
 //! so the core codec is the ordinary one over index bytes (`Symbol = u8` inside the module);
 //! the text wrapper around it lives in `emit/chars.rs` (DEVELOPERS.md, "Chars codecs").
 
-use super::{a_type, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
+use super::{a_type, Escape, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
 use crate::method::{Direction, LayoutEntry};
 use crate::spec::Framing;
 use proc_macro2::{Literal, TokenStream};
@@ -31,20 +31,31 @@ pub const ABSENT: u8 = 255;
 /// Latin, Greek and Cyrillic text map by one load from at most 2 KiB.
 const DENSE_UP_TO: u32 = 0x7FF;
 
-/// A character alphabet, in spec order.
+/// Most characters of an alphabet with an escape: an escaped character goes as three index
+/// bytes above the alphabet's, 7 bits of its scalar value each (21 bits hold every one).
+pub const MAX_ESCAPED_CHARS: usize = 128;
+
+/// Index bytes an escaped character takes.
+pub const ESCAPE_DIGITS: usize = 3;
+
+/// A character alphabet, in spec order. With an escape, one more symbol of the index codec
+/// (the escape, followed by 8 raw bits) carries any index byte at or above the alphabet's
+/// length: an escaped character is three of them.
 #[derive(Debug, Clone)]
 pub struct Chars {
     chars: Vec<char>,
     /// `(char, index)` sorted by char, for scanning and count keys.
     sorted: Vec<(char, u8)>,
+    escape: Option<Escape>,
 }
 
 /// `symbols` is a string (its characters) or a list of one-character strings.
 fn read(
     symbols: Option<&Spanned<DeValue<'_>>>,
     codec: Range<usize>,
-    _keys: &dyn super::SpecKeys,
+    keys: &dyn super::SpecKeys,
 ) -> Result<Arc<dyn Kind>, Vec<Misplaced>> {
+    let share = super::read_escape(keys)?;
     let Some(raw) = symbols else {
         return Err(vec![(
             codec,
@@ -128,11 +139,29 @@ fn read(
             "the alphabet is empty: declare at least one symbol".to_string(),
         ));
     }
+    if share.is_some() && chars.len() > MAX_ESCAPED_CHARS {
+        errors.push((
+            raw.span(),
+            format!(
+                "{} characters are more than a chars codec with an escape may have ({MAX_ESCAPED_CHARS}): an escaped character goes as three index bytes above the alphabet's, 7 bits each",
+                chars.len()
+            ),
+        ));
+    }
     if !errors.is_empty() {
         return Err(errors);
     }
     let sorted = index.into_iter().map(|(c, i)| (c, i as u8)).collect();
-    Ok(Arc::new(Chars { chars, sorted }))
+    let escape = share.map(|share| Escape {
+        symbol: chars.len(),
+        raw_bits: 8,
+        share,
+    });
+    Ok(Arc::new(Chars {
+        chars,
+        sorted,
+        escape,
+    }))
 }
 
 impl Chars {
@@ -151,6 +180,21 @@ impl Chars {
     /// Bytes of the longest UTF-8 encoding among the characters (1 to 4).
     pub fn max_utf8_len(&self) -> usize {
         self.chars.iter().map(|c| c.len_utf8()).max().unwrap_or(1)
+    }
+
+    /// Bytes of `out` the decoder needs per index byte: the longest character's UTF-8, and
+    /// with an escape at least 2 (three index bytes give up to four bytes of UTF-8).
+    pub fn decoded_per_index(&self) -> usize {
+        if self.escape.is_some() {
+            self.max_utf8_len().max(2)
+        } else {
+            self.max_utf8_len()
+        }
+    }
+
+    /// Whether characters outside the alphabet escape.
+    pub fn escapes(&self) -> bool {
+        self.escape.is_some()
     }
 
     /// Characters below this scalar value map to their index through one dense table: all
@@ -202,7 +246,7 @@ impl Kind for Chars {
     }
 
     fn alphabet_len(&self) -> usize {
-        self.chars.len()
+        self.chars.len() + usize::from(self.escape.is_some())
     }
 
     /// The core codec's symbol is the index byte.
@@ -212,15 +256,26 @@ impl Kind for Chars {
 
     /// The characters' UTF-8, one after the other (UTF-8 delimits itself).
     fn identity(&self) -> Vec<u8> {
-        self.chars.iter().collect::<String>().into_bytes()
+        let mut id = self.chars.iter().collect::<String>().into_bytes();
+        // A byte no UTF-8 holds marks the escape.
+        if self.escape.is_some() {
+            id.push(0xff);
+        }
+        id
     }
 
     fn label(&self, symbol: usize) -> String {
-        show_char(self.chars[symbol])
+        match self.chars.get(symbol) {
+            Some(&c) => show_char(c),
+            None => "escape (an index byte above the alphabet's, +8 bits; an escaped character takes three)".to_string(),
+        }
     }
 
     fn describe(&self, symbol: usize) -> String {
-        show_char(self.chars[symbol])
+        match self.chars.get(symbol) {
+            Some(&c) => show_char(c),
+            None => "the escape".to_string(),
+        }
     }
 
     fn count_key(&self, key: &str) -> Result<usize, String> {
@@ -249,7 +304,7 @@ impl Kind for Chars {
     /// (the wrapper's [`ABSENT`] among them) lands on.
     fn input(&self) -> InputMap {
         let mut rows: Vec<Option<u16>> = (0..self.chars.len() as u16).map(Some).collect();
-        rows.push(None);
+        rows.push(self.escape.map(|e| e.symbol as u16));
         InputMap::Rows(rows)
     }
 
@@ -257,7 +312,21 @@ impl Kind for Chars {
     /// (`emit/chars.rs`).
     fn symbol_items(&self) -> TokenStream {
         let chars = self.chars.iter().map(|&c| Literal::character(c));
-        let longest = Literal::usize_unsuffixed(self.max_utf8_len());
+        let longest = Literal::usize_unsuffixed(self.decoded_per_index());
+        if self.escape.is_some() {
+            return quote! {
+                /// A character of this codec's text: those in [`ALPHABET`] have symbols of
+                /// their own, any other goes as three escaped index bytes.
+                pub type Symbol = char;
+                /// The alphabet, in spec order: a character's place here is its index in
+                /// streams (the escape comes after them).
+                pub const ALPHABET: [Symbol; ALPHABET_LEN - 1] = [#(#chars),*];
+                /// Bytes of `out` that [`decode`] needs per symbol of a stream: the longest
+                /// UTF-8 encoding among the alphabet's characters, at least 2 (an escaped
+                /// character's three symbols give up to four bytes).
+                pub const MAX_UTF8_LEN: usize = #longest;
+            };
+        }
         quote! {
             /// A symbol of this codec: one of the characters in [`ALPHABET`].
             pub type Symbol = char;
@@ -274,8 +343,28 @@ impl Kind for Chars {
         quote!(INDICES)
     }
 
+    /// The index; the escape decodes as 0 plus its raw bits.
     fn row_literal(&self, symbol: usize) -> String {
-        symbol.to_string()
+        if symbol < self.chars.len() {
+            symbol.to_string()
+        } else {
+            "0".to_string()
+        }
+    }
+
+    fn escape(&self) -> Option<&Escape> {
+        self.escape.as_ref()
+    }
+
+    fn widths(&self) -> Vec<u32> {
+        match &self.escape {
+            Some(e) => {
+                let mut w = vec![0; self.alphabet_len()];
+                w[e.symbol] = e.raw_bits;
+                w
+            }
+            None => Vec::new(),
+        }
     }
 
     fn chars(&self) -> Option<&Chars> {
@@ -290,8 +379,8 @@ impl Kind for Chars {
         })
     }
 
-    fn extra_tables(&self, _table_bits: u32) -> Vec<LayoutEntry> {
-        let longest = self.max_utf8_len();
+    fn extra_tables(&self, table_bits: u32) -> Vec<LayoutEntry> {
+        let longest = self.decoded_per_index();
         let utf8_type = ["[u8; 1]", "[u8; 2]", "[u8; 3]", "[u8; 4]"][longest - 1];
         let mut tables = vec![LayoutEntry::new(
             "CHAR_INDEX",
@@ -324,6 +413,22 @@ impl Kind for Chars {
             &[longest],
             Direction::Decode,
         ));
+        if self.escape.is_some() {
+            tables.push(LayoutEntry::new(
+                "ESCAPED",
+                "u32",
+                8,
+                &[4],
+                Direction::Encode,
+            ));
+            tables.push(LayoutEntry::new(
+                "WIDTHS",
+                "u8",
+                1 << table_bits,
+                &[1],
+                Direction::Decode,
+            ));
+        }
         tables
     }
 }
@@ -344,6 +449,11 @@ impl CharScanner<'_> {
         match self.alphabet.index_of(c) {
             Some(i) => {
                 out.push(u16::from(i));
+                Ok(())
+            }
+            None if self.alphabet.escape.is_some() => {
+                let escape = self.alphabet.chars.len() as u16;
+                out.extend([escape; ESCAPE_DIGITS]);
                 Ok(())
             }
             None => Err(Misfit {

@@ -161,7 +161,7 @@ pub trait Kind: fmt::Debug + Send + Sync {
     }
 }
 
-/// Keys of escapes (`bytes`, `integers`).
+/// Keys of escapes (`bytes`, `chars`, `integers`).
 pub const ESCAPE_KEYS: &[&str] = &["escape", "escape_share"];
 
 /// Share of the training symbols the escape symbol counts as at least, when the spec gives
