@@ -89,6 +89,9 @@ pub struct ContextFigures {
     pub held_gain: f64,
     /// All sets' tables together.
     pub table_bytes: usize,
+    /// The price the sets were chosen by, bits: the held-out blocks' (the training data's
+    /// when nothing is held out) under the sets' slots.
+    pub price: f64,
 }
 
 /// One table set of a context codec.
@@ -143,6 +146,11 @@ impl ContextFigures {
             first: kind.label(crate::context::FIRST_CONTEXT),
             conditional_entropy,
             order0_entropy: entropy(&column),
+            price: if c.order0_held_bits > 0.0 {
+                c.held_bits
+            } else {
+                c.train_bits
+            },
             train_gain: gain(c.order0_train_bits, c.train_bits),
             held_gain: gain(c.order0_held_bits, c.held_bits),
             table_bytes,

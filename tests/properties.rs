@@ -240,13 +240,7 @@ fn check_tans(tans: &Tans, slots: &[u32], table_bits: u32) -> Result<(), TestCas
             prop_assert_eq!(usize::from(entry.symbol), s, "encode {} from {}", s, x);
             prop_assert_eq!(u32::from(entry.bits), k, "encode {} from {}", s, x);
             let low = x & ((1 << k) - 1);
-            prop_assert_eq!(
-                l + entry.base + low,
-                x,
-                "encode {} from {}",
-                s,
-                x
-            );
+            prop_assert_eq!(l + entry.base + low, x, "encode {} from {}", s, x);
         }
     }
     Ok(())

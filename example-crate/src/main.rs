@@ -18,7 +18,7 @@ use miniz_oxide::deflate::core::{
     TDEFLStatus,
 };
 use precast_example::gauge_status::Symbol as Status;
-use precast_example::{field_notes, gauge_status, level_delta};
+use precast_example::{field_notes, field_notes_order0, gauge_status, level_delta};
 
 const GAUGES: usize = 40;
 /// One reading every 15 minutes.
@@ -458,6 +458,19 @@ const LEVEL: Codec<u16, level_delta::Error> = Codec {
     // The coder sends differences: their entropy is the bound it aims at.
     entropy: |day| entropy_of(day.windows(2).map(|w| i64::from(w[1]) - i64::from(w[0]))),
     blank: 0,
+};
+
+/// The notes codec without contexts, for the comparison line only.
+const NOTES_ORDER0: Codec<u8, field_notes_order0::Error> = Codec {
+    name: "field_notes_order0",
+    table_bits: field_notes_order0::TABLE_BITS,
+    encode: field_notes_order0::encode,
+    decode: field_notes_order0::decode,
+    symbol_count: field_notes_order0::symbol_count,
+    max_len: field_notes_order0::max_encoded_len,
+    raw: |b, out| out.push(b),
+    entropy: |day| entropy(day),
+    blank: b' ',
 };
 
 const NOTES: Codec<u8, field_notes::Error> = Codec {
@@ -908,6 +921,28 @@ fn report(gauges: &[Gauge]) -> Result<(), String> {
     print_frames(&rows);
     println!();
     print_overhead(&rows);
+
+    // The notes again, each line a frame, through the same codec with one table set.
+    let mut plain = 0usize;
+    for (_, line) in gauges.iter().flat_map(|g| &g.notes) {
+        let mut frame = vec![0u8; (NOTES_ORDER0.max_len)(line.len())];
+        let n = (NOTES_ORDER0.encode)(line, &mut frame)
+            .map_err(|e| format!("field_notes_order0: encode failed: {e}"))?;
+        if receive(&NOTES_ORDER0, &frame[..n], NOTE_MAX, "comparison")? != *line {
+            return Err("field_notes_order0: a note line differs".to_string());
+        }
+        plain += n;
+    }
+    let notes = &rows[2];
+    println!();
+    println!(
+        "contexts: field_notes codes each character with one of {} table sets, chosen by the character before it; with one set (2^{} slots) the same {} note frames take {plain} B, {:.1} % more than its {} B",
+        field_notes::SETS,
+        NOTES_ORDER0.table_bits,
+        notes.frames,
+        100.0 * (plain as f64 - notes.framed[0] as f64) / notes.framed[0] as f64,
+        notes.framed[0]
+    );
 
     // The same packets with each frame sent another way; the packet headers stay.
     let framed = [0, 1, 2].map(|i| rows.iter().map(|r| r.framed[i]).sum::<usize>());
