@@ -120,8 +120,8 @@ fn report_svgs_parse_as_xml() {
         assert_eq!(doc.root_element().tag_name().name(), "svg");
         seen += 1;
     }
-    // Two plots for each of the demo's three codecs.
-    assert_eq!(seen, 6);
+    // Two plots for each of the demo's four codecs (three, and the notes without contexts).
+    assert_eq!(seen, 8);
 }
 
 #[test]

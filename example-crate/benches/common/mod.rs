@@ -286,6 +286,7 @@ codec_list! {
     field_notes_rans_l2: FieldNotes bytes "rans" 2;
     field_notes_rans_l4: FieldNotes bytes "rans" 4;
     field_notes_rans_l8: FieldNotes bytes "rans" 8;
+    field_notes_ctx_tans_l1: FieldNotes bytes "tans, contexts" 1;
 }
 
 /// miniz_oxide raw deflate with the Huffman-only strategy (no match search), compressor and
@@ -346,6 +347,28 @@ pub fn memcpy(data: &[u8], out: &mut [u8]) {
 }
 
 /// Order-0 entropy of `data` in bits per symbol.
+/// H(X|Y) in bits per symbol of the data, Y the byte before X (the first byte has none and is
+/// left out): the bound a context codec aims at (Cover & Thomas, *Elements of Information
+/// Theory*, 2nd ed., section 2.2; from memory).
+pub fn conditional_entropy_bits(data: &[u8]) -> f64 {
+    let mut pairs = vec![0u64; 256 * 256];
+    let mut rows = [0u64; 256];
+    for w in data.windows(2) {
+        pairs[usize::from(w[0]) * 256 + usize::from(w[1])] += 1;
+        rows[usize::from(w[0])] += 1;
+    }
+    let n = data.len().saturating_sub(1) as f64;
+    pairs
+        .iter()
+        .enumerate()
+        .filter(|(_, &c)| c > 0)
+        .map(|(i, &c)| {
+            let given = c as f64 / rows[i / 256] as f64;
+            -(c as f64 / n) * given.log2()
+        })
+        .sum()
+}
+
 pub fn entropy_bits(data: &[u8]) -> f64 {
     let mut counts = [0u64; 256];
     for &b in data {

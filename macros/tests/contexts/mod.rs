@@ -220,6 +220,10 @@ fn apache_l4_bare() {
     bytes(codec!(apache_l4_bare), "apache-2.0.txt");
 }
 #[test]
+fn apache_l8() {
+    bytes(codec!(apache_l8), "apache-2.0.txt");
+}
+#[test]
 fn apache_l1_wide_steps() {
     bytes(codec!(apache_l1_wide_steps), "apache-2.0.txt");
 }
