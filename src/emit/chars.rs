@@ -216,6 +216,17 @@ pub fn items(
             quote!(1),
         )
     };
+    let call = if escapes {
+        quote!(let len = indices::encode(scratch, rest)?;)
+    } else {
+        quote! {
+            let len = match indices::encode(scratch, rest) {
+                Ok(len) => len,
+                #unknown_arm
+                Err(e) => return Err(e),
+            };
+        }
+    };
     let expand_step = if escapes {
         quote! {
             if index < ESCAPE_BASE {
@@ -372,11 +383,7 @@ pub fn items(
             let Some((scratch, rest)) = out.split_at_mut_checked(n) else {
                 return Err(Error::OutputTooSmall);
             };
-            let len = match indices::encode(scratch, rest) {
-                Ok(len) => len,
-                #unknown_arm
-                Err(e) => return Err(e),
-            };
+            #call
             // The stream moves forward by `n`: each byte is read before a write reaches it.
             for i in 0..len {
                 if let Some(&b) = out.get(n.wrapping_add(i)) {
