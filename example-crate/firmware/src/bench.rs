@@ -25,8 +25,8 @@ const FRAMES: usize = N / FRAME;
 /// Times the frame loops run over all the frames.
 const REPEATS: usize = 4;
 /// Buffer room for one stream and for one frame (checked against `max_encoded_len`).
-const STREAM_ROOM: usize = 8192;
-const FRAME_ROOM: usize = 128;
+const STREAM_ROOM: usize = 12288;
+const FRAME_ROOM: usize = 192;
 
 type Encode<S, E> = fn(&[S], &mut [u8]) -> Result<usize, E>;
 type Decode<S, E> = fn(&[u8], &mut [S]) -> Result<usize, E>;
@@ -107,6 +107,27 @@ pub fn run() -> bool {
             encode: codecs::field_notes::encode,
             decode: codecs::field_notes::decode,
             max_encoded_len: codecs::field_notes::max_encoded_len,
+        },
+    );
+    // The context codecs code the same notes; their baseline is field_notes' Huffman code.
+    ok &= bench(
+        &data::FIELD_NOTES,
+        Codec {
+            name: "field_notes_ctx",
+            imp: "precast",
+            encode: codecs::field_notes_ctx::encode,
+            decode: codecs::field_notes_ctx::decode,
+            max_encoded_len: codecs::field_notes_ctx::max_encoded_len,
+        },
+    );
+    ok &= bench(
+        &data::FIELD_NOTES,
+        Codec {
+            name: "field_notes_ctx4",
+            imp: "precast",
+            encode: codecs::field_notes_ctx4::encode,
+            decode: codecs::field_notes_ctx4::decode,
+            max_encoded_len: codecs::field_notes_ctx4::max_encoded_len,
         },
     );
     ok &= bench(

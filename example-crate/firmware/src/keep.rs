@@ -28,15 +28,27 @@ macro_rules! keep {
     (@encode $imp:ident) => {
         (
             encode($imp::gauge_status::encode, &codecs::gauge_status::ALL),
-            encode($imp::level_delta::encode, b"\x00\x01\x02\x1f"),
+            encode($imp::level_delta::encode, &[812, 813, 813, 811]),
             encode($imp::field_notes::encode, b"gauge 14 ok\n"),
+        )
+    };
+    (@encode_ctx) => {
+        (
+            encode(codecs::field_notes_ctx::encode, b"gauge 14 ok\n"),
+            encode(codecs::field_notes_ctx4::encode, b"gauge 14 ok\n"),
         )
     };
     (@decode $imp:ident) => {
         (
             decode($imp::gauge_status::decode, codecs::gauge_status::Symbol::Ok),
-            decode($imp::level_delta::decode, 0u8),
+            decode($imp::level_delta::decode, 0u16),
             decode($imp::field_notes::decode, 0u8),
+        )
+    };
+    (@decode_ctx) => {
+        (
+            decode(codecs::field_notes_ctx::decode, 0u8),
+            decode(codecs::field_notes_ctx4::decode, 0u8),
         )
     };
 }
@@ -45,6 +57,11 @@ macro_rules! keep {
 pub fn run() -> bool {
     keep!("precast-encode", encode, codecs);
     keep!("precast-decode", decode, codecs);
+    // precast's context codecs (the Huffman baseline has none).
+    #[cfg(feature = "precast-encode")]
+    black_box(keep!(@encode_ctx));
+    #[cfg(feature = "precast-decode")]
+    black_box(keep!(@decode_ctx));
     keep!("huffman-encode", encode, huffman);
     keep!("huffman-decode", decode, huffman);
     true
