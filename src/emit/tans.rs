@@ -108,6 +108,26 @@ impl<'a> Offsets<'a> {
     fn code_at(self, v: TokenStream, k: TokenStream) -> TokenStream {
         self.code(v, quote!(previous(input, #k)))
     }
+
+    /// [`Offsets::code_at`] outside the symbol loop (the lanes' last symbols): the bin search
+    /// out of line, so that it is not copied into every caller.
+    fn code_at_once(self, v: TokenStream, k: TokenStream) -> TokenStream {
+        let place = match self {
+            Offsets::Bins(i) if i.escape.is_none() => {
+                if i.domain.delta {
+                    quote!(place(#v, previous(input, #k)))
+                } else {
+                    quote!(place(#v))
+                }
+            }
+            _ => return self.code_at(v, k),
+        };
+        // The row comes back from out of line: bounded again for the table read.
+        quote!({
+            let (row, offset, width) = bin_once(#place);
+            (if row < BINS { row } else { 0 }, offset, width)
+        })
+    }
 }
 
 /// The table sets of a codec: one, or a context codec's several. With several, the decoder's
@@ -282,22 +302,28 @@ pub fn body(
             let undelta = if o.delta() {
                 quote! {
                     // Places back to values: each after the one before.
-                    let mut before = REFERENCE;
-                    for slot in head.iter_mut().chain(tail.iter_mut()) {
-                        before = value(*slot, before);
-                        *slot = before;
-                    }
+                    let before = undelta(head, REFERENCE);
+                    undelta(tail, before);
                 }
             } else {
                 TokenStream::new()
             };
             quote! {
-                // The lanes' last symbols read no state bits; their offsets come last.
-                for (i, slot) in tail.iter_mut().enumerate() {
-                    let p = state[(count - used + i) % LANES] & #pm;
-                    let width = u32::from(WIDTHS[p]);
-                    *slot = step(p).0.wrapping_add(take(payload, &mut at, width) as Symbol);
+                /// The lanes' last symbols, from their final states (`first` is the first's
+                /// index): they read no state bits, and their offsets come last. Out of
+                /// line: it runs once a stream. Returns the bit after the offsets.
+                #[inline(never)]
+                #[allow(clippy::modulo_one)]
+                fn tail_values(tail: &mut [Symbol], state: &[usize; LANES], payload: &[u8], at: usize, first: usize) -> usize {
+                    let mut at = at;
+                    for (i, slot) in tail.iter_mut().enumerate() {
+                        let p = state[first.wrapping_add(i) % LANES] & #pm;
+                        let width = u32::from(WIDTHS[p]);
+                        *slot = step(p).0.wrapping_add(take(payload, &mut at, width) as Symbol);
+                    }
+                    at
                 }
+                at = tail_values(tail, &state, payload, at, count - used);
                 #undelta
             }
         }
@@ -727,7 +753,7 @@ fn encode_start(plan: &CodecPlan, sets: &Sets<'_>, input: &InputTokens) -> Token
         }
     };
     if let Some(o) = Offsets::of(plan) {
-        let first = o.code_at(quote!(last), quote!(n - used + i));
+        let first = o.code_at_once(quote!(last), quote!(n - used + i));
         let validate = match o {
             Offsets::Bins(ints) => validate(ints),
             Offsets::Escape(_) => TokenStream::new(),
@@ -871,6 +897,20 @@ fn context_items(
             quote!(#r)
         }
     };
+    // The set a context symbol chooses, from the symbol alone (not with deltas, whose row
+    // depends on the value before it too).
+    let set_of = if offsets.is_some_and(|o| o.delta()) {
+        TokenStream::new()
+    } else {
+        quote! {
+            /// The table set that context symbol `symbol` chooses.
+            #[cfg(not(target_pointer_width = "64"))]
+            #[inline(always)]
+            fn set_of(symbol: Symbol) -> usize {
+                usize::from(ROW_SET[#row]) & (SETS - 1)
+            }
+        }
+    };
     let first_label = format!(
         " The set of a lane's first symbol: that of the context {}, the alphabet's first symbol.",
         kind.label(crate::context::FIRST_CONTEXT)
@@ -901,6 +941,8 @@ fn context_items(
                 None => FIRST_SET,
             }
         }
+
+        #set_of
     }
 }
 
@@ -972,6 +1014,17 @@ fn integer_items(ints: &Integers, sets: &Sets<'_>, tans: &Tans, rows: &mut RowSe
     let d = &ints.domain;
     let (sp, sa) = set_param(sets);
     let wl = positions(sets);
+    let bin_once = if ints.escape.is_none() {
+        quote! {
+            /// [`bin`] out of line, for the lanes' last symbols.
+            #[inline(never)]
+            fn bin_once(u: u32) -> (usize, u32, u32) {
+                bin(u)
+            }
+        }
+    } else {
+        TokenStream::new()
+    };
     let escape = match &ints.escape {
         None => TokenStream::new(),
         Some(e) => {
@@ -1013,6 +1066,13 @@ fn integer_items(ints: &Integers, sets: &Sets<'_>, tans: &Tans, rows: &mut RowSe
     }));
     let widths_rows = widths_rows(ints, tans, rows);
     let bins = Literal::usize_unsuffixed(ints.bins.len());
+    // Differences of values of 16 bits or fewer fit 32-bit arithmetic: 32-bit cores then
+    // need no register pairs.
+    let w = if d.value_type.bits() <= 16 {
+        quote!(i32)
+    } else {
+        quote!(i64)
+    };
     let lo = Literal::i64_unsuffixed(d.lo);
     let size = Literal::i64_unsuffixed(d.size() as i64);
     let coded_lo = Literal::i64_unsuffixed(d.coded_lo());
@@ -1021,23 +1081,23 @@ fn integer_items(ints: &Integers, sets: &Sets<'_>, tans: &Tans, rows: &mut RowSe
         // A place in a signed type's bits, read back unsigned.
         let unsigned_place = if d.value_type.min() < 0 {
             let unsigned = d.value_type.unsigned();
-            quote!(i64::from(u as #unsigned))
+            quote!(#w::from(u as #unsigned))
         } else {
-            quote!(i64::from(u))
+            quote!(#w::from(u))
         };
         quote! {
             /// The value the first difference is taken from.
             const REFERENCE: Symbol = #reference;
             /// Values in the range: differences wrap modulo it.
-            const SIZE: i64 = #size;
+            const SIZE: #w = #size;
             /// The smallest difference coded: the places are `difference - CODED_LO`.
-            const CODED_LO: i64 = #coded_lo;
+            const CODED_LO: #w = #coded_lo;
 
             /// The place of `v` after `before`: their difference wrapped into
             /// `CODED_LO .. CODED_LO + SIZE`, less `CODED_LO`. Both are in the range.
             #[inline(always)]
             fn place(v: Symbol, before: Symbol) -> u32 {
-                let mut t = i64::from(v) - i64::from(before) - CODED_LO;
+                let mut t = #w::from(v) - #w::from(before) - CODED_LO;
                 if t < 0 {
                     t += SIZE;
                 }
@@ -1056,14 +1116,26 @@ fn integer_items(ints: &Integers, sets: &Sets<'_>, tans: &Tans, rows: &mut RowSe
                 }
             }
 
+            /// Places back to values, each after the one before (`before` before the first);
+            /// returns the last. Out of line: it runs once a stream.
+            #[inline(never)]
+            fn undelta(values: &mut [Symbol], before: Symbol) -> Symbol {
+                let mut before = before;
+                for slot in values.iter_mut() {
+                    before = value(*slot, before);
+                    *slot = before;
+                }
+                before
+            }
+
             /// The value of place `u` (as decoded, in `Symbol`'s bits) after `before`:
             /// `before` plus the difference, wrapped back into the range.
             #[inline(always)]
             fn value(u: Symbol, before: Symbol) -> Symbol {
-                let t = i64::from(before) + #unsigned_place + CODED_LO;
-                let t = if t > i64::from(HIGHEST) {
+                let t = #w::from(before) + #unsigned_place + CODED_LO;
+                let t = if t > #w::from(HIGHEST) {
                     t - SIZE
-                } else if t < i64::from(LOWEST) {
+                } else if t < #w::from(LOWEST) {
                     t + SIZE
                 } else {
                     t
@@ -1074,12 +1146,12 @@ fn integer_items(ints: &Integers, sets: &Sets<'_>, tans: &Tans, rows: &mut RowSe
     } else {
         quote! {
             /// The smallest value: the places are `v - LO`.
-            const LO: i64 = #lo;
+            const LO: #w = #lo;
 
             /// The place of `v`, a value of the range.
             #[inline(always)]
             fn place(v: Symbol) -> u32 {
-                (i64::from(v) - LO) as u32
+                (#w::from(v) - LO) as u32
             }
         }
     };
@@ -1103,6 +1175,8 @@ fn integer_items(ints: &Integers, sets: &Sets<'_>, tans: &Tans, rows: &mut RowSe
             let width = BIN_WIDTH.get(row).copied().unwrap_or(0);
             (row, u.wrapping_sub(start), u32::from(width))
         }
+
+        #bin_once
 
         /// The lane's starting state for a last symbol of encoding row `row`: the copy of
         /// it the encoder reaches from state `L` (that symbol then costs no state bits).
@@ -1287,7 +1361,7 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
     let (tail_offsets, offset_items) = match parts.offsets {
         None => (TokenStream::new(), TokenStream::new()),
         Some(o) => {
-            let code = o.code_at(quote!(symbol), quote!(n - used + i));
+            let code = o.code_at_once(quote!(symbol), quote!(n - used + i));
             let tail_loop = tail_loop(o);
             (
                 quote! {
@@ -1568,15 +1642,39 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
     };
     // Integers: a symbol's state step costs at most `MAX_STATE_BITS`; its offset bits go
     // in pieces of at most 16 through the same buffer.
+    // With short offsets (a state step and the widest offset together within 24 bits, what a
+    // flushed buffer keeps free and a refilled one holds) one flush test and one refill test
+    // a symbol cover both; wider ones go in pieces of at most 16 with a test each.
+    let short = parts
+        .offsets
+        .is_some_and(|o| u32::from(parts.max_state_bits) + o.max_width() <= 24);
     let state_bits = match parts.offsets {
         None => quote!(MAX_SYMBOL_BITS),
+        Some(_) if short => quote!(MAX_STATE_BITS + MAX_OFFSET_BITS),
         Some(_) => quote!(MAX_STATE_BITS),
     };
     let delta = parts.offsets.is_some_and(|o| o.delta());
     let many = parts.sets.many();
     let sa = parts.sets.arg();
     let pm = parts.sets.mask();
-    let (before_param, encode_loop) = if delta || many {
+    let (before_param, encode_loop) = if many && !delta {
+        (
+            quote!(, set: usize),
+            quote! {
+                // Symbol `LANES + i` has symbol `i` as its context: the pairs walk back
+                // together; the lanes' first symbols have `FIRST_SET`.
+                let split = if input.len() < LANES { input.len() } else { LANES };
+                if let Some((firsts, rest)) = input.split_at_checked(split) {
+                    for (&symbol, &context) in rest.iter().zip(input).rev() {
+                        e.one(writer, symbol, set_of(context));
+                    }
+                    for &symbol in firsts.iter().rev() {
+                        e.one(writer, symbol, FIRST_SET);
+                    }
+                }
+            },
+        )
+    } else if delta || many {
         let (before_param, before_arg) = if delta {
             (quote!(, before: Symbol), quote!(, previous(input, k)))
         } else {
@@ -1636,8 +1734,77 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                 self.lane = (lane + 1) % LANES;
             },
         ),
+        Some(o) if short => {
+            let tail_loop = tail_loop(o);
+            let max_state = Literal::u32_unsuffixed(u32::from(parts.max_state_bits));
+            let max_offset = Literal::u32_unsuffixed(o.max_width());
+            let here = o.code(quote!(symbol), quote!(before));
+            let code_first = o.code_at_once(quote!(symbol), quote!(first + i));
+            (
+                quote!(let (row, offset, width) = #here;),
+                // The last flush left `MOST` bits free: room for these and the state's.
+                quote!(self.acc = put_offset(self.acc, offset, width);),
+                quote! {
+                    acc = tail_offsets(&mut writer, input, n - used, acc);
+                },
+                quote! {
+                    /// The offsets of the lanes' last symbols (from input index `first`),
+                    /// which end the stream. Out of line: it runs once a stream.
+                    #[inline(never)]
+                    fn tail_offsets(writer: &mut Writer<'_>, input: &[Symbol], first: usize, acc: u32) -> u32 {
+                        let mut acc = acc;
+                        let tail = input.get(first..).unwrap_or_default();
+                        #tail_loop {
+                            let (_, offset, width) = #code_first;
+                            acc = put_offset(acc, offset, width);
+                            if acc >> (32 - MOST) != 0 {
+                                acc = writer.flush(acc);
+                            }
+                        }
+                        acc
+                    }
+
+                    /// Most bits a symbol's state step costs (its offset bits aside).
+                    const MAX_STATE_BITS: u32 = #max_state;
+                    /// Most offset bits after a symbol.
+                    const MAX_OFFSET_BITS: u32 = #max_offset;
+
+                    /// Pushes `width` (at most `MAX_OFFSET_BITS`) offset bits under the
+                    /// pending bits of `acc`, which has room for them.
+                    #[inline(always)]
+                    fn put_offset(acc: u32, offset: u32, width: u32) -> u32 {
+                        acc.wrapping_shl(width) | (offset & !u32::MAX.wrapping_shl(width))
+                    }
+
+                    /// `width` (at most `MAX_OFFSET_BITS`) offset bits at bit `at` of the
+                    /// payload (`peek` holds 25 bits or more).
+                    #[inline(always)]
+                    fn take(payload: &[u8], at: &mut usize, width: u32) -> u32 {
+                        let bits = peek(payload, *at) & !u32::MAX.wrapping_shl(width);
+                        *at = at.wrapping_add(width as usize);
+                        bits
+                    }
+                },
+                quote! {
+                    // One refill covers the state's bits and the offset's.
+                    if self.buf < 1 << (MAX_STATE_BITS + MAX_OFFSET_BITS) {
+                        self.buf = reader.refill(self.buf);
+                    }
+                    let lane = self.lane % LANES;
+                    let p = self.state[lane] & #pm;
+                    let (symbol, bits, base) = step(p);
+                    self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
+                    self.buf >>= bits;
+                    let width = u32::from(WIDTHS[p]);
+                    let offset = self.buf & !u32::MAX.wrapping_shl(width);
+                    self.buf = self.buf.wrapping_shr(width);
+                    *slot = symbol.wrapping_add(offset as Symbol);
+                    self.lane = (lane + 1) % LANES;
+                },
+            )
+        }
         Some(o) => {
-            let code = o.code_at(quote!(symbol), quote!(n - used + i));
+            let code = o.code_at_once(quote!(symbol), quote!(n - used + i));
             let tail_loop = tail_loop(o);
             let max_state = Literal::u32_unsuffixed(u32::from(parts.max_state_bits));
             let here = o.code(quote!(symbol), quote!(before));
