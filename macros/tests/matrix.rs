@@ -13,6 +13,7 @@ use std::path::Path;
 #[path = "../../tests/common/mod.rs"]
 mod common;
 mod contexts;
+mod differential;
 mod escapes;
 mod integers;
 use common::Rng;

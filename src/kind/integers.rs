@@ -286,19 +286,7 @@ fn read(
             }
         },
     };
-    let delta = match keys.key("delta") {
-        None => false,
-        Some(v) => match v.get_ref() {
-            DeValue::Boolean(b) => *b,
-            other => {
-                errors.push((
-                    v.span(),
-                    format!("`delta` must be true or false, found {}", a_type(other)),
-                ));
-                false
-            }
-        },
-    };
+    let delta = super::read_bool(keys, "delta", &mut errors);
     let max_symbols = match keys.key("max_symbols") {
         None => DEFAULT_MAX_SYMBOLS,
         Some(v) => match v.get_ref() {

@@ -195,22 +195,27 @@ impl Escape {
     }
 }
 
-/// Reads `escape` and `escape_share`: `Some(share)` when escapes are on.
-pub fn read_escape(keys: &dyn SpecKeys) -> Result<Option<Option<f64>>, Vec<Misplaced>> {
-    let mut errors = Vec::new();
-    let on = match keys.key("escape") {
+/// A kind's boolean key (`false` when absent); a value of another type is noted in `errors`.
+pub fn read_bool(keys: &dyn SpecKeys, key: &str, errors: &mut Vec<Misplaced>) -> bool {
+    match keys.key(key) {
         None => false,
         Some(v) => match v.get_ref() {
             DeValue::Boolean(b) => *b,
             other => {
                 errors.push((
                     v.span(),
-                    format!("`escape` must be true or false, found {}", a_type(other)),
+                    format!("`{key}` must be true or false, found {}", a_type(other)),
                 ));
                 false
             }
         },
-    };
+    }
+}
+
+/// Reads `escape` and `escape_share`: `Some(share)` when escapes are on.
+pub fn read_escape(keys: &dyn SpecKeys) -> Result<Option<Option<f64>>, Vec<Misplaced>> {
+    let mut errors = Vec::new();
+    let on = read_bool(keys, "escape", &mut errors);
     let share = match keys.key("escape_share") {
         None => None,
         Some(v) => {

@@ -7,48 +7,22 @@
 precast_macros::codecs!("../tests/specs/contexts.toml");
 
 use super::common::Rng;
+use super::differential::{self, Codec};
+use crate::differential_codec as codec;
 use precast::kind::integers::bin_index;
-use precast::spec::Framing;
-use precast::verify::Reference;
 use std::path::Path;
 
 fn spec_dir() -> std::path::PathBuf {
     Path::new(env!("CARGO_MANIFEST_DIR")).join("../tests/specs")
 }
 
-fn built(name: &str) -> (precast::Built, Framing, u32) {
-    let (spec, _) = precast::spec::load(&spec_dir().join("contexts.toml")).unwrap();
-    let codec = spec.codecs.iter().find(|c| c.name == name).unwrap();
-    (
-        precast::build_codec(codec).unwrap(),
-        codec.framing,
-        codec.lanes,
-    )
+fn built(name: &str) -> (precast::Built, precast::spec::Framing, u32) {
+    differential::built("contexts.toml", name)
 }
 
-/// One codec's functions over its value type.
-struct Codec<V, E> {
-    name: &'static str,
-    max_encoded_len: fn(usize) -> usize,
-    encode: fn(&[V], &mut [u8]) -> Result<usize, E>,
-    decode: fn(&[u8], &mut [V]) -> Result<usize, E>,
-    too_small: E,
-}
-
-macro_rules! codec {
-    ($m:ident) => {
-        Codec {
-            name: stringify!($m),
-            max_encoded_len: $m::max_encoded_len,
-            encode: $m::encode,
-            decode: $m::decode,
-            too_small: $m::Error::OutputTooSmall,
-        }
-    };
-}
-
-/// Round trips against the reference coder: `split` gives a value's symbol and raw bits
-/// (deltas: after the value before), `join` the values back from the reference decoder's.
+/// Round trips against the reference coder, which chooses each symbol's table set by the
+/// same rule: `split` gives a value's symbol and raw bits (deltas: after the value before),
+/// `join` the values back from the reference decoder's.
 fn check<V, E>(
     c: Codec<V, E>,
     inputs: &[Vec<V>],
@@ -60,77 +34,8 @@ fn check<V, E>(
 {
     let (built, framing, lanes) = built(c.name);
     assert!(built.sets.len() > 1, "{}: one table set", c.name);
-    let reference = Reference::framed(&built.tables, built.fingerprint, framing, lanes)
-        .with_widths(built.kind.widths())
-        .with_contexts(&built.sets, built.set_of.clone());
-    let mut rng = Rng(29);
-    for values in inputs {
-        let len = values.len();
-        let (symbols, offsets) = split(values);
-        let mut buf = vec![0u8; (c.max_encoded_len)(len)];
-        let n = (c.encode)(values, &mut buf).unwrap();
-        let stream = &buf[..n];
-        assert_eq!(
-            stream,
-            &reference.encode_offsets(&symbols, &offsets)[..],
-            "{} len {len}",
-            c.name
-        );
-        let mut back = vec![V::default(); len];
-        assert_eq!(
-            (c.decode)(stream, &mut back),
-            Ok(len),
-            "{} len {len}",
-            c.name
-        );
-        assert_eq!(&back, values, "{} len {len}", c.name);
-        if n > 0 {
-            let mut short = vec![0u8; n - 1];
-            assert_eq!((c.encode)(values, &mut short), Err(c.too_small));
-        }
-        if len > 300 {
-            continue;
-        }
-        for cut in 0..n {
-            let got = (c.decode)(&stream[..cut], &mut back).is_ok();
-            let want = framing != Framing::Tagged
-                && reference
-                    .decode_offsets(&stream[..cut], len)
-                    .is_ok_and(|(_, _, used)| used == cut);
-            assert_eq!(got, want, "{} len {len} cut {cut}", c.name);
-        }
-        // Bit flips: the generated decoder agrees with the reference decoder.
-        let mut out = vec![V::default(); len + 64];
-        let out_len = if framing == Framing::Bare {
-            len
-        } else {
-            out.len()
-        };
-        for _ in 0..40.min(n * 8) {
-            let mut bad = stream.to_vec();
-            let bit = rng.below(n * 8);
-            bad[bit / 8] ^= 1 << (bit % 8);
-            let got = (c.decode)(&bad, &mut out[..out_len]);
-            let want = reference
-                .decode_offsets(&bad, out_len)
-                .ok()
-                .filter(|&(_, _, used)| used == bad.len());
-            assert_eq!(
-                got.is_ok(),
-                want.is_some(),
-                "{} len {len} bit {bit}",
-                c.name
-            );
-            if let (Ok(k), Some((s, o, _))) = (got, want) {
-                assert_eq!(
-                    &out[..k],
-                    &join(&s, &o)[..],
-                    "{} len {len} bit {bit}",
-                    c.name
-                );
-            }
-        }
-    }
+    let reference = differential::reference(&built, framing, lanes);
+    differential::round_trips(&c, &reference, framing, inputs, split, join, 29);
 }
 
 /// Lengths of the inputs: every short one, and some longer.

@@ -6,40 +6,11 @@
 precast_macros::codecs!("../tests/specs/escapes.toml");
 
 use super::common::Rng;
-use precast::spec::Framing;
-use precast::verify::Reference;
-use std::path::Path;
+use super::differential::{self, Codec};
+use crate::differential_codec as codec;
 
-fn built(name: &str) -> (precast::Built, Framing, u32) {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("../tests/specs/escapes.toml");
-    let (spec, _) = precast::spec::load(&path).unwrap();
-    let codec = spec.codecs.iter().find(|c| c.name == name).unwrap();
-    (
-        precast::build_codec(codec).unwrap(),
-        codec.framing,
-        codec.lanes,
-    )
-}
-
-/// One codec's functions over its value type.
-struct Codec<V, E> {
-    name: &'static str,
-    max_encoded_len: fn(usize) -> usize,
-    encode: fn(&[V], &mut [u8]) -> Result<usize, E>,
-    decode: fn(&[u8], &mut [V]) -> Result<usize, E>,
-    too_small: E,
-}
-
-macro_rules! codec {
-    ($m:ident) => {
-        Codec {
-            name: stringify!($m),
-            max_encoded_len: $m::max_encoded_len,
-            encode: $m::encode,
-            decode: $m::decode,
-            too_small: $m::Error::OutputTooSmall,
-        }
-    };
+fn built(name: &str) -> (precast::Built, precast::spec::Framing, u32) {
+    differential::built("escapes.toml", name)
 }
 
 /// How a value goes to the reference coder (symbol and raw bits) and comes back.
@@ -56,76 +27,21 @@ where
     E: Copy + PartialEq + std::fmt::Debug,
 {
     let (built, framing, lanes) = built(c.name);
-    let widths = built.kind.widths();
-    let reference =
-        Reference::framed(&built.tables, built.fingerprint, framing, lanes).with_widths(widths);
-    let mut rng = Rng(5);
-    let mut escaped = 0usize;
-    for values in &inputs {
-        let len = values.len();
-        escaped += values.iter().filter(|&&v| (s.escapes)(v)).count();
-        let (symbols, offsets): (Vec<u16>, Vec<u32>) = values.iter().map(|&v| (s.split)(v)).unzip();
-        let mut buf = vec![0u8; (c.max_encoded_len)(len)];
-        let n = (c.encode)(values, &mut buf).unwrap();
-        let stream = &buf[..n];
-        assert_eq!(
-            stream,
-            &reference.encode_offsets(&symbols, &offsets)[..],
-            "{} len {len}",
-            c.name
-        );
-        let mut back = vec![V::default(); len];
-        assert_eq!(
-            (c.decode)(stream, &mut back),
-            Ok(len),
-            "{} len {len}",
-            c.name
-        );
-        assert_eq!(&back, values, "{} len {len}", c.name);
-        if n > 0 {
-            let mut short = vec![0u8; n - 1];
-            assert_eq!((c.encode)(values, &mut short), Err(c.too_small));
-        }
-        if len > 300 {
-            continue;
-        }
-        for cut in 0..n {
-            let got = (c.decode)(&stream[..cut], &mut back).is_ok();
-            let want = framing != Framing::Tagged
-                && reference
-                    .decode_offsets(&stream[..cut], len)
-                    .is_ok_and(|(_, _, used)| used == cut);
-            assert_eq!(got, want, "{} len {len} cut {cut}", c.name);
-        }
-        // Bit flips: the generated decoder agrees with the reference decoder.
-        let mut out = vec![V::default(); len + 64];
-        let out_len = if framing == Framing::Bare {
-            len
-        } else {
-            out.len()
-        };
-        for _ in 0..40.min(n * 8) {
-            let mut bad = stream.to_vec();
-            let bit = rng.below(n * 8);
-            bad[bit / 8] ^= 1 << (bit % 8);
-            let got = (c.decode)(&bad, &mut out[..out_len]);
-            let want = reference
-                .decode_offsets(&bad, out_len)
-                .ok()
-                .filter(|&(_, _, used)| used == bad.len());
-            assert_eq!(
-                got.is_ok(),
-                want.is_some(),
-                "{} len {len} bit {bit}",
-                c.name
-            );
-            if let (Ok(k), Some((sy, o, _))) = (got, want) {
-                let joined: Vec<V> = sy.iter().zip(&o).map(|(&a, &b)| (s.join)(a, b)).collect();
-                assert_eq!(&out[..k], &joined[..], "{} len {len} bit {bit}", c.name);
-            }
-        }
-    }
+    let reference = differential::reference(&built, framing, lanes);
+    let escaped: usize = inputs
+        .iter()
+        .map(|v| v.iter().filter(|&&x| (s.escapes)(x)).count())
+        .sum();
     assert!(escaped > 0, "{}: no input escaped", c.name);
+    differential::round_trips(
+        &c,
+        &reference,
+        framing,
+        &inputs,
+        |values: &[V]| values.iter().map(|&v| (s.split)(v)).unzip(),
+        |sy: &[u16], o: &[u32]| sy.iter().zip(o).map(|(&a, &b)| (s.join)(a, b)).collect(),
+        5,
+    );
 }
 
 /// Lengths of the random inputs: every short one, and some longer.

@@ -6,9 +6,9 @@
 precast_macros::codecs!("../tests/specs/integers.toml");
 
 use super::common::Rng;
+use super::differential::{self, Codec as Functions};
 use precast::kind::integers::{bin_index, Integers};
 use precast::spec::Framing;
-use precast::verify::Reference;
 use std::path::Path;
 
 fn built(name: &str) -> (precast::Built, Framing, u32) {
@@ -102,9 +102,7 @@ where
         .unwrap()
         .clone();
     let d = ints.domain;
-    let widths = ints.bins.iter().map(|b| b.width).collect();
-    let reference =
-        Reference::framed(&built.tables, built.fingerprint, framing, lanes).with_widths(widths);
+    let reference = differential::reference(&built, framing, lanes);
     let to_v = |v: i64| V::try_from(v).unwrap();
     let places: Vec<u32> = built.model.place_counts.keys().copied().collect();
     let weights: Vec<u64> = built.model.place_counts.values().copied().collect();
@@ -145,70 +143,25 @@ where
     inputs.push(edges);
     // The range ends back and forth: the largest differences both ways.
     inputs.push(vec![d.lo, d.hi, d.lo, d.hi, d.hi, d.lo, d.lo]);
-    for input in &inputs {
-        let len = input.len();
-        let values: Vec<V> = input.iter().map(|&v| to_v(v)).collect();
-        let (symbols, offsets) = split(&ints, input);
-        let mut buf = vec![0u8; (c.max_encoded_len)(len)];
-        let n = (c.encode)(&values, &mut buf).unwrap();
-        let stream = &buf[..n];
-        assert_eq!(
-            stream,
-            &reference.encode_offsets(&symbols, &offsets)[..],
-            "{} len {len}",
-            c.name
-        );
-        let mut back = vec![V::default(); len];
-        assert_eq!(
-            (c.decode)(stream, &mut back),
-            Ok(len),
-            "{} len {len}",
-            c.name
-        );
-        assert_eq!(back, values, "{} len {len}", c.name);
-        if n > 0 {
-            let mut short = vec![0u8; n - 1];
-            assert_eq!((c.encode)(&values, &mut short), Err(c.too_small));
-        }
-        if len > 300 {
-            continue;
-        }
-        for cut in 0..n {
-            let got = (c.decode)(&stream[..cut], &mut back).is_ok();
-            let want = framing != Framing::Tagged
-                && reference
-                    .decode_offsets(&stream[..cut], len)
-                    .is_ok_and(|(_, _, used)| used == cut);
-            assert_eq!(got, want, "{} len {len} cut {cut}", c.name);
-        }
-        // Bit flips: the generated decoder agrees with the reference decoder.
-        let mut out = vec![V::default(); len + 64];
-        let out_len = if framing == Framing::Bare {
-            len
-        } else {
-            out.len()
-        };
-        for _ in 0..40.min(n * 8) {
-            let mut bad = stream.to_vec();
-            let bit = rng.below(n * 8);
-            bad[bit / 8] ^= 1 << (bit % 8);
-            let got = (c.decode)(&bad, &mut out[..out_len]);
-            let want = reference
-                .decode_offsets(&bad, out_len)
-                .ok()
-                .filter(|&(_, _, used)| used == bad.len());
-            assert_eq!(
-                got.is_ok(),
-                want.is_some(),
-                "{} len {len} bit {bit}",
-                c.name
-            );
-            if let (Ok(k), Some((s, o, _))) = (got, want) {
-                let got: Vec<i64> = out[..k].iter().map(|&v| v.into()).collect();
-                assert_eq!(got, join(&ints, &s, &o), "{} len {len} bit {bit}", c.name);
-            }
-        }
-    }
+    let values: Vec<Vec<V>> = inputs
+        .iter()
+        .map(|input| input.iter().map(|&v| to_v(v)).collect())
+        .collect();
+    differential::round_trips(
+        &Functions {
+            name: c.name,
+            max_encoded_len: c.max_encoded_len,
+            encode: c.encode,
+            decode: c.decode,
+            too_small: c.too_small,
+        },
+        &reference,
+        framing,
+        &values,
+        |v: &[V]| split(&ints, &v.iter().map(|&x| x.into()).collect::<Vec<i64>>()),
+        |s: &[u16], o: &[u32]| join(&ints, s, o).into_iter().map(to_v).collect(),
+        11,
+    );
     // A value outside the range is refused at its position.
     if let Some(out_of_range) = c.out_of_range {
         let mut values = vec![to_v(d.lo); 5];
