@@ -51,6 +51,32 @@ macro_rules! keep {
             decode(codecs::field_notes_ctx4::decode, 0u8),
         )
     };
+    // Escapes and text: not measured, linked for the audit only.
+    (@encode_more) => {
+        (
+            encode(codecs::notes_escape::encode, b"Gauge 14 OK\n"),
+            encode(codecs::level_escape::encode, &[812, 40000, 813]),
+            encode_text(codecs::notes_text::encode, "gauge 14 é ok\n"),
+        )
+    };
+    (@decode_more) => {
+        (
+            decode(codecs::notes_escape::decode, 0u8),
+            decode(codecs::level_escape::decode, 0u16),
+            decode_text(codecs::notes_text::decode),
+        )
+    };
+}
+
+fn encode_text<E>(f: fn(&str, &mut [u8]) -> Result<usize, E>, input: &str) -> bool {
+    let mut out = [0u8; 64];
+    black_box(f)(black_box(input), black_box(&mut out[..])).is_ok()
+}
+
+fn decode_text<E>(f: for<'a> fn(&[u8], &'a mut [u8]) -> Result<&'a str, E>) -> bool {
+    let stream = [0u8; 16];
+    let mut out = [0u8; 64];
+    black_box(f)(black_box(&stream[..]), black_box(&mut out[..])).is_ok()
 }
 
 /// Calls what the image's features ask for; the results do not matter.
@@ -62,6 +88,10 @@ pub fn run() -> bool {
     black_box(keep!(@encode_ctx));
     #[cfg(feature = "precast-decode")]
     black_box(keep!(@decode_ctx));
+    #[cfg(feature = "precast-encode")]
+    black_box(keep!(@encode_more));
+    #[cfg(feature = "precast-decode")]
+    black_box(keep!(@decode_more));
     keep!("huffman-encode", encode, huffman);
     keep!("huffman-decode", decode, huffman);
     true
