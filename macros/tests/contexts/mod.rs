@@ -125,6 +125,10 @@ fn apache_l4_bare() {
     bytes(codec!(apache_l4_bare), "apache-2.0.txt");
 }
 #[test]
+fn apache_l2_wide_positions() {
+    bytes(codec!(apache_l2_wide_positions), "apache-2.0.txt");
+}
+#[test]
 fn apache_l8() {
     bytes(codec!(apache_l8), "apache-2.0.txt");
 }
