@@ -769,3 +769,52 @@ fn escapes_carry_any_character() {
 fn escapes_compact_two_lanes() {
     check_escapes(escaping!(lower_escape_compact_l2));
 }
+
+/// A chars codec with contexts and an escape: text round-trips, and the stream is the
+/// reference coder's (with the same table sets) for the index bytes.
+#[test]
+fn contexts_and_escapes_together() {
+    let c = escaping!(lower_escape_context);
+    let (built, framing, lanes) = built(c.name);
+    assert!(built.sets.len() > 1, "one table set");
+    let reference = Reference::framed(&built.tables, built.fingerprint, framing, lanes)
+        .with_widths(built.kind.widths())
+        .with_contexts(&built.sets, built.set_of.clone());
+    let k = c.alphabet.len() as u16;
+    for text in [
+        String::new(),
+        "a".to_string(),
+        "Level 2.4 m ↑, 🌊 rising at Gauge 7 (Ü-bridge).".to_string(),
+        notes_text(),
+        licence_text(),
+    ] {
+        let mut symbols = Vec::new();
+        let mut offsets = Vec::new();
+        for ch in text.chars() {
+            match c.alphabet.iter().position(|&a| a == ch) {
+                Some(i) => {
+                    symbols.push(i as u16);
+                    offsets.push(0);
+                }
+                None => {
+                    let v = u32::from(ch);
+                    for d in [v >> 14, (v >> 7) & 127, v & 127] {
+                        symbols.push(k);
+                        offsets.push(u32::from(k) + d);
+                    }
+                }
+            }
+        }
+        let n = text.chars().count();
+        let mut buf = vec![0u8; (c.max_encoded_len)(n)];
+        let len = (c.encode)(&text, &mut buf).unwrap();
+        assert_eq!(
+            &buf[..len],
+            &reference.encode_offsets(&symbols, &offsets)[..],
+            "{text:?}"
+        );
+        let count = (c.symbol_count)(&buf[..len]).unwrap();
+        let mut out = vec![0u8; (c.max_decoded_bytes)(count)];
+        assert_eq!((c.decode)(&buf[..len], &mut out), Ok(text.as_str()));
+    }
+}
