@@ -363,6 +363,8 @@ pub fn combined_layout(
         "SYMBOLS",
         "STEPS",
         "PUT",
+        "PUTS",
+        "DECODE",
         "SPEND",
         "RUN",
         "NEXT_STATE",

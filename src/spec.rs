@@ -431,12 +431,12 @@ impl Checker<'_> {
                 "`context_tables` applies to context = \"previous\"".to_string(),
             );
         }
-        if let (Some(Context::Previous), Some(Method::Rans), Some(v)) =
-            (context, method, keys.get(Method::KEY))
+        if let (Some(Context::Previous), Some(Lookup::Search), Some(v)) =
+            (context, lookup, keys.get(Lookup::KEY))
         {
             fail(
                 v.span(),
-                "a context codec is coded with method = \"tans\" (rANS table sets are not there yet)".to_string(),
+                "a context codec looks symbols up in a table: symbol_lookup = \"search\" has no table sets".to_string(),
             );
         }
         let table_bits = self.optional_number(keys, "table_bits", &mut fail, |n, written| {

@@ -142,6 +142,8 @@ pub struct Reference<'a> {
     lanes: usize,
     /// tANS: each table set with where its copies are.
     sets: Vec<TansSet<'a>>,
+    /// rANS context codecs: each table set (empty: `tables` alone).
+    rans_sets: Vec<&'a Rans>,
     /// Context codecs: the table set of each context symbol; empty: one set.
     set_of: Vec<u8>,
     /// Offset bits after each symbol (integers codecs); empty: none.
@@ -198,6 +200,7 @@ impl<'a> Reference<'a> {
             framing,
             lanes: lanes as usize,
             sets,
+            rans_sets: Vec::new(),
             set_of: Vec::new(),
             widths: Vec::new(),
         }
@@ -214,18 +217,38 @@ impl<'a> Reference<'a> {
                 Tables::Rans(_) => None,
             })
             .collect();
+        self.rans_sets = all
+            .iter()
+            .filter_map(|t| match t {
+                Tables::Rans(r) => Some(r),
+                Tables::Tans(_) => None,
+            })
+            .collect();
         self.set_of = set_of;
         self
     }
 
-    /// The table set of symbol `i`, from the symbols before it.
-    fn set_at(&self, symbols: &[u16], i: usize) -> &TansSet<'a> {
+    /// The table set number of symbol `i`, from the symbols before it.
+    fn set_index(&self, symbols: &[u16], i: usize) -> usize {
         let context = match i.checked_sub(self.lanes) {
             Some(j) => usize::from(symbols[j]),
             None => crate::context::FIRST_CONTEXT,
         };
-        let set = self.set_of.get(context).map_or(0, |&s| usize::from(s));
+        self.set_of.get(context).map_or(0, |&s| usize::from(s))
+    }
+
+    /// The tANS table set of symbol `i`.
+    fn set_at(&self, symbols: &[u16], i: usize) -> &TansSet<'a> {
+        let set = self.set_index(symbols, i);
         &self.sets[set.min(self.sets.len() - 1)]
+    }
+
+    /// The rANS tables of symbol `i`: `rans` itself without contexts.
+    fn rans_at<'b>(&'b self, rans: &'b Rans, symbols: &[u16], i: usize) -> &'b Rans {
+        match self.rans_sets.get(self.set_index(symbols, i)) {
+            Some(r) => r,
+            None => rans,
+        }
     }
 
     /// The coder for a codec whose symbols are followed by `widths[s]` raw offset bits.
@@ -418,6 +441,7 @@ impl<'a> Reference<'a> {
         let mut x = vec![u64::from(RANS_LOW); self.lanes];
         let mut words: Vec<u16> = Vec::new();
         for (i, &s) in symbols.iter().enumerate().rev() {
+            let rans = self.rans_at(rans, symbols, i);
             let x = &mut x[i % self.lanes];
             let f = u64::from(rans.slots[usize::from(s)]);
             let c = u64::from(rans.cum[usize::from(s)]);
@@ -596,6 +620,7 @@ impl<'a> Reference<'a> {
         let mut at = first;
         let mut out = Vec::with_capacity(count.min(1 << 20));
         for i in 0..count {
+            let rans = self.rans_at(rans, &out, i);
             let x = &mut x[i % self.lanes];
             let (s, next) = rans_uncode(*x, &rans.slots, &rans.cum, n);
             *x = next;

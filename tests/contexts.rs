@@ -133,8 +133,8 @@ fn context_keys_are_checked() {
             "`context_tables` applies to context = \"previous\"",
         ),
         (
-            "context = \"previous\"\nmethod = \"rans\"",
-            "a context codec is coded with method = \"tans\"",
+            "context = \"previous\"\nmethod = \"rans\"\nsymbol_lookup = \"search\"",
+            "a context codec looks symbols up in a table",
         ),
     ];
     for (body, want) in cases {

@@ -101,6 +101,10 @@ fn module(plan: &CodecPlan, rows: &mut RowSets) -> Result<TokenStream> {
         Tables::Tans(t) => {
             input::tokens(&plan.input, |row| tans::absent(t, plan.sets.len() > 1, row))
         }
+        // A context codec's rows are absent in every set alike: set 0's say.
+        Tables::Rans(_) if plan.sets.len() > 1 => {
+            input::tokens(&plan.input, |row| quote!(u32::from(PUTS[0][#row].absent)))
+        }
         Tables::Rans(_) => input::tokens(&plan.input, |row| quote!(u32::from(PUTS[#row].absent))),
     };
     let body = match &set.tables {

@@ -72,29 +72,65 @@ pub fn body(
     };
     let word = super::tail_word();
     let absent = matches!(plan.input, crate::kind::InputMap::Rows(_));
-    let put_rows = rows.add(input::put_rows(kind, &plan.input, 1, |line, row| {
-        let p = rans.put(row.unwrap_or(0));
-        line.push_str("Put { reciprocal: ");
-        push_number(line, u64::from(p.reciprocal));
-        line.push_str(", ceiling: ");
-        push_number(line, u64::from(p.ceiling));
-        line.push_str(", start: ");
-        push_number(line, u64::from(p.start));
-        line.push_str(", gap: ");
-        push_number(line, u64::from(p.gap));
-        line.push_str(", shift: ");
-        push_number(line, u64::from(p.shift));
-        if absent {
-            line.push_str(if row.is_some() {
-                ", absent: 0"
-            } else {
-                ", absent: 1"
-            });
+    // A context codec's table sets (one without contexts).
+    let all: Vec<&Rans> = plan
+        .sets
+        .iter()
+        .filter_map(|s| match &s.tables {
+            crate::method::Tables::Rans(r) => Some(r),
+            crate::method::Tables::Tans(_) => None,
+        })
+        .collect();
+    let many = all.len() > 1;
+    // Each set's rows in turn, nested when there are several.
+    let nest = |per_set: Vec<Vec<String>>| -> Vec<String> {
+        if !many {
+            return per_set.into_iter().flatten().collect();
         }
-        line.push_str(" }, ");
-    }));
-    let all = kind.all_symbols();
-    let count_check = match rans.min_cost_1024() {
+        let mut out = Vec::new();
+        for (j, lines) in per_set.into_iter().enumerate() {
+            out.push(format!("// table set {j}"));
+            out.push("[".to_string());
+            out.extend(lines.into_iter().map(|l| format!("    {l}")));
+            out.push("],".to_string());
+        }
+        out
+    };
+    let put_rows = rows.add(nest(
+        all.iter()
+            .map(|rans| {
+                input::put_rows(kind, &plan.input, 1, |line, row| {
+                    let p = rans.put(row.unwrap_or(0));
+                    line.push_str("Put { reciprocal: ");
+                    push_number(line, u64::from(p.reciprocal));
+                    line.push_str(", ceiling: ");
+                    push_number(line, u64::from(p.ceiling));
+                    line.push_str(", start: ");
+                    push_number(line, u64::from(p.start));
+                    line.push_str(", gap: ");
+                    push_number(line, u64::from(p.gap));
+                    line.push_str(", shift: ");
+                    push_number(line, u64::from(p.shift));
+                    if absent {
+                        line.push_str(if row.is_some() {
+                            ", absent: 0"
+                        } else {
+                            ", absent: 1"
+                        });
+                    }
+                    line.push_str(" }, ");
+                })
+            })
+            .collect(),
+    ));
+    let puts_type = if many {
+        quote!([[Put; #put_len]; SETS])
+    } else {
+        quote!([Put; #put_len])
+    };
+    let min_cost = all.iter().map(|r| r.min_cost_1024()).min().unwrap_or(0);
+    let all_symbols = kind.all_symbols();
+    let count_check = match min_cost {
         0 => quote!(),
         cost => {
             let cost = Literal::u64_unsuffixed(cost);
@@ -114,29 +150,45 @@ pub fn body(
     let lookup = match plan.spec.lookup {
         Lookup::Table => {
             let slots: Vec<u32> = (0..1u32 << rans.table_bits).collect();
-            let decode_rows = rows.add(rows_of(&slots, 8, |line, &slot| {
-                let s = rans.symbol_at(slot);
-                line.push_str("Step(");
-                line.push_str(&kind.row_literal(s));
-                line.push_str(", ");
-                push_number(line, u64::from(slot - rans.cum[s]));
-                line.push_str(", ");
-                push_number(line, u64::from(rans.slots[s]));
-                line.push_str("), ");
-            }));
+            let mut flat = Vec::new();
+            for (j, rans) in all.iter().enumerate() {
+                if many {
+                    flat.push(format!("// table set {j}"));
+                }
+                flat.extend(rows_of(&slots, 8, |line, &slot| {
+                    let s = rans.symbol_at(slot);
+                    line.push_str("Step(");
+                    line.push_str(&kind.row_literal(s));
+                    line.push_str(", ");
+                    push_number(line, u64::from(slot - rans.cum[s]));
+                    line.push_str(", ");
+                    push_number(line, u64::from(rans.slots[s]));
+                    line.push_str("), ");
+                }));
+            }
+            let decode_rows = rows.add(flat);
+            let (decode_len, index, set_param) = if many {
+                (
+                    quote!(SETS * TABLE_LEN),
+                    quote!(((set & (SETS - 1)) << TABLE_BITS) | (slot & MASK)),
+                    quote!(set: usize,),
+                )
+            } else {
+                (quote!(TABLE_LEN), quote!(slot & MASK), TokenStream::new())
+            };
             quote! {
                 /// What slot `i` decodes to, `Step(symbol, i - c, f)`: the symbol owning the
                 /// slot, the slot's place in the symbol's range and the symbol's slot count
                 /// (a `u32`, so that an entry is 8 bytes and its index scales by a shift).
                 struct Step(Symbol, u16, u32);
 
-                /// Decode steps by slot.
-                static DECODE: [Step; TABLE_LEN] = #decode_rows;
+                /// Decode steps by slot (with several table sets, each set's in turn).
+                static DECODE: [Step; #decode_len] = #decode_rows;
 
                 /// The symbol owning `slot`, its slots and the slot's offset in its range.
                 #[inline(always)]
-                fn lookup(slot: usize) -> (Symbol, u32, u32) {
-                    let step = &DECODE[slot & MASK];
+                fn lookup(#set_param slot: usize) -> (Symbol, u32, u32) {
+                    let step = &DECODE[#index];
                     (step.0, step.2, u32::from(step.1))
                 }
             }
@@ -163,18 +215,45 @@ pub fn body(
                         low += if u32::from(c) <= slot { half } else { 0 };
                         len -= half;
                     }
-                    match (#all.get(low), CUM.get(low), CUM.get(low + 1)) {
+                    match (#all_symbols.get(low), CUM.get(low), CUM.get(low + 1)) {
                         (Some(&symbol), Some(&c), Some(&next)) => {
                             (symbol, u32::from(next - c), slot - u32::from(c))
                         }
                         // Unreachable: `low < ALPHABET_LEN`.
-                        _ => (#all[0], 1, 0),
+                        _ => (#all_symbols[0], 1, 0),
                     }
                 }
             }
         }
     };
 
+    // Context codecs: the encoder's set from the symbol `LANES` before, the decoder's from
+    // each lane's last symbol.
+    let context_items = super::tans::rans_context_items(plan, rows);
+    let (rest_set, rounds_loop, round_set, sets_decl, lane_set, lane_next, i_set, i_next) = if many
+    {
+        (
+            quote!([context_set(input, rounds.len() * LANES + lane)]),
+            quote!(for (r, round) in rounds.iter().enumerate().rev()),
+            quote!([context_set(input, r * LANES + lane)]),
+            quote!(let mut sets = [FIRST_SET; LANES];),
+            quote!(sets[lane],),
+            quote!(sets[lane] = set_of(symbol);),
+            quote!(sets[i % LANES],),
+            quote!(sets[i % LANES] = set_of(symbol);),
+        )
+    } else {
+        (
+            TokenStream::new(),
+            quote!(for round in rounds.iter().rev()),
+            TokenStream::new(),
+            TokenStream::new(),
+            TokenStream::new(),
+            TokenStream::new(),
+            TokenStream::new(),
+            TokenStream::new(),
+        )
+    };
     quote! {
         /// Lower end of the state interval `[LOW, 2^32)`; states move in 16-bit words.
         const LOW: u32 = 1 << 16;
@@ -224,12 +303,12 @@ pub fn body(
             let (rounds, rest) = input.as_chunks::<LANES>();
             for (lane, &symbol) in rest.iter().enumerate().rev() {
                 let row = #row;
-                let put = &PUTS[row];
+                let put = &PUTS #rest_set [row];
                 #check
                 let x = shed(state[lane % LANES], put, out, &mut pos)?;
                 state[lane % LANES] = put_symbol(x, put);
             }
-            for round in rounds.iter().rev() {
+            #rounds_loop {
                 let window = out.get_mut(..pos).and_then(<[u8]>::last_chunk_mut::<#window>);
                 if let Some(window) = window {
                     // Fast path: every store lands in `window`; the word is always stored
@@ -238,7 +317,7 @@ pub fn body(
                     for lane in (0..LANES).rev() {
                         let symbol = round[lane];
                         let row = #row;
-                let put = &PUTS[row];
+                        let put = &PUTS #round_set [row];
                         #check
                         let x = state[lane];
                         let shed = u32::from(x > put.ceiling);
@@ -254,7 +333,7 @@ pub fn body(
                     for lane in (0..LANES).rev() {
                         let symbol = round[lane];
                         let row = #row;
-                let put = &PUTS[row];
+                        let put = &PUTS #round_set [row];
                         #check
                         let x = shed(state[lane], put, out, &mut pos)?;
                         state[lane] = put_symbol(x, put);
@@ -292,6 +371,7 @@ pub fn body(
                 return Err(#corrupt);
             }
             let mut at = 4 * LANES;
+            #sets_decl
             let (rounds, _) = out.as_chunks_mut::<LANES>();
             let mut done = 0;
             for round in rounds.iter_mut() {
@@ -303,8 +383,9 @@ pub fn body(
                 let first = at;
                 for lane in 0..LANES {
                     let x = state[lane];
-                    let (symbol, f, offset) = lookup(x as usize);
+                    let (symbol, f, offset) = lookup(#lane_set x as usize);
                     round[lane] = symbol;
+                    #lane_next
                     let x = f.wrapping_mul(x >> TABLE_BITS).wrapping_add(offset);
                     let w = window_half(window, at.wrapping_sub(first));
                     // Branch-free refill: shift in the word when the state fell below LOW.
@@ -316,8 +397,9 @@ pub fn body(
             }
             for (i, slot) in out.iter_mut().enumerate().skip(done) {
                 let x = &mut state[i % LANES];
-                let (symbol, f, offset) = lookup(*x as usize);
+                let (symbol, f, offset) = lookup(#i_set *x as usize);
                 *slot = symbol;
+                #i_next
                 let y = f.wrapping_mul(*x >> TABLE_BITS).wrapping_add(offset);
                 *x = if y < LOW {
                     at += 2;
@@ -360,7 +442,9 @@ pub fn body(
             #field
         }
 
-        /// Encoding records, indexed by input value.
-        static PUTS: [Put; #put_len] = #put_rows;
+        /// Encoding records, indexed by input value (with several table sets, by set first).
+        static PUTS: #puts_type = #put_rows;
+
+        #context_items
     }
 }

@@ -879,12 +879,54 @@ fn context_items(
     if !sets.many() {
         return TokenStream::new();
     }
+    let positions = quote! {
+        /// Positions of every set's table, the decoder's state.
+        const POSITIONS: usize = SETS * TABLE_LEN;
+        const POSITION_MASK: usize = POSITIONS - 1;
+        /// Where the first set's positions start.
+        const FIRST_BASE: usize = FIRST_SET << TABLE_BITS;
+    };
+    let set_of_cfg = quote!(#[cfg(not(target_pointer_width = "64"))]);
+    shared_context_items(plan, sets.all.len(), offsets, rows, positions, set_of_cfg)
+}
+
+/// A rANS context codec's items (no decoder positions: its decoder keeps each lane's set).
+pub fn rans_context_items(plan: &CodecPlan, rows: &mut RowSets) -> TokenStream {
+    if plan.sets.len() <= 1 {
+        return TokenStream::new();
+    }
+    shared_context_items(
+        plan,
+        plan.sets.len(),
+        None,
+        rows,
+        TokenStream::new(),
+        TokenStream::new(),
+    )
+}
+
+/// The context items of both methods: the sets, the first symbol's set, each encoding
+/// row's set as a context, `context_set` and `set_of`; `extra` adds method items, and
+/// `set_of_cfg` says where `set_of` is used.
+fn shared_context_items(
+    plan: &CodecPlan,
+    sets: usize,
+    offsets: Option<Offsets<'_>>,
+    rows: &mut RowSets,
+    extra: TokenStream,
+    set_of_cfg: TokenStream,
+) -> TokenStream {
     let kind = plan.spec.kind.as_ref();
-    let count = Literal::usize_unsuffixed(sets.all.len());
-    let first = Literal::usize_unsuffixed(sets.next_set(crate::context::FIRST_CONTEXT as u16));
+    let next_set = |s: u16| {
+        plan.set_of
+            .get(usize::from(s))
+            .map_or(0, |&x| usize::from(x))
+    };
+    let count = Literal::usize_unsuffixed(sets);
+    let first = Literal::usize_unsuffixed(next_set(crate::context::FIRST_CONTEXT as u16));
     let put_len = Literal::usize_unsuffixed(plan.put_rows().0);
     let row_sets = rows.add(input::put_rows(kind, &plan.input, 16, |line, row| {
-        push_number(line, row.map_or(0, |s| sets.next_set(s as u16) as u64));
+        push_number(line, row.map_or(0, |s| next_set(s as u16) as u64));
         line.push_str(", ");
     }));
     let row = match offsets {
@@ -904,7 +946,7 @@ fn context_items(
     } else {
         quote! {
             /// The table set that context symbol `symbol` chooses.
-            #[cfg(not(target_pointer_width = "64"))]
+            #set_of_cfg
             #[inline(always)]
             fn set_of(symbol: Symbol) -> usize {
                 usize::from(ROW_SET[#row]) & (SETS - 1)
@@ -918,13 +960,10 @@ fn context_items(
     quote! {
         /// Table sets: a symbol's lane's previous symbol chooses which codes it.
         pub const SETS: usize = #count;
-        /// Positions of every set's table, the decoder's state.
-        const POSITIONS: usize = SETS * TABLE_LEN;
-        const POSITION_MASK: usize = POSITIONS - 1;
         #[doc = #first_label]
         const FIRST_SET: usize = #first;
-        /// Where the first set's positions start.
-        const FIRST_BASE: usize = FIRST_SET << TABLE_BITS;
+
+        #extra
 
         /// The table set each encoding row's symbol chooses for its lane's next symbol.
         static ROW_SET: [u8; #put_len] = #row_sets;

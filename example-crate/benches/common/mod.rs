@@ -289,6 +289,7 @@ codec_list! {
     field_notes_rans_l4: FieldNotes bytes "rans" 4;
     field_notes_rans_l8: FieldNotes bytes "rans" 8;
     field_notes_ctx_tans_l1: FieldNotes bytes "tans, contexts" 1;
+    field_notes_ctx_rans_l1: FieldNotes bytes "rans, contexts" 1;
 }
 
 /// miniz_oxide raw deflate with the Huffman-only strategy (no match search), compressor and
