@@ -1183,14 +1183,14 @@ pub mod level_delta {
     /// The value the first difference is taken from.
     const REFERENCE: Symbol = 0;
     /// Values in the range: differences wrap modulo it.
-    const SIZE: i64 = 8192;
+    const SIZE: i32 = 8192;
     /// The smallest difference coded: the places are `difference - CODED_LO`.
-    const CODED_LO: i64 = -4096;
+    const CODED_LO: i32 = -4096;
     /// The place of `v` after `before`: their difference wrapped into
     /// `CODED_LO .. CODED_LO + SIZE`, less `CODED_LO`. Both are in the range.
     #[inline(always)]
     fn place(v: Symbol, before: Symbol) -> u32 {
-        let mut t = i64::from(v) - i64::from(before) - CODED_LO;
+        let mut t = i32::from(v) - i32::from(before) - CODED_LO;
         if t < 0 {
             t += SIZE;
         }
@@ -1207,14 +1207,25 @@ pub mod level_delta {
             None => REFERENCE,
         }
     }
+    /// Places back to values, each after the one before (`before` before the first);
+    /// returns the last. Out of line: it runs once a stream.
+    #[inline(never)]
+    fn undelta(values: &mut [Symbol], before: Symbol) -> Symbol {
+        let mut before = before;
+        for slot in values.iter_mut() {
+            before = value(*slot, before);
+            *slot = before;
+        }
+        before
+    }
     /// The value of place `u` (as decoded, in `Symbol`'s bits) after `before`:
     /// `before` plus the difference, wrapped back into the range.
     #[inline(always)]
     fn value(u: Symbol, before: Symbol) -> Symbol {
-        let t = i64::from(before) + i64::from(u) + CODED_LO;
-        let t = if t > i64::from(HIGHEST) {
+        let t = i32::from(before) + i32::from(u) + CODED_LO;
+        let t = if t > i32::from(HIGHEST) {
             t - SIZE
-        } else if t < i64::from(LOWEST) {
+        } else if t < i32::from(LOWEST) {
             t + SIZE
         } else {
             t
@@ -1237,6 +1248,11 @@ pub mod level_delta {
         let start = BIN_START.get(row).copied().unwrap_or(0);
         let width = BIN_WIDTH.get(row).copied().unwrap_or(0);
         (row, u.wrapping_sub(start), u32::from(width))
+    }
+    /// [`bin`] out of line, for the lanes' last symbols.
+    #[inline(never)]
+    fn bin_once(u: u32) -> (usize, u32, u32) {
+        bin(u)
     }
     /// The lane's starting state for a last symbol of encoding row `row`: the copy of
     /// it the encoder reaches from state `L` (that symbol then costs no state bits).
@@ -1453,16 +1469,25 @@ pub mod level_delta {
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
                 state[(n - used + i) % LANES] = first_state(
-                    bin(place(last, previous(input, n - used + i))).0,
+                    {
+                        let (row, offset, width) = bin_once(
+                            place(last, previous(input, n - used + i)),
+                        );
+                        (if row < BINS { row } else { 0 }, offset, width)
+                    }
+                        .0,
                 );
             }
             let mut acc: u64 = 0;
             let mut pending: u32 = 0;
             let (rounds, rest) = head.as_chunks::<ENCODE_ROUND>();
             for (i, &symbol) in tail.iter().enumerate().rev() {
-                let (_, offset, width) = bin(
-                    place(symbol, previous(input, n - used + i)),
-                );
+                let (_, offset, width) = {
+                    let (row, offset, width) = bin_once(
+                        place(symbol, previous(input, n - used + i)),
+                    );
+                    (if row < BINS { row } else { 0 }, offset, width)
+                };
                 acc = acc.wrapping_shl(width) | u64::from(offset);
                 pending += width;
                 store(out, &mut pos, acc, &mut pending)?;
@@ -1619,16 +1644,31 @@ pub mod level_delta {
                         take(payload, &mut at, u32::from(WIDTHS[p])) as Symbol,
                     );
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                let p = state[(count - used + i) % LANES] & MASK;
-                let width = u32::from(WIDTHS[p]);
-                *slot = step(p).0.wrapping_add(take(payload, &mut at, width) as Symbol);
+            /// The lanes' last symbols, from their final states (`first` is the first's
+            /// index): they read no state bits, and their offsets come last. Out of
+            /// line: it runs once a stream. Returns the bit after the offsets.
+            #[inline(never)]
+            #[allow(clippy::modulo_one)]
+            fn tail_values(
+                tail: &mut [Symbol],
+                state: &[usize; LANES],
+                payload: &[u8],
+                at: usize,
+                first: usize,
+            ) -> usize {
+                let mut at = at;
+                for (i, slot) in tail.iter_mut().enumerate() {
+                    let p = state[first.wrapping_add(i) % LANES] & MASK;
+                    let width = u32::from(WIDTHS[p]);
+                    *slot = step(p)
+                        .0
+                        .wrapping_add(take(payload, &mut at, width) as Symbol);
+                }
+                at
             }
-            let mut before = REFERENCE;
-            for slot in head.iter_mut().chain(tail.iter_mut()) {
-                before = value(*slot, before);
-                *slot = before;
-            }
+            at = tail_values(tail, &state, payload, at, count - used);
+            let before = undelta(head, REFERENCE);
+            undelta(tail, before);
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
                 return Err(Error::TrailingBytes);
@@ -1671,8 +1711,8 @@ pub mod level_delta {
         /// Most bits one step pushes: a symbol, or a lane's final state. The encoder's bit
         /// buffer holds a marker bit above its pending bits; at or above
         /// `1 << (32 - MOST)` fewer than `MOST` bits are free, and it is flushed.
-        const MOST: u32 = if MAX_STATE_BITS > TABLE_BITS {
-            MAX_STATE_BITS
+        const MOST: u32 = if MAX_STATE_BITS + MAX_OFFSET_BITS > TABLE_BITS {
+            MAX_STATE_BITS + MAX_OFFSET_BITS
         } else {
             TABLE_BITS
         };
@@ -1754,7 +1794,7 @@ pub mod level_delta {
             fn one(&mut self, writer: &mut Writer<'_>, symbol: Symbol, before: Symbol) {
                 let lane = self.lane % LANES;
                 let (row, offset, width) = bin(place(symbol, before));
-                self.acc = put_offset(writer, self.acc, offset, width);
+                self.acc = put_offset(self.acc, offset, width);
                 let x = self.state[lane];
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
@@ -1796,7 +1836,7 @@ pub mod level_delta {
             #[inline(always)]
             #[allow(clippy::modulo_one)]
             fn one(&mut self, reader: &mut Reader<'_>, slot: &mut Symbol) {
-                if self.buf < 1 << MAX_STATE_BITS {
+                if self.buf < 1 << (MAX_STATE_BITS + MAX_OFFSET_BITS) {
                     self.buf = reader.refill(self.buf);
                 }
                 let lane = self.lane % LANES;
@@ -1804,7 +1844,9 @@ pub mod level_delta {
                 let (symbol, bits, base) = step(p);
                 self.state[lane] = base + (self.buf & !(u32::MAX << bits)) as usize;
                 self.buf >>= bits;
-                let offset = self.offset(reader, u32::from(WIDTHS[p]));
+                let width = u32::from(WIDTHS[p]);
+                let offset = self.buf & !u32::MAX.wrapping_shl(width);
+                self.buf = self.buf.wrapping_shr(width);
                 *slot = symbol.wrapping_add(offset as Symbol);
                 self.lane = (lane + 1) % LANES;
             }
@@ -1857,16 +1899,17 @@ pub mod level_delta {
             let mut state = [TABLE_LEN as u32; LANES];
             for (i, &last) in tail.iter().enumerate() {
                 state[(n - used + i) % LANES] = first_state(
-                    bin(place(last, previous(input, n - used + i))).0,
+                    {
+                        let (row, offset, width) = bin_once(
+                            place(last, previous(input, n - used + i)),
+                        );
+                        (if row < BINS { row } else { 0 }, offset, width)
+                    }
+                        .0,
                 );
             }
             let mut acc: u32 = 1;
-            for (i, &symbol) in tail.iter().enumerate().rev() {
-                let (_, offset, width) = bin(
-                    place(symbol, previous(input, n - used + i)),
-                );
-                acc = put_offset(&mut writer, acc, offset, width);
-            }
+            acc = tail_offsets(&mut writer, input, n - used, acc);
             let mut e = Encoding {
                 acc,
                 state,
@@ -1941,16 +1984,31 @@ pub mod level_delta {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let mut at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                let p = state[(count - used + i) % LANES] & MASK;
-                let width = u32::from(WIDTHS[p]);
-                *slot = step(p).0.wrapping_add(take(payload, &mut at, width) as Symbol);
+            /// The lanes' last symbols, from their final states (`first` is the first's
+            /// index): they read no state bits, and their offsets come last. Out of
+            /// line: it runs once a stream. Returns the bit after the offsets.
+            #[inline(never)]
+            #[allow(clippy::modulo_one)]
+            fn tail_values(
+                tail: &mut [Symbol],
+                state: &[usize; LANES],
+                payload: &[u8],
+                at: usize,
+                first: usize,
+            ) -> usize {
+                let mut at = at;
+                for (i, slot) in tail.iter_mut().enumerate() {
+                    let p = state[first.wrapping_add(i) % LANES] & MASK;
+                    let width = u32::from(WIDTHS[p]);
+                    *slot = step(p)
+                        .0
+                        .wrapping_add(take(payload, &mut at, width) as Symbol);
+                }
+                at
             }
-            let mut before = REFERENCE;
-            for slot in head.iter_mut().chain(tail.iter_mut()) {
-                before = value(*slot, before);
-                *slot = before;
-            }
+            at = tail_values(tail, &state, payload, at, count - used);
+            let before = undelta(head, REFERENCE);
+            undelta(tail, before);
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
                 return Err(Error::TrailingBytes);
@@ -1968,66 +2026,48 @@ pub mod level_delta {
         fn peek(data: &[u8], at: usize) -> u32 {
             word(data, at >> 3) >> (at & 7)
         }
-        /// Most bits a symbol's state step costs (its offset bits aside).
-        const MAX_STATE_BITS: u32 = 7;
-        /// Pushes `width` (at most 32) offset bits under the pending bits of
-        /// `acc`, high piece first, in pieces of at most 16, flushing so that
-        /// each fits and `MOST` bits stay free after.
-        #[inline(always)]
-        fn put_offset(
+        /// The offsets of the lanes' last symbols (from input index `first`),
+        /// which end the stream. Out of line: it runs once a stream.
+        #[inline(never)]
+        fn tail_offsets(
             writer: &mut Writer<'_>,
+            input: &[Symbol],
+            first: usize,
             acc: u32,
-            offset: u32,
-            width: u32,
         ) -> u32 {
-            let low = if width < 16 { width } else { 16 };
-            let high = width.wrapping_sub(low);
             let mut acc = acc;
-            if acc >> 16 != 0 {
-                acc = writer.flush(acc);
-            }
-            acc = acc.wrapping_shl(high)
-                | (offset.wrapping_shr(low) & !u32::MAX.wrapping_shl(high));
-            if acc >> 16 != 0 {
-                acc = writer.flush(acc);
-            }
-            acc = acc.wrapping_shl(low) | (offset & !u32::MAX.wrapping_shl(low));
-            if acc >> (32 - MOST) != 0 {
-                acc = writer.flush(acc);
+            let tail = input.get(first..).unwrap_or_default();
+            for (i, &symbol) in tail.iter().enumerate().rev() {
+                let (_, offset, width) = {
+                    let (row, offset, width) = bin_once(
+                        place(symbol, previous(input, first + i)),
+                    );
+                    (if row < BINS { row } else { 0 }, offset, width)
+                };
+                acc = put_offset(acc, offset, width);
+                if acc >> (32 - MOST) != 0 {
+                    acc = writer.flush(acc);
+                }
             }
             acc
         }
-        /// `width` (at most 32) offset bits at bit `at` of the payload, in two
-        /// reads of at most 16 (`peek` holds 25 bits or more).
+        /// Most bits a symbol's state step costs (its offset bits aside).
+        const MAX_STATE_BITS: u32 = 7;
+        /// Most offset bits after a symbol.
+        const MAX_OFFSET_BITS: u32 = 11;
+        /// Pushes `width` (at most `MAX_OFFSET_BITS`) offset bits under the
+        /// pending bits of `acc`, which has room for them.
+        #[inline(always)]
+        fn put_offset(acc: u32, offset: u32, width: u32) -> u32 {
+            acc.wrapping_shl(width) | (offset & !u32::MAX.wrapping_shl(width))
+        }
+        /// `width` (at most `MAX_OFFSET_BITS`) offset bits at bit `at` of the
+        /// payload (`peek` holds 25 bits or more).
         #[inline(always)]
         fn take(payload: &[u8], at: &mut usize, width: u32) -> u32 {
-            let low = if width < 16 { width } else { 16 };
-            let high = width.wrapping_sub(low);
-            let a = peek(payload, *at) & !u32::MAX.wrapping_shl(low);
-            *at = at.wrapping_add(low as usize);
-            let b = peek(payload, *at) & !u32::MAX.wrapping_shl(high);
-            *at = at.wrapping_add(high as usize);
-            a | b.wrapping_shl(low)
-        }
-        impl Decoding {
-            /// The next `width` (at most 32) bits of the stream, in pieces
-            /// of at most 16, refilling the buffer as it must.
-            #[inline(always)]
-            fn offset(&mut self, reader: &mut Reader<'_>, width: u32) -> u32 {
-                let low = if width < 16 { width } else { 16 };
-                let high = width.wrapping_sub(low);
-                if self.buf < 1 << 16 {
-                    self.buf = reader.refill(self.buf);
-                }
-                let a = self.buf & !u32::MAX.wrapping_shl(low);
-                self.buf = self.buf.wrapping_shr(low);
-                if self.buf < 1 << 16 {
-                    self.buf = reader.refill(self.buf);
-                }
-                let b = self.buf & !u32::MAX.wrapping_shl(high);
-                self.buf = self.buf.wrapping_shr(high);
-                a | b.wrapping_shl(low)
-            }
+            let bits = peek(payload, *at) & !u32::MAX.wrapping_shl(width);
+            *at = at.wrapping_add(width as usize);
+            bits
         }
     }
     /// The bit buffer's word: the target's register.
@@ -2354,11 +2394,11 @@ pub mod field_notes {
     pub const MAX_SYMBOL_BITS: u32 = 7;
     /// Table sets: a symbol's lane's previous symbol chooses which codes it.
     pub const SETS: usize = 4;
+    /// The set of a lane's first symbol: that of the context byte 97 ('a'), the alphabet's first symbol.
+    const FIRST_SET: usize = 0;
     /// Positions of every set's table, the decoder's state.
     const POSITIONS: usize = SETS * TABLE_LEN;
     const POSITION_MASK: usize = POSITIONS - 1;
-    /// The set of a lane's first symbol: that of the context byte 97 ('a'), the alphabet's first symbol.
-    const FIRST_SET: usize = 0;
     /// Where the first set's positions start.
     const FIRST_BASE: usize = FIRST_SET << TABLE_BITS;
     /// The table set each encoding row's symbol chooses for its lane's next symbol.
@@ -2387,6 +2427,12 @@ pub mod field_notes {
             }
             None => FIRST_SET,
         }
+    }
+    /// The table set that context symbol `symbol` chooses.
+    #[cfg(not(target_pointer_width = "64"))]
+    #[inline(always)]
+    fn set_of(symbol: Symbol) -> usize {
+        usize::from(ROW_SET[usize::from(symbol).min(123)]) & (SETS - 1)
     }
     /// Largest stream [`encode`] writes for `symbols` symbols, whatever they are.
     pub const fn max_encoded_len(symbols: usize) -> usize {
@@ -2992,9 +3038,13 @@ pub mod field_notes {
                     state: self.state,
                     ..*self
                 };
-                for k in (0..input.len()).rev() {
-                    if let Some(&symbol) = input.get(k) {
-                        e.one(writer, symbol, context_set(input, k));
+                let split = if input.len() < LANES { input.len() } else { LANES };
+                if let Some((firsts, rest)) = input.split_at_checked(split) {
+                    for (&symbol, &context) in rest.iter().zip(input).rev() {
+                        e.one(writer, symbol, set_of(context));
+                    }
+                    for &symbol in firsts.iter().rev() {
+                        e.one(writer, symbol, FIRST_SET);
                     }
                 }
                 *self = e;

@@ -4968,7 +4968,7 @@ pub mod five_rans {
     /// slot, the slot's place in the symbol's range and the symbol's slot count
     /// (a `u32`, so that an entry is 8 bytes and its index scales by a shift).
     struct Step(Symbol, u16, u32);
-    /// Decode steps by slot.
+    /// Decode steps by slot (with several table sets, each set's in turn).
     static DECODE: [Step; TABLE_LEN] = [
         Step(Symbol::A, 0, 16), Step(Symbol::A, 1, 16), Step(Symbol::A, 2, 16), Step(Symbol::A, 3, 16), Step(Symbol::A, 4, 16), Step(Symbol::A, 5, 16), Step(Symbol::A, 6, 16), Step(Symbol::A, 7, 16), // 0
         Step(Symbol::A, 8, 16), Step(Symbol::A, 9, 16), Step(Symbol::A, 10, 16), Step(Symbol::A, 11, 16), Step(Symbol::A, 12, 16), Step(Symbol::A, 13, 16), Step(Symbol::A, 14, 16), Step(Symbol::A, 15, 16), // 8
@@ -4995,7 +4995,7 @@ pub mod five_rans {
         gap: u16,
         shift: u8,
     }
-    /// Encoding records, indexed by input value.
+    /// Encoding records, indexed by input value (with several table sets, by set first).
     static PUTS: [Put; 5] = [
         Put { reciprocal: 0, ceiling: 1073741823, start: 0, gap: 48, shift: 4 }, // a
         Put { reciprocal: 0, ceiling: 1073741823, start: 16, gap: 48, shift: 4 }, // b
