@@ -546,8 +546,8 @@ pub mod gauge_status {
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
@@ -556,7 +556,7 @@ pub mod gauge_status {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::Truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, stream.len()))
@@ -843,8 +843,8 @@ pub mod gauge_status {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
@@ -853,7 +853,7 @@ pub mod gauge_status {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::Truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, stream.len()))
@@ -1002,7 +1002,8 @@ pub mod gauge_status {
         if id != CHECK {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 1;
         loop {
@@ -1013,7 +1014,12 @@ pub mod gauge_status {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -1022,10 +1028,10 @@ pub mod gauge_status {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 64] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 128] = [(); ::core::mem::size_of_val(&STEPS)];
@@ -1676,7 +1682,7 @@ pub mod level_delta {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::Truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, stream.len()))
@@ -2016,7 +2022,7 @@ pub mod level_delta {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::Truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, stream.len()))
@@ -2212,7 +2218,8 @@ pub mod level_delta {
         if id != CHECK {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 1;
         loop {
@@ -2223,7 +2230,12 @@ pub mod level_delta {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -2232,10 +2244,10 @@ pub mod level_delta {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 256] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 256] = [(); ::core::mem::size_of_val(&STEPS)];
@@ -2930,8 +2942,8 @@ pub mod field_notes {
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & POSITION_MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & POSITION_MASK).0;
             }
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
@@ -2940,7 +2952,7 @@ pub mod field_notes {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::Truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, stream.len()))
@@ -3243,8 +3255,8 @@ pub mod field_notes {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & POSITION_MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & POSITION_MASK).0;
             }
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
@@ -3253,7 +3265,7 @@ pub mod field_notes {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::Truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, stream.len()))
@@ -3430,7 +3442,8 @@ pub mod field_notes {
         if id != CHECK {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 1;
         loop {
@@ -3441,7 +3454,12 @@ pub mod field_notes {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -3450,10 +3468,10 @@ pub mod field_notes {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 512] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 1024] = [(); ::core::mem::size_of_val(&STEPS)];
@@ -4049,8 +4067,8 @@ pub mod field_notes_order0 {
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
@@ -4059,7 +4077,7 @@ pub mod field_notes_order0 {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::Truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, stream.len()))
@@ -4360,8 +4378,8 @@ pub mod field_notes_order0 {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
@@ -4370,7 +4388,7 @@ pub mod field_notes_order0 {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::Truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, stream.len()))
@@ -4531,7 +4549,8 @@ pub mod field_notes_order0 {
         if id != CHECK {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 1;
         loop {
@@ -4542,7 +4561,12 @@ pub mod field_notes_order0 {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -4551,10 +4575,10 @@ pub mod field_notes_order0 {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 256] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 512] = [(); ::core::mem::size_of_val(&STEPS)];

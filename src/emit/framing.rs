@@ -253,7 +253,10 @@ fn header_items(framing: Framing) -> TokenStream {
         /// Header: (symbol count, header length).
         fn read_header(stream: &[u8]) -> Result<(usize, usize), Error> {
             #check_id
-            let mut count: u64 = 0;
+            // Read in `usize` (32-bit cores need no register pairs); a count that does not
+            // fit is refused once the number ends, as a 64-bit reading would.
+            let mut count: usize = 0;
+            let mut wide = false;
             let mut shift = 0u32;
             let mut pos = #id_len;
             loop {
@@ -264,7 +267,14 @@ fn header_items(framing: Framing) -> TokenStream {
                 if shift > 63 || (shift == 63 && b > 1) {
                     return Err(Error::BadLength);
                 }
-                count |= u64::from(b & 0x7f) << shift;
+                let chunk = usize::from(b & 0x7f);
+                let part = if shift < usize::BITS {
+                    chunk.wrapping_shl(shift)
+                } else {
+                    0
+                };
+                wide |= part.wrapping_shr(shift) != chunk || (shift >= usize::BITS && chunk != 0);
+                count |= part;
                 if b & 0x80 == 0 {
                     if b == 0 && shift > 0 {
                         return Err(Error::BadLength);
@@ -273,10 +283,10 @@ fn header_items(framing: Framing) -> TokenStream {
                 }
                 shift += 7;
             }
-            match usize::try_from(count) {
-                Ok(count) => Ok((count, pos)),
-                Err(_) => Err(Error::BadLength),
+            if wide {
+                return Err(Error::BadLength);
             }
+            Ok((count, pos))
         }
     }
 }

@@ -293,6 +293,12 @@ pub fn body(
         };
     };
     let decode_tail = match offsets {
+        // One lane: one slot at most (a loop here becomes a `memset` call).
+        None if plan.spec.lanes == 1 => quote! {
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & #pm).0;
+            }
+        },
         None => quote! {
             for (i, slot) in tail.iter_mut().enumerate() {
                 *slot = step(state[(count - used + i) % LANES] & #pm).0;
@@ -678,7 +684,8 @@ fn end_check(framing: &FramingTokens) -> TokenStream {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(#truncated);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            // The bits after the last one read, all in the last byte: zeros.
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(#corrupt);
             }
             Ok((count, stream.len()))
@@ -688,7 +695,8 @@ fn end_check(framing: &FramingTokens) -> TokenStream {
             if at > payload.len().saturating_mul(8) {
                 return Err(#truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            // The rest of the last byte read is zero padding (one byte: no word near the end).
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(#corrupt);
             }
             Ok((count, header + at.div_ceil(8)))

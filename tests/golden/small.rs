@@ -567,13 +567,13 @@ pub mod mit_text {
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -865,13 +865,13 @@ pub mod mit_text {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -1046,7 +1046,8 @@ pub mod mit_text {
         if u16::from_le_bytes(id) != FINGERPRINT {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 2;
         loop {
@@ -1057,7 +1058,12 @@ pub mod mit_text {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -1066,10 +1072,10 @@ pub mod mit_text {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 512] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 1024] = [(); ::core::mem::size_of_val(&STEPS)];
@@ -1499,13 +1505,13 @@ pub mod five {
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -1783,13 +1789,13 @@ pub mod five {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -1936,7 +1942,8 @@ pub mod five {
         if u16::from_le_bytes(id) != FINGERPRINT {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 2;
         loop {
@@ -1947,7 +1954,12 @@ pub mod five {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -1956,10 +1968,10 @@ pub mod five {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 64] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 128] = [(); ::core::mem::size_of_val(&STEPS)];
@@ -2380,13 +2392,13 @@ pub mod skewed {
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -2664,13 +2676,13 @@ pub mod skewed {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -2821,7 +2833,8 @@ pub mod skewed {
         if u16::from_le_bytes(id) != FINGERPRINT {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 2;
         loop {
@@ -2832,7 +2845,12 @@ pub mod skewed {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -2841,10 +2859,10 @@ pub mod skewed {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 128] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 256] = [(); ::core::mem::size_of_val(&STEPS)];
@@ -3230,13 +3248,13 @@ pub mod single {
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -3506,13 +3524,13 @@ pub mod single {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -3656,7 +3674,8 @@ pub mod single {
         if u16::from_le_bytes(id) != FINGERPRINT {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 2;
         loop {
@@ -3667,7 +3686,12 @@ pub mod single {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -3676,10 +3700,10 @@ pub mod single {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 2] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 4] = [(); ::core::mem::size_of_val(&STEPS)];
@@ -4161,8 +4185,8 @@ pub mod five_bare {
                 *x = base + (peek(payload, at) & !(u64::MAX << bits)) as usize;
                 at += bits as usize;
             }
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
@@ -4171,7 +4195,7 @@ pub mod five_bare {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::CountMismatch);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::CountMismatch);
             }
             Ok((count, stream.len()))
@@ -4452,8 +4476,8 @@ pub mod five_bare {
             d.run(&mut reader, head);
             let Decoding { buf, state, .. } = d;
             let at = reader.at(buf);
-            for (i, slot) in tail.iter_mut().enumerate() {
-                *slot = step(state[(count - used + i) % LANES] & MASK).0;
+            if let Some(slot) = tail.first_mut() {
+                *slot = step(state[0] & MASK).0;
             }
             let len = payload.len().saturating_mul(8);
             if at.saturating_add(8) <= len {
@@ -4462,7 +4486,7 @@ pub mod five_bare {
             if at > len.saturating_add(PAST_END_BITS) {
                 return Err(Error::CountMismatch);
             }
-            if at < len && peek(payload, at) & !(Word::MAX << (len - at)) != 0 {
+            if at < len && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::CountMismatch);
             }
             Ok((count, stream.len()))
@@ -5037,7 +5061,8 @@ pub mod five_rans {
         if u16::from_le_bytes(id) != FINGERPRINT {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 2;
         loop {
@@ -5048,7 +5073,12 @@ pub mod five_rans {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -5057,10 +5087,10 @@ pub mod five_rans {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 512] = [(); ::core::mem::size_of_val(&DECODE)];
     const _: [(); 80] = [(); ::core::mem::size_of_val(&PUTS)];
@@ -5485,7 +5515,7 @@ pub mod skewed_l8 {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -5769,7 +5799,7 @@ pub mod skewed_l8 {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if peek(payload, at) & !(Word::MAX << ((8 - at % 8) % 8)) != 0 {
+            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -5920,7 +5950,8 @@ pub mod skewed_l8 {
         if u16::from_le_bytes(id) != FINGERPRINT {
             return Err(Error::WrongCodec);
         }
-        let mut count: u64 = 0;
+        let mut count: usize = 0;
+        let mut wide = false;
         let mut shift = 0u32;
         let mut pos = 2;
         loop {
@@ -5931,7 +5962,12 @@ pub mod skewed_l8 {
             if shift > 63 || (shift == 63 && b > 1) {
                 return Err(Error::BadLength);
             }
-            count |= u64::from(b & 0x7f) << shift;
+            let chunk = usize::from(b & 0x7f);
+            let part = if shift < usize::BITS { chunk.wrapping_shl(shift) } else { 0 };
+            wide
+                |= part.wrapping_shr(shift) != chunk
+                    || (shift >= usize::BITS && chunk != 0);
+            count |= part;
             if b & 0x80 == 0 {
                 if b == 0 && shift > 0 {
                     return Err(Error::BadLength);
@@ -5940,10 +5976,10 @@ pub mod skewed_l8 {
             }
             shift += 7;
         }
-        match usize::try_from(count) {
-            Ok(count) => Ok((count, pos)),
-            Err(_) => Err(Error::BadLength),
+        if wide {
+            return Err(Error::BadLength);
         }
+        Ok((count, pos))
     }
     const _: [(); 128] = [(); ::core::mem::size_of_val(&SYMBOLS)];
     const _: [(); 256] = [(); ::core::mem::size_of_val(&STEPS)];
