@@ -696,7 +696,7 @@ fn end_check(framing: &FramingTokens) -> TokenStream {
                 return Err(#truncated);
             }
             // The rest of the last byte read is zero padding (one byte: no word near the end).
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(#corrupt);
             }
             Ok((count, header + at.div_ceil(8)))

@@ -573,7 +573,7 @@ pub mod mit_text {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -871,7 +871,7 @@ pub mod mit_text {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -1511,7 +1511,7 @@ pub mod five {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -1795,7 +1795,7 @@ pub mod five {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -2398,7 +2398,7 @@ pub mod skewed {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -2682,7 +2682,7 @@ pub mod skewed {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -3254,7 +3254,7 @@ pub mod single {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -3530,7 +3530,7 @@ pub mod single {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -5515,7 +5515,7 @@ pub mod skewed_l8 {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
@@ -5799,7 +5799,7 @@ pub mod skewed_l8 {
             if at > payload.len().saturating_mul(8) {
                 return Err(Error::Truncated);
             }
-            if at % 8 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at % 8) != 0) {
+            if at & 7 != 0 && payload.get(at / 8).is_some_and(|&b| b >> (at & 7) != 0) {
                 return Err(Error::Corrupt);
             }
             Ok((count, header + at.div_ceil(8)))
