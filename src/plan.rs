@@ -273,7 +273,7 @@ fn context_sets(
     if model.sequences.iter().all(|s| s.symbols.is_empty()) {
         return Err(Error::input(
             Some(spec.location.clone()),
-            "context = \"previous\" learns from sequences: give `samples` or `text`, not only counts",
+            "context = \"previous\" learns from sequences of symbols, and the samples and text hold none (counts carry no order): give `samples` or `text`",
         ));
     }
     let lanes = lane_sequences(model, spec.lanes as usize);
