@@ -671,13 +671,22 @@ pub mod gauge_status {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
                 let x = self.state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                self.acc = ((self.acc ^ high) << bits) ^ x;
-                self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
-                if self.acc >> (32 - MOST) != 0 {
-                    self.acc = writer.flush(self.acc);
+                let put = u32::from_le_bytes(PUT[row]);
+                let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
+                let run = (put >> 16) as usize;
+                if bits == 0 {
+                    self.state[lane] = u32::from(NEXT_STATE[(x as usize + run) & MASK]);
+                } else {
+                    let high = x >> bits;
+                    self.state[lane] = u32::from(
+                        NEXT_STATE[(high as usize + run) & MASK],
+                    );
+                    self.acc = ((self.acc ^ high) << bits) ^ x;
+                    if self.acc >> (32 - MOST) != 0 {
+                        self.acc = writer.flush(self.acc);
+                    }
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
@@ -1805,10 +1814,10 @@ pub mod level_delta {
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
                 self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
                     self.acc = writer.flush(self.acc);
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
@@ -3074,10 +3083,10 @@ pub mod field_notes {
                 let (bits, high, next) = put_symbol(x, set, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
                 self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
                     self.acc = writer.flush(self.acc);
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
@@ -4198,10 +4207,10 @@ pub mod field_notes_order0 {
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
                 self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
                     self.acc = writer.flush(self.acc);
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.

@@ -207,6 +207,33 @@ impl<'a> Sets<'a> {
     }
 }
 
+/// Share of encoder steps that write no bits above which the 32-bit encoder branches around
+/// the bit push for them: a taken branch costs one instruction and saves four (the push and
+/// the flush test), an untaken one costs one; measured on the Cortex-M4 bench.
+const SILENT_SHARE: f64 = 0.5;
+
+/// The expected share of encoder steps that write no bits: symbol `s` with `q` slots writes
+/// none from state `x` when `x < 2q`, and with the states spread about as `1/x` over
+/// `[L, 2L)` that happens with probability `log2(2q / L)` (when `q > L/2`).
+fn silent_share(plan: &CodecPlan, sets: &Sets<'_>) -> f64 {
+    let Some(first) = sets.all.first() else {
+        return 0.0;
+    };
+    let l = first.table_len() as f64;
+    let p = plan.model.probabilities();
+    // With several sets, the least silent set decides.
+    sets.all
+        .iter()
+        .map(|t| {
+            t.slots
+                .iter()
+                .zip(&p)
+                .map(|(&q, &ps)| ps * crate::quantize::log2(2.0 * f64::from(q) / l).clamp(0.0, 1.0))
+                .sum::<f64>()
+        })
+        .fold(f64::INFINITY, f64::min)
+}
+
 /// The pieces both paths share.
 struct Parts<'a> {
     /// The decoder's start (header, count and padding checks, the lanes' first states) and
@@ -226,6 +253,11 @@ struct Parts<'a> {
     /// Most bits a state step reads.
     max_state_bits: u8,
     sets: &'a Sets<'a>,
+    /// Whether most encoder steps write no bits (a symbol owning most of the table): the
+    /// 32-bit encoder then skips the bit push and the flush test for them.
+    mostly_silent: bool,
+    /// Whether the encoding rows join `spend` and `run` in one word (`PUT`).
+    joined_put: bool,
 }
 
 pub fn body(
@@ -346,6 +378,8 @@ pub fn body(
         offsets,
         max_state_bits: tans_all.decode.iter().map(|e| e.bits).max().unwrap_or(0),
         sets: &sets,
+        mostly_silent: offsets.is_none() && silent_share(plan, &sets) >= SILENT_SHARE,
+        joined_put: tans.joined_put(),
     };
     let start_items = start_items(plan, &sets, input);
     let integer_items = offsets.map(|o| match o {
@@ -1941,6 +1975,37 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             )
         }
     };
+    // One encoder step. When most steps push no bits (one set, joined rows), a branch takes
+    // those around the push, the flush test and the shift that finds the copy number.
+    let put_step = if parts.mostly_silent && parts.joined_put && !many {
+        quote! {
+            let put = u32::from_le_bytes(PUT[row]);
+            let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
+            let run = (put >> 16) as usize;
+            if bits == 0 {
+                // No bits: the copy number is the state itself.
+                self.state[lane] = u32::from(NEXT_STATE[(x as usize + run) & MASK]);
+            } else {
+                let high = x >> bits;
+                self.state[lane] = u32::from(NEXT_STATE[(high as usize + run) & MASK]);
+                // `(acc << bits) | (x & mask)`, as `x ^ (high << bits)` is the low bits.
+                self.acc = ((self.acc ^ high) << bits) ^ x;
+                if self.acc >> (32 - MOST) != 0 {
+                    self.acc = writer.flush(self.acc);
+                }
+            }
+        }
+    } else {
+        quote! {
+            let (bits, high, next) = put_symbol(x, #sa row);
+            // `(acc << bits) | (x & mask)`, as `x ^ (high << bits)` is the low bits.
+            self.acc = ((self.acc ^ high) << bits) ^ x;
+            self.state[lane] = next;
+            if self.acc >> (32 - MOST) != 0 {
+                self.acc = writer.flush(self.acc);
+            }
+        }
+    };
     // Integers codecs read the lanes' last offsets after the loop: `at` moves on.
     let (acc_decl, at_decl) = if parts.offsets.is_some() {
         (
@@ -2041,14 +2106,8 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     #encode_bind
                     #encode_offset
                     let x = self.state[lane];
-                    let (bits, high, next) = put_symbol(x, #sa row);
-                    // `(acc << bits) | (x & mask)`, as `x ^ (high << bits)` is the low bits.
-                    self.acc = ((self.acc ^ high) << bits) ^ x;
-                    self.state[lane] = next;
+                    #put_step
                     self.lane = (lane + LANES - 1) % LANES;
-                    if self.acc >> (32 - MOST) != 0 {
-                        self.acc = writer.flush(self.acc);
-                    }
                 }
             }
 

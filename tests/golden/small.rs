@@ -694,10 +694,10 @@ pub mod mit_text {
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
                 self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
                     self.acc = writer.flush(self.acc);
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
@@ -1629,10 +1629,10 @@ pub mod five {
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
                 self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
                     self.acc = writer.flush(self.acc);
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
@@ -2513,13 +2513,22 @@ pub mod skewed {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
                 let x = self.state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                self.acc = ((self.acc ^ high) << bits) ^ x;
-                self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
-                if self.acc >> (32 - MOST) != 0 {
-                    self.acc = writer.flush(self.acc);
+                let put = u32::from_le_bytes(PUT[row]);
+                let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
+                let run = (put >> 16) as usize;
+                if bits == 0 {
+                    self.state[lane] = u32::from(NEXT_STATE[(x as usize + run) & MASK]);
+                } else {
+                    let high = x >> bits;
+                    self.state[lane] = u32::from(
+                        NEXT_STATE[(high as usize + run) & MASK],
+                    );
+                    self.acc = ((self.acc ^ high) << bits) ^ x;
+                    if self.acc >> (32 - MOST) != 0 {
+                        self.acc = writer.flush(self.acc);
+                    }
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
@@ -3369,13 +3378,22 @@ pub mod single {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
                 let x = self.state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                self.acc = ((self.acc ^ high) << bits) ^ x;
-                self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
-                if self.acc >> (32 - MOST) != 0 {
-                    self.acc = writer.flush(self.acc);
+                let put = u32::from_le_bytes(PUT[row]);
+                let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
+                let run = (put >> 16) as usize;
+                if bits == 0 {
+                    self.state[lane] = u32::from(NEXT_STATE[(x as usize + run) & MASK]);
+                } else {
+                    let high = x >> bits;
+                    self.state[lane] = u32::from(
+                        NEXT_STATE[(high as usize + run) & MASK],
+                    );
+                    self.acc = ((self.acc ^ high) << bits) ^ x;
+                    if self.acc >> (32 - MOST) != 0 {
+                        self.acc = writer.flush(self.acc);
+                    }
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
@@ -4313,10 +4331,10 @@ pub mod five_bare {
                 let (bits, high, next) = put_symbol(x, row);
                 self.acc = ((self.acc ^ high) << bits) ^ x;
                 self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
                 if self.acc >> (32 - MOST) != 0 {
                     self.acc = writer.flush(self.acc);
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
@@ -5630,13 +5648,22 @@ pub mod skewed_l8 {
                 let lane = self.lane % LANES;
                 let row = symbol as usize;
                 let x = self.state[lane];
-                let (bits, high, next) = put_symbol(x, row);
-                self.acc = ((self.acc ^ high) << bits) ^ x;
-                self.state[lane] = next;
-                self.lane = (lane + LANES - 1) % LANES;
-                if self.acc >> (32 - MOST) != 0 {
-                    self.acc = writer.flush(self.acc);
+                let put = u32::from_le_bytes(PUT[row]);
+                let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);
+                let run = (put >> 16) as usize;
+                if bits == 0 {
+                    self.state[lane] = u32::from(NEXT_STATE[(x as usize + run) & MASK]);
+                } else {
+                    let high = x >> bits;
+                    self.state[lane] = u32::from(
+                        NEXT_STATE[(high as usize + run) & MASK],
+                    );
+                    self.acc = ((self.acc ^ high) << bits) ^ x;
+                    if self.acc >> (32 - MOST) != 0 {
+                        self.acc = writer.flush(self.acc);
+                    }
                 }
+                self.lane = (lane + LANES - 1) % LANES;
             }
         }
         /// The decoder's running values, kept in registers by the symbol loop.
