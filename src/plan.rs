@@ -131,10 +131,14 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
         .map_err(in_codec)?;
         sizing = None;
     }
-    let (sets, set_of, contexts) = match spec.context_tables {
+    let pairs = match spec.context_tables {
+        Some(_) => Some(context_pairs(&spec, &model).map_err(in_codec)?),
+        None => None,
+    };
+    let (sets, set_of, contexts) = match (spec.context_tables, &pairs) {
         // With a budget and an open size, smaller tables may leave room for more sets: every
         // size from the order-0 choice down is tried, the least held-out price kept.
-        Some(most) if spec.flash_budget.is_some() && !spec.given.table_bits => {
+        (Some(most), Some(pairs)) if spec.flash_budget.is_some() && !spec.given.table_bits => {
             let smallest = crate::spec::smallest_table_bits(spec.kind.alphabet_len());
             let mut best: Option<(f64, u32, ContextSets)> = None;
             for bits in (smallest..=spec.table_bits).rev() {
@@ -142,8 +146,8 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
                 at.table_bits = bits;
                 let order0 = table_set(&at, &model.counts, &probabilities, bits, rows, absent)
                     .map_err(in_codec)?;
-                let tried =
-                    context_sets(&at, &model, order0, most, rows, absent).map_err(in_codec)?;
+                let tried = context_sets(&at, &model, pairs, order0, most, rows, absent)
+                    .map_err(in_codec)?;
                 let price = tried.2.price;
                 // Ties keep the larger tables (tried first).
                 if best.as_ref().is_none_or(|b| price < b.0) {
@@ -161,12 +165,12 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
                 None => (vec![set], Vec::new(), None),
             }
         }
-        Some(most) => {
+        (Some(most), Some(pairs)) => {
             let (sets, set_of, figures) =
-                context_sets(&spec, &model, set, most, rows, absent).map_err(in_codec)?;
+                context_sets(&spec, &model, pairs, set, most, rows, absent).map_err(in_codec)?;
             (sets, set_of, Some(figures))
         }
-        None => (vec![set], Vec::new(), None),
+        _ => (vec![set], Vec::new(), None),
     };
     // The fingerprint covers the context map and every table set.
     let mut identity = spec.kind.identity();
@@ -256,6 +260,40 @@ fn lane_sequences(model: &Model, lanes: usize) -> Vec<Vec<u16>> {
 /// A context codec's table sets, the set of each context symbol, and the figures.
 type ContextSets = (Vec<TableSet>, Vec<u8>, report::ContextFigures);
 
+/// The training data's pairs (context, symbol), counted once for every table size tried.
+struct Pairs {
+    /// Split into training and held-out blocks ([`context::split_pair_counts`]).
+    train: Vec<Vec<u64>>,
+    held: Vec<Vec<u64>>,
+    /// All of them.
+    all: Vec<Vec<u64>>,
+    /// H(X|Y) of `all`.
+    conditional: f64,
+}
+
+/// The pairs of a context codec's training sequences (each lane's previous symbol as the
+/// context); an error when the training data holds no sequence.
+fn context_pairs(spec: &CodecSpec, model: &Model) -> Result<Pairs> {
+    if model.sequences.iter().all(|s| s.symbols.is_empty()) {
+        return Err(Error::input(
+            Some(spec.location.clone()),
+            "context = \"previous\" learns from sequences of symbols, and the samples and text hold none (counts carry no order): give `samples` or `text`",
+        ));
+    }
+    let n = spec.kind.alphabet_len();
+    let lanes = lane_sequences(model, spec.lanes as usize);
+    let refs: Vec<&[u16]> = lanes.iter().map(Vec::as_slice).collect();
+    let (train, held) = context::split_pair_counts(&refs, n);
+    let all = context::pair_counts(&refs, n);
+    let conditional = context::conditional_entropy(&all);
+    Ok(Pairs {
+        train,
+        held,
+        all,
+        conditional,
+    })
+}
+
 /// A context codec's table sets: the contexts (each lane's previous symbol) grouped into at
 /// most `most` sets, a power of two, by [`context::cluster_where`] on a held-out split of
 /// the training sequences; each set's tables from the counts of its contexts. With a
@@ -263,6 +301,7 @@ type ContextSets = (Vec<TableSet>, Vec<u8>, report::ContextFigures);
 fn context_sets(
     spec: &CodecSpec,
     model: &Model,
+    pairs: &Pairs,
     order0: TableSet,
     most: u32,
     rows: usize,
@@ -270,26 +309,40 @@ fn context_sets(
 ) -> Result<ContextSets> {
     let n = spec.kind.alphabet_len();
     let table_bits = spec.table_bits;
-    if model.sequences.iter().all(|s| s.symbols.is_empty()) {
-        return Err(Error::input(
-            Some(spec.location.clone()),
-            "context = \"previous\" learns from sequences of symbols, and the samples and text hold none (counts carry no order): give `samples` or `text`",
-        ));
-    }
-    let lanes = lane_sequences(model, spec.lanes as usize);
-    let refs: Vec<&[u16]> = lanes.iter().map(Vec::as_slice).collect();
-    let (train, held) = context::split_pair_counts(&refs, n);
-    let all = context::pair_counts(&refs, n);
-    let conditional = context::conditional_entropy(&all);
-    // Powers of two, and positions of every set within 16 bits.
+    // Powers of two, and positions of every set within MAX_POSITION_BITS.
     let cap = 1u32 << MAX_POSITION_BITS.saturating_sub(table_bits).min(4);
     let mut most = (most.min(cap) as usize).max(1);
     most = 1 << most.ilog2();
     loop {
-        let c = context::cluster_where(&train, &held, most, table_bits, usize::is_power_of_two)?;
+        let c = context::cluster_where(
+            &pairs.train,
+            &pairs.held,
+            most,
+            table_bits,
+            usize::is_power_of_two,
+        )?;
+        // The sets' bytes depend on sizes alone: a budget is checked before any is built.
+        let bytes = combined_layout(&order0.layout, c.sets, rows, table_bits).bytes();
+        if c.sets > 1 && spec.flash_budget.is_some_and(|b| bytes > b) {
+            most = c.sets / 2;
+            continue;
+        }
         let mut set_of = c.set_of.clone();
         set_of.resize(n, 0);
-        let counts = context::set_counts(&all, &set_of, c.sets, n);
+        if c.sets == 1 {
+            // One set: the order-0 tables (sizing priced those); contexts do not pay.
+            let figures = report::ContextFigures::new(
+                spec,
+                &c,
+                &set_of,
+                &[(&model.counts, order0.rate)],
+                pairs.conditional,
+                order0.layout.bytes(),
+                most,
+            );
+            return Ok((vec![order0], Vec::new(), figures));
+        }
+        let counts = context::set_counts(&pairs.all, &set_of, c.sets, n);
         let mut sets = Vec::with_capacity(c.sets);
         // Each set's counts blended with CONTEXT_BLEND of the order-0 distribution (in
         // 64ths of a count), so that a pair the training data never showed stays cheap.
@@ -316,30 +369,17 @@ fn context_sets(
             };
             sets.push(table_set(spec, set_counts, &p, table_bits, rows, absent)?);
         }
-        let bytes = combined_layout(&sets[0].layout, sets.len(), rows, table_bits).bytes();
-        let fits = spec.flash_budget.is_none_or(|b| bytes <= b);
-        if c.sets > 1 && !fits {
-            most = c.sets / 2;
-            continue;
-        }
-        if c.sets == 1 {
-            // One set: the order-0 tables (sizing priced those); contexts do not pay.
-            let figures = report::ContextFigures::new(
-                spec,
-                &c,
-                &[(set_of.clone(), model.counts.clone(), order0.clone())],
-                conditional,
-                order0.layout.bytes(),
-                most,
-            );
-            return Ok((vec![order0], Vec::new(), figures));
-        }
-        let members: Vec<(Vec<u8>, Vec<u64>, TableSet)> = counts
-            .into_iter()
-            .zip(sets.iter().cloned())
-            .map(|(counts, set)| (set_of.clone(), counts, set))
-            .collect();
-        let figures = report::ContextFigures::new(spec, &c, &members, conditional, bytes, most);
+        let members: Vec<(&Vec<u64>, f64)> =
+            counts.iter().zip(sets.iter().map(|s| s.rate)).collect();
+        let figures = report::ContextFigures::new(
+            spec,
+            &c,
+            &set_of,
+            &members,
+            pairs.conditional,
+            bytes,
+            most,
+        );
         // The first set's layout is the codec's: every set's tables together.
         if let Some(first) = sets.first_mut() {
             first.layout = combined_layout(&order0.layout, c.sets, rows, table_bits);

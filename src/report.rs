@@ -107,7 +107,8 @@ impl ContextFigures {
     pub fn new(
         spec: &CodecSpec,
         c: &crate::context::Clustering,
-        members: &[(Vec<u8>, Vec<u64>, crate::plan::TableSet)],
+        set_of: &[u8],
+        members: &[(&Vec<u64>, f64)],
         conditional_entropy: f64,
         table_bytes: usize,
         most: usize,
@@ -115,21 +116,22 @@ impl ContextFigures {
         let kind = spec.kind.as_ref();
         let n = kind.alphabet_len();
         let mut column = vec![0u64; n];
+        // `members`: each set's counts and rate; `set_of`: each context's set.
         let sets = members
             .iter()
             .enumerate()
-            .map(|(j, (set_of, counts, set))| {
+            .map(|(j, &(counts, rate))| {
                 for (t, &x) in column.iter_mut().zip(counts) {
                     *t = t.saturating_add(x);
                 }
                 SetFigures {
                     contexts: (0..n)
-                        .filter(|&ctx| members.len() == 1 || usize::from(set_of[ctx]) == j)
+                        .filter(|&ctx| set_of.get(ctx).map_or(0, |&s| usize::from(s)) == j)
                         .map(|ctx| kind.label(ctx))
                         .collect(),
                     symbols: counts.iter().fold(0u64, |a, &x| a.saturating_add(x)),
                     entropy: entropy(counts),
-                    rate: set.rate,
+                    rate,
                 }
             })
             .collect();

@@ -2041,8 +2041,8 @@ pub mod level_delta {
         fn peek(data: &[u8], at: usize) -> u32 {
             word(data, at >> 3) >> (at & 7)
         }
-        /// The offsets of the lanes' last symbols (from input index `first`),
-        /// which end the stream. Out of line: it runs once a stream.
+        /// The offsets of the lanes' last symbols (from input index `first`), which end the
+        /// stream. Out of line: it runs once a stream.
         #[inline(never)]
         fn tail_offsets(
             writer: &mut Writer<'_>,
@@ -2440,9 +2440,7 @@ pub mod field_notes {
         match k.checked_sub(LANES) {
             Some(j) => {
                 match input.get(j) {
-                    Some(&symbol) => {
-                        usize::from(ROW_SET[usize::from(symbol).min(123)]) & (SETS - 1)
-                    }
+                    Some(&symbol) => set_of(symbol),
                     None => FIRST_SET,
                 }
             }
@@ -2450,7 +2448,6 @@ pub mod field_notes {
         }
     }
     /// The table set that context symbol `symbol` chooses.
-    #[cfg(not(target_pointer_width = "64"))]
     #[inline(always)]
     fn set_of(symbol: Symbol) -> usize {
         usize::from(ROW_SET[usize::from(symbol).min(123)]) & (SETS - 1)

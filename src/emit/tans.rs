@@ -90,17 +90,24 @@ impl<'a> Offsets<'a> {
         }
     }
 
+    /// The place of value `v` (`before` the value before it, for deltas) where a bin search
+    /// finds the row; `None` where the emitted `code(v)` does (escapes).
+    fn place(self, v: TokenStream, before: TokenStream) -> Option<TokenStream> {
+        match self {
+            Offsets::Bins(i) if i.escape.is_none() => Some(if i.domain.delta {
+                quote!(place(#v, #before))
+            } else {
+                quote!(place(#v))
+            }),
+            Offsets::Bins(_) | Offsets::Escape(_) => None,
+        }
+    }
+
     /// `(row, offset, width)` of value `v`; `before` is the value before it (deltas).
     fn code(self, v: TokenStream, before: TokenStream) -> TokenStream {
-        match self {
-            Offsets::Bins(i) if i.escape.is_none() => {
-                if i.domain.delta {
-                    quote!(bin(place(#v, #before)))
-                } else {
-                    quote!(bin(place(#v)))
-                }
-            }
-            Offsets::Bins(_) | Offsets::Escape(_) => quote!(code(#v)),
+        match self.place(v.clone(), before) {
+            Some(place) => quote!(bin(#place)),
+            None => quote!(code(#v)),
         }
     }
 
@@ -112,15 +119,8 @@ impl<'a> Offsets<'a> {
     /// [`Offsets::code_at`] outside the symbol loop (the lanes' last symbols): the bin search
     /// out of line, so that it is not copied into every caller.
     fn code_at_once(self, v: TokenStream, k: TokenStream) -> TokenStream {
-        let place = match self {
-            Offsets::Bins(i) if i.escape.is_none() => {
-                if i.domain.delta {
-                    quote!(place(#v, previous(input, #k)))
-                } else {
-                    quote!(place(#v))
-                }
-            }
-            _ => return self.code_at(v, k),
+        let Some(place) = self.place(v.clone(), quote!(previous(input, #k))) else {
+            return self.code_at(v, k);
         };
         // The row comes back from out of line: bounded again for the table read.
         quote!({
@@ -207,31 +207,21 @@ impl<'a> Sets<'a> {
     }
 }
 
-/// Share of encoder steps that write no bits above which the 32-bit encoder branches around
-/// the bit push for them: a taken branch costs one instruction and saves four (the push and
-/// the flush test), an untaken one costs one; measured on the Cortex-M4 bench.
+/// Share of encoder steps that write no bits from which the 32-bit encoder branches around
+/// the bit push for them: a silent step then takes 8 instructions instead of 12 on the
+/// Cortex-M4, the others one more (measured with `gauge_status`).
 const SILENT_SHARE: f64 = 0.5;
 
 /// The expected share of encoder steps that write no bits: symbol `s` with `q` slots writes
 /// none from state `x` when `x < 2q`, and with the states spread about as `1/x` over
 /// `[L, 2L)` that happens with probability `log2(2q / L)` (when `q > L/2`).
-fn silent_share(plan: &CodecPlan, sets: &Sets<'_>) -> f64 {
-    let Some(first) = sets.all.first() else {
-        return 0.0;
-    };
-    let l = first.table_len() as f64;
-    let p = plan.model.probabilities();
-    // With several sets, the least silent set decides.
-    sets.all
+fn silent_share(plan: &CodecPlan, tans: &Tans) -> f64 {
+    let l = tans.table_len() as f64;
+    tans.slots
         .iter()
-        .map(|t| {
-            t.slots
-                .iter()
-                .zip(&p)
-                .map(|(&q, &ps)| ps * crate::quantize::log2(2.0 * f64::from(q) / l).clamp(0.0, 1.0))
-                .sum::<f64>()
-        })
-        .fold(f64::INFINITY, f64::min)
+        .zip(&plan.model.probabilities())
+        .map(|(&q, &p)| p * crate::quantize::log2(2.0 * f64::from(q) / l).clamp(0.0, 1.0))
+        .sum()
 }
 
 /// The pieces both paths share.
@@ -253,11 +243,10 @@ struct Parts<'a> {
     /// Most bits a state step reads.
     max_state_bits: u8,
     sets: &'a Sets<'a>,
-    /// Whether most encoder steps write no bits (a symbol owning most of the table): the
-    /// 32-bit encoder then skips the bit push and the flush test for them.
+    /// Whether most encoder steps write no bits (a symbol owning most of the table) in a
+    /// codec of one table set with joined rows (`PUT`): the 32-bit encoder then branches
+    /// around the bit push, the flush test and the copy's shift for them.
     mostly_silent: bool,
-    /// Whether the encoding rows join `spend` and `run` in one word (`PUT`).
-    joined_put: bool,
 }
 
 pub fn body(
@@ -378,8 +367,10 @@ pub fn body(
         offsets,
         max_state_bits: tans_all.decode.iter().map(|e| e.bits).max().unwrap_or(0),
         sets: &sets,
-        mostly_silent: offsets.is_none() && silent_share(plan, &sets) >= SILENT_SHARE,
-        joined_put: tans.joined_put(),
+        mostly_silent: offsets.is_none()
+            && !sets.many()
+            && tans.joined_put()
+            && silent_share(plan, tans) >= SILENT_SHARE,
     };
     let start_items = start_items(plan, &sets, input);
     let integer_items = offsets.map(|o| match o {
@@ -928,8 +919,7 @@ fn context_items(
         /// Where the first set's positions start.
         const FIRST_BASE: usize = FIRST_SET << TABLE_BITS;
     };
-    let set_of_cfg = quote!(#[cfg(not(target_pointer_width = "64"))]);
-    shared_context_items(plan, sets.all.len(), offsets, rows, positions, set_of_cfg)
+    shared_context_items(plan, sets.all.len(), offsets, rows, positions)
 }
 
 /// A rANS context codec's items (no decoder positions: its decoder keeps each lane's set).
@@ -937,26 +927,18 @@ pub fn rans_context_items(plan: &CodecPlan, rows: &mut RowSets) -> TokenStream {
     if plan.sets.len() <= 1 {
         return TokenStream::new();
     }
-    shared_context_items(
-        plan,
-        plan.sets.len(),
-        None,
-        rows,
-        TokenStream::new(),
-        TokenStream::new(),
-    )
+    shared_context_items(plan, plan.sets.len(), None, rows, TokenStream::new())
 }
 
 /// The context items of both methods: the sets, the first symbol's set, each encoding
-/// row's set as a context, `context_set` and `set_of`; `extra` adds method items, and
-/// `set_of_cfg` says where `set_of` is used.
+/// row's set as a context, `context_set` and (but with deltas) `set_of`; `extra` adds
+/// method items.
 fn shared_context_items(
     plan: &CodecPlan,
     sets: usize,
     offsets: Option<Offsets<'_>>,
     rows: &mut RowSets,
     extra: TokenStream,
-    set_of_cfg: TokenStream,
 ) -> TokenStream {
     let kind = plan.spec.kind.as_ref();
     let next_set = |s: u16| {
@@ -981,19 +963,24 @@ fn shared_context_items(
             quote!(#r)
         }
     };
-    // The set a context symbol chooses, from the symbol alone (not with deltas, whose row
-    // depends on the value before it too).
-    let set_of = if offsets.is_some_and(|o| o.delta()) {
-        TokenStream::new()
+    // The set a context symbol chooses, from the symbol alone; with deltas its row depends
+    // on the value before it too, found by its index `j`.
+    let (set_of, context_row_set) = if offsets.is_some_and(|o| o.delta()) {
+        (
+            TokenStream::new(),
+            quote!(usize::from(ROW_SET[#row]) & (SETS - 1)),
+        )
     } else {
-        quote! {
-            /// The table set that context symbol `symbol` chooses.
-            #set_of_cfg
-            #[inline(always)]
-            fn set_of(symbol: Symbol) -> usize {
-                usize::from(ROW_SET[#row]) & (SETS - 1)
-            }
-        }
+        (
+            quote! {
+                /// The table set that context symbol `symbol` chooses.
+                #[inline(always)]
+                fn set_of(symbol: Symbol) -> usize {
+                    usize::from(ROW_SET[#row]) & (SETS - 1)
+                }
+            },
+            quote!(set_of(symbol)),
+        )
     };
     let first_label = format!(
         " The set of a lane's first symbol: that of the context {}, the alphabet's first symbol.",
@@ -1016,7 +1003,7 @@ fn shared_context_items(
         fn context_set(input: &[Symbol], k: usize) -> usize {
             match k.checked_sub(LANES) {
                 Some(j) => match input.get(j) {
-                    Some(&symbol) => usize::from(ROW_SET[#row]) & (SETS - 1),
+                    Some(&symbol) => #context_row_set,
                     None => FIRST_SET,
                 },
                 None => FIRST_SET,
@@ -1689,6 +1676,27 @@ fn wide(r: &Rounds, parts: &Parts<'_>) -> TokenStream {
 
 /// The 32-bit path: one loop for every symbol, a 32-bit buffer refilled or flushed only when
 /// it must be.
+/// The 32-bit path's `tail_offsets`: the offsets of the lanes' last symbols, which end the
+/// stream, each pushed by `push` (binding `acc`, `offset`, `width`, `writer`).
+fn tail_offsets_fn(o: Offsets<'_>, push: TokenStream) -> TokenStream {
+    let tail_loop = tail_loop(o);
+    let code = o.code_at_once(quote!(symbol), quote!(first + i));
+    quote! {
+        /// The offsets of the lanes' last symbols (from input index `first`), which end the
+        /// stream. Out of line: it runs once a stream.
+        #[inline(never)]
+        fn tail_offsets(writer: &mut Writer<'_>, input: &[Symbol], first: usize, acc: u32) -> u32 {
+            let mut acc = acc;
+            let tail = input.get(first..).unwrap_or_default();
+            #tail_loop {
+                let (_, offset, width) = #code;
+                #push
+            }
+            acc
+        }
+    }
+}
+
 fn narrow(parts: &Parts<'_>) -> TokenStream {
     let FramingTokens {
         header_len, header, ..
@@ -1816,11 +1824,18 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             },
         ),
         Some(o) if short => {
-            let tail_loop = tail_loop(o);
             let max_state = Literal::u32_unsuffixed(u32::from(parts.max_state_bits));
             let max_offset = Literal::u32_unsuffixed(o.max_width());
             let here = o.code(quote!(symbol), quote!(before));
-            let code_first = o.code_at_once(quote!(symbol), quote!(first + i));
+            let tail_fn = tail_offsets_fn(
+                o,
+                quote! {
+                    acc = put_offset(acc, offset, width);
+                    if acc >> (32 - MOST) != 0 {
+                        acc = writer.flush(acc);
+                    }
+                },
+            );
             (
                 quote!(let (row, offset, width) = #here;),
                 // The last flush left `MOST` bits free: room for these and the state's.
@@ -1829,21 +1844,7 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
                     acc = tail_offsets(&mut writer, input, n - used, acc);
                 },
                 quote! {
-                    /// The offsets of the lanes' last symbols (from input index `first`),
-                    /// which end the stream. Out of line: it runs once a stream.
-                    #[inline(never)]
-                    fn tail_offsets(writer: &mut Writer<'_>, input: &[Symbol], first: usize, acc: u32) -> u32 {
-                        let mut acc = acc;
-                        let tail = input.get(first..).unwrap_or_default();
-                        #tail_loop {
-                            let (_, offset, width) = #code_first;
-                            acc = put_offset(acc, offset, width);
-                            if acc >> (32 - MOST) != 0 {
-                                acc = writer.flush(acc);
-                            }
-                        }
-                        acc
-                    }
+                    #tail_fn
 
                     /// Most bits a symbol's state step costs (its offset bits aside).
                     const MAX_STATE_BITS: u32 = #max_state;
@@ -1885,21 +1886,18 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             )
         }
         Some(o) => {
-            let code = o.code_at_once(quote!(symbol), quote!(n - used + i));
-            let tail_loop = tail_loop(o);
             let max_state = Literal::u32_unsuffixed(u32::from(parts.max_state_bits));
             let here = o.code(quote!(symbol), quote!(before));
+            let tail_fn = tail_offsets_fn(o, quote!(acc = put_offset(writer, acc, offset, width);));
             (
                 quote!(let (row, offset, width) = #here;),
                 quote!(self.acc = put_offset(writer, self.acc, offset, width);),
                 quote! {
-                    // The lanes' last symbols' offsets end the stream.
-                    #tail_loop {
-                        let (_, offset, width) = #code;
-                        acc = put_offset(&mut writer, acc, offset, width);
-                    }
+                    acc = tail_offsets(&mut writer, input, n - used, acc);
                 },
                 quote! {
+                    #tail_fn
+
                     /// Most bits a symbol's state step costs (its offset bits aside).
                     const MAX_STATE_BITS: u32 = #max_state;
 
@@ -1975,9 +1973,9 @@ fn narrow(parts: &Parts<'_>) -> TokenStream {
             )
         }
     };
-    // One encoder step. When most steps push no bits (one set, joined rows), a branch takes
-    // those around the push, the flush test and the shift that finds the copy number.
-    let put_step = if parts.mostly_silent && parts.joined_put && !many {
+    // One encoder step. When most steps push no bits, a branch takes those around the push,
+    // the flush test and the shift that finds the copy number.
+    let put_step = if parts.mostly_silent {
         quote! {
             let put = u32::from_le_bytes(PUT[row]);
             let bits = (x.wrapping_add(put) & 0xffff) >> (TABLE_BITS + 1);

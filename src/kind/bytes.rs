@@ -1,7 +1,7 @@
 //! `kind = "bytes"`: symbols are byte values, `Symbol = u8`.
 
 use super::{a_type, Escape, InputMap, Kind, KindEntry, Misfit, Misplaced, Scanner};
-use crate::method::{Direction, LayoutEntry};
+use crate::method::LayoutEntry;
 use proc_macro2::{Literal, TokenStream};
 use quote::quote;
 use std::ops::Range;
@@ -252,25 +252,11 @@ impl Kind for Bytes {
         self.escape.as_ref()
     }
 
-    fn widths(&self) -> Vec<u32> {
-        match &self.escape {
-            Some(e) => {
-                let mut w = vec![0; self.alphabet_len()];
-                w[e.symbol] = e.raw_bits;
-                w
-            }
+    fn extra_tables(&self, table_bits: u32) -> Vec<LayoutEntry> {
+        match self.escape {
+            Some(_) => super::escape_tables(table_bits).to_vec(),
             None => Vec::new(),
         }
-    }
-
-    fn extra_tables(&self, table_bits: u32) -> Vec<LayoutEntry> {
-        if self.escape.is_none() {
-            return Vec::new();
-        }
-        vec![
-            LayoutEntry::new("ESCAPED", "u32", 8, &[4], Direction::Encode),
-            LayoutEntry::new("WIDTHS", "u8", 1 << table_bits, &[1], Direction::Decode),
-        ]
     }
 }
 

@@ -356,17 +356,6 @@ impl Kind for Chars {
         self.escape.as_ref()
     }
 
-    fn widths(&self) -> Vec<u32> {
-        match &self.escape {
-            Some(e) => {
-                let mut w = vec![0; self.alphabet_len()];
-                w[e.symbol] = e.raw_bits;
-                w
-            }
-            None => Vec::new(),
-        }
-    }
-
     fn chars(&self) -> Option<&Chars> {
         Some(self)
     }
@@ -414,20 +403,7 @@ impl Kind for Chars {
             Direction::Decode,
         ));
         if self.escape.is_some() {
-            tables.push(LayoutEntry::new(
-                "ESCAPED",
-                "u32",
-                8,
-                &[4],
-                Direction::Encode,
-            ));
-            tables.push(LayoutEntry::new(
-                "WIDTHS",
-                "u8",
-                1 << table_bits,
-                &[1],
-                Direction::Decode,
-            ));
+            tables.extend(super::escape_tables(table_bits));
         }
         tables
     }

@@ -155,10 +155,29 @@ pub trait Kind: fmt::Debug + Send + Sync {
         None
     }
     /// Raw bits that follow each symbol (integer bins' offsets, an escape's value); empty
-    /// when no symbol carries any.
+    /// when no symbol carries any. By default the escape's raw bits, if there is one.
     fn widths(&self) -> Vec<u32> {
-        Vec::new()
+        match self.escape() {
+            Some(e) => {
+                let mut w = vec![0; self.alphabet_len()];
+                if let Some(slot) = w.get_mut(e.symbol) {
+                    *slot = e.raw_bits;
+                }
+                w
+            }
+            None => Vec::new(),
+        }
     }
+}
+
+/// The tables an escape of raw-value input adds (the emitter's `escape_items`): which input
+/// values escape, and the raw bits after the symbol at each table position.
+pub fn escape_tables(table_bits: u32) -> [crate::method::LayoutEntry; 2] {
+    use crate::method::{Direction, LayoutEntry};
+    [
+        LayoutEntry::new("ESCAPED", "u32", 8, &[4], Direction::Encode),
+        LayoutEntry::new("WIDTHS", "u8", 1 << table_bits, &[1], Direction::Decode),
+    ]
 }
 
 /// Keys of escapes (`bytes`, `chars`, `integers`).
