@@ -17,7 +17,7 @@ mod generated {
     precast_macros::codecs!("tests/specs/chars.toml");
 }
 
-use common::{root, Rng};
+use common::{render_failure, root, scratch, Rng};
 use generated::*;
 use precast::spec::Framing;
 use precast::verify::Reference;
@@ -356,26 +356,6 @@ fn unknown_character_position_slices_the_input() {
 // Specs and samples
 // ---------------------------------------------------------------------------------------
 
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("precast-chars-{}-{name}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
-/// The message of rendering `spec` (in a folder with `files`), which must fail.
-fn failure(name: &str, spec: &str, files: &[(&str, &[u8])]) -> String {
-    let dir = scratch(name);
-    for (file, bytes) in files {
-        std::fs::write(dir.join(file), bytes).unwrap();
-    }
-    let path = dir.join("codecs.toml");
-    std::fs::write(&path, spec).unwrap();
-    match precast::render(&path) {
-        Ok(_) => panic!("{name}: the spec must fail"),
-        Err(e) => e.to_string(),
-    }
-}
-
 const SAMPLE_SPEC: &str = r#"
 [codec.notes]
 kind = "chars"
@@ -427,7 +407,7 @@ fn bad_sample_files_are_located() {
         ),
     ];
     for (name, sample, at, message) in cases {
-        let e = failure(
+        let e = render_failure(
             &name.replace(' ', "_"),
             SAMPLE_SPEC,
             &[("notes.txt", sample)],
@@ -467,7 +447,7 @@ fn characters_across_read_blocks() {
     // A bad byte inside a character that straddles the block boundary.
     let mut bytes = vec![b'a'; BLOCK - 2];
     bytes.extend_from_slice(b"\xf0\x9f\x41\x41");
-    let e = failure("blocks_bad", SAMPLE_SPEC, &[("notes.txt", &bytes)]);
+    let e = render_failure("blocks_bad", SAMPLE_SPEC, &[("notes.txt", &bytes)]);
     assert!(e.contains(&format!("(byte offset {})", BLOCK - 2)), "{e}");
 }
 
@@ -585,7 +565,7 @@ fn chars_spec_errors_are_located() {
     ];
     for (name, body, message) in cases {
         let spec = format!("[codec.notes]\n{body}\n");
-        let e = failure(&name.replace(' ', "_"), &spec, &[]);
+        let e = render_failure(&name.replace(' ', "_"), &spec, &[]);
         assert!(e.contains("codecs.toml:"), "{name}: {e}");
         assert!(e.contains(message), "{name}: {e}");
     }

@@ -4,10 +4,10 @@
 
 mod common;
 
-use common::Rng;
+use common::{render_failure, Rng};
 use precast::kind::integers::{choose_bins, coded_bits, Bin};
 use std::collections::BTreeMap;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 /// Every partition of places `start .. start + 2^level` (clipped to `0 .. size`) into aligned
 /// dyadic bins, by brute force.
@@ -91,26 +91,6 @@ fn no_training_data_gives_the_fewest_bins() {
     }
 }
 
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("precast-integers-{}-{name}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir
-}
-
-/// The message of rendering `spec` (in a folder with `files`), which must fail.
-fn failure(name: &str, spec: &str, files: &[(&str, &[u8])]) -> String {
-    let dir = scratch(name);
-    for (file, bytes) in files {
-        std::fs::write(dir.join(file), bytes).unwrap();
-    }
-    let path = dir.join("codecs.toml");
-    std::fs::write(&path, spec).unwrap();
-    match precast::render(&path) {
-        Ok(_) => panic!("{name}: the spec must fail"),
-        Err(e) => e.to_string(),
-    }
-}
-
 const SAMPLE_SPEC: &str = r#"
 [codec.level]
 kind = "integers"
@@ -155,7 +135,7 @@ fn bad_sample_files_are_located() {
         ),
     ];
     for (name, sample, at, message) in cases {
-        let e = failure(name, SAMPLE_SPEC, &[("levels.txt", sample)]);
+        let e = render_failure(name, SAMPLE_SPEC, &[("levels.txt", sample)]);
         assert!(e.contains(at), "{name}: {e}");
         assert!(e.contains(message), "{name}: {e}");
         assert!(e.contains("codec `level`"), "{name}: {e}");
@@ -209,7 +189,7 @@ fn integers_spec_errors_are_located() {
     ];
     for (name, body, message) in cases {
         let spec = format!("[codec.level]\n{body}\n");
-        let e = failure(&name.replace(' ', "_"), &spec, &[]);
+        let e = render_failure(&name.replace(' ', "_"), &spec, &[]);
         assert!(e.contains("codecs.toml:"), "{name}: {e}");
         assert!(e.contains(message), "{name}: {e}");
     }

@@ -53,3 +53,24 @@ pub fn small_codec(name: &str) -> precast::Built {
         .expect("codec exists");
     precast::build_codec(codec).expect("codec builds")
 }
+
+/// A fresh folder for test files, unique to this test process and `name`.
+pub fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("precast-test-{}-{name}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+/// The message of rendering `spec` (in a folder with `files`), which must fail.
+pub fn render_failure(name: &str, spec: &str, files: &[(&str, &[u8])]) -> String {
+    let dir = scratch(name);
+    for (file, bytes) in files {
+        std::fs::write(dir.join(file), bytes).unwrap();
+    }
+    let path = dir.join("codecs.toml");
+    std::fs::write(&path, spec).unwrap();
+    match precast::render(&path) {
+        Ok(_) => panic!("{name}: the spec must fail"),
+        Err(e) => e.to_string(),
+    }
+}
