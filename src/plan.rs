@@ -88,10 +88,21 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
     let probabilities = model.probabilities();
     let sizing = sizing::choose(spec, &model.counts, &probabilities).map_err(in_codec)?;
     let mut spec = spec.clone();
+    let mut sizing = sizing;
     if let Some(choice) = sizing.as_ref().and_then(|s| s.choice()) {
         spec.method = choice.candidate.method;
         spec.lookup = choice.candidate.lookup;
         spec.table_bits = choice.candidate.table_bits;
+    }
+    // A context codec's open table size stops at CONTEXT_TABLE_BITS: every set multiplies
+    // the tables, and larger sets gain little.
+    if spec.context_tables.is_some()
+        && !spec.given.table_bits
+        && spec.table_bits > CONTEXT_TABLE_BITS
+    {
+        let smallest = crate::spec::smallest_table_bits(spec.kind.alphabet_len());
+        spec.table_bits = CONTEXT_TABLE_BITS.max(smallest);
+        sizing = None;
     }
     let set = table_set(
         &spec,
@@ -110,27 +121,6 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
             )));
         }
     }
-    // A context codec's open table size stops at CONTEXT_TABLE_BITS: every set multiplies
-    // the tables, and larger sets gain little.
-    let mut set = set;
-    let mut sizing = sizing;
-    if spec.context_tables.is_some()
-        && !spec.given.table_bits
-        && spec.table_bits > CONTEXT_TABLE_BITS
-    {
-        let smallest = crate::spec::smallest_table_bits(spec.kind.alphabet_len());
-        spec.table_bits = CONTEXT_TABLE_BITS.max(smallest);
-        set = table_set(
-            &spec,
-            &model.counts,
-            &probabilities,
-            spec.table_bits,
-            rows,
-            absent,
-        )
-        .map_err(in_codec)?;
-        sizing = None;
-    }
     let pairs = match spec.context_tables {
         Some(_) => Some(context_pairs(&spec, &model).map_err(in_codec)?),
         None => None,
@@ -144,8 +134,13 @@ pub fn plan(spec: &CodecSpec, samples: Vec<crate::load::Sample>) -> Result<Codec
             for bits in (smallest..=spec.table_bits).rev() {
                 let mut at = spec.clone();
                 at.table_bits = bits;
-                let order0 = table_set(&at, &model.counts, &probabilities, bits, rows, absent)
-                    .map_err(in_codec)?;
+                // The order-0 tables at the size already built are those.
+                let order0 = if bits == spec.table_bits {
+                    set.clone()
+                } else {
+                    table_set(&at, &model.counts, &probabilities, bits, rows, absent)
+                        .map_err(in_codec)?
+                };
                 let tried = context_sets(&at, &model, pairs, order0, most, rows, absent)
                     .map_err(in_codec)?;
                 let price = tried.2.price;
